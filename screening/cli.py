@@ -1,0 +1,260 @@
+"""The ``heatscreen`` command line: a thin shell around the screening core.
+
+Exit codes: 0 all pass; 1 some verdict is review or fail; 2 invalid input or
+usage; 3 a failure inside the tool.
+"""
+from __future__ import annotations
+
+import csv
+import json
+import os
+import sys
+import tempfile
+from pathlib import Path
+from typing import Optional
+
+import typer
+
+app = typer.Typer(add_completion=False, no_args_is_help=True, pretty_exceptions_enable=False,
+                  help="Loss-of-cooling and runaway screening for vessels. Screening estimates only: not a design "
+                       "or relief-sizing calculation; defer to codes, test data and qualified review.")
+
+EXIT_OK, EXIT_REVIEW, EXIT_INVALID, EXIT_INTERNAL = 0, 1, 2, 3
+
+
+class _State:
+    debug = False
+
+
+def _print_problems(problems, where: str | None = None) -> None:
+    head = f"{where}: " if where else ""
+    typer.echo(f"{head}invalid input ({len(problems)} problem{'s' if len(problems) != 1 else ''}):", err=True)
+    for p in problems:
+        typer.echo(f"  {p.field}: {p.message}", err=True)
+
+
+def _fail_internal(exc: BaseException) -> None:
+    if _State.debug:
+        raise exc
+    typer.echo(f"heatscreen: internal error: {type(exc).__name__}: {exc}. Run again with --debug for details.",
+               err=True)
+    raise typer.Exit(EXIT_INTERNAL)
+
+
+def screen_file(path: str, rules_path: str | None = None):
+    """Load, validate and screen one case file; returns the full result dict."""
+    from .case_files import load_case_file
+    from .case_to_model import prepare_case
+    from .screening_run import screen_prepared
+
+    loaded = load_case_file(path)
+    prepared = prepare_case(loaded.spec)
+    result = screen_prepared(prepared, loaded.input_hash)
+    apply_rules(result, rules_path)
+    return result
+
+
+def apply_rules(result: dict, rules_path: str | None) -> None:
+    try:
+        from . import rules
+    except ImportError:  # pragma: no cover - rules not available
+        return
+    rule_set = rules.load_rule_set(rules_path)
+    rules.apply_verdict(result, rules.evaluate(rule_set, result))
+
+
+def _exit_for(results: list[dict]) -> int:
+    return EXIT_REVIEW if any(r.get("verdict") in ("review", "fail") for r in results) else EXIT_OK
+
+
+def write_atomic_text(path: Path, text: str) -> None:
+    path = Path(path)
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", dir=str(path.parent or "."))
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8", newline="") as fh:
+            fh.write(text)
+        os.replace(tmp, path)
+    except BaseException:
+        try:
+            os.unlink(tmp)
+        except OSError:
+            pass
+        raise
+
+
+def history_csv(result: dict) -> str:
+    from io import StringIO
+
+    from .units import kelvin_to
+
+    unit = result["units"]["temperature"]
+    h = result["_history"]
+    buf = StringIO()
+    w = csv.writer(buf, lineterminator="\n")
+    w.writerow(["time_s", "time_h", "temperature_K", f"temperature_{unit}", "heat_generation_W", "heat_loss_W"])
+    for t, T, g, l in zip(h["time_s"], h["temperature_K"], h["generation_W"], h["loss_W"]):
+        w.writerow([f"{t:.9g}", f"{t / 3600:.9g}", f"{T:.9g}", f"{kelvin_to(T, unit):.9g}", f"{g:.9g}", f"{l:.9g}"])
+    return buf.getvalue()
+
+
+def _guard(fn):
+    """Run a command body: input problems -> exit 2, anything unexpected -> exit 3."""
+    from .case_schema import CaseError
+
+    try:
+        return fn()
+    except CaseError as exc:
+        _print_problems(exc.problems)
+        raise typer.Exit(EXIT_INVALID)
+    except typer.Exit:
+        raise
+    except Exception as exc:  # noqa: BLE001
+        rule_error = _rule_error(exc)
+        if rule_error:
+            _print_problems(rule_error, "rule set")
+            raise typer.Exit(EXIT_INVALID)
+        template_error = _template_error(exc)
+        if template_error:
+            typer.echo(f"templates: {template_error}", err=True)
+            raise typer.Exit(EXIT_INVALID)
+        _fail_internal(exc)
+
+
+def _rule_error(exc):
+    try:
+        from .rules import RuleSetError
+    except ImportError:  # pragma: no cover
+        return None
+    if isinstance(exc, RuleSetError):
+        from .case_schema import FieldProblem
+
+        return [FieldProblem(f, m) for f, m in exc.problems]
+    return None
+
+
+def _template_error(exc):
+    if type(exc).__name__ == "TemplateError":
+        return str(exc)
+    return None
+
+
+@app.callback()
+def main(debug: bool = typer.Option(False, "--debug", help="Show a traceback on internal errors.")):
+    _State.debug = debug
+
+
+@app.command()
+def check(case: str = typer.Argument(..., help="Case file (YAML, TOML or JSON)."),
+          json_out: bool = typer.Option(False, "--json", help="Print the result as JSON."),
+          history: Optional[Path] = typer.Option(None, "--history", help="Write the temperature history to a CSV file."),
+          rules: Optional[str] = typer.Option(None, "--rules", help="Rule set file (TOML); default: the shipped set.")):
+    """Screen one case: time to each limit, peak, steady state, criteria, verdict."""
+    from .report_text import format_result
+    from .screening_run import public_result
+
+    def body():
+        result = screen_file(case, rules)
+        if history is not None:
+            write_atomic_text(history, history_csv(result))
+        if json_out:
+            typer.echo(json.dumps(public_result(result), indent=2, ensure_ascii=False, allow_nan=False))
+        else:
+            typer.echo(format_result(result))
+        return _exit_for([result])
+
+    raise typer.Exit(_guard(body))
+
+
+@app.command()
+def memo(case: str = typer.Argument(..., help="Case file (YAML, TOML or JSON)."),
+         output: Path = typer.Option(..., "-o", "--output", help="PDF file to write."),
+         rules: Optional[str] = typer.Option(None, "--rules", help="Rule set file (TOML)."),
+         templates: Optional[Path] = typer.Option(None, "--templates", help="Folder of memo templates.")):
+    """Write a PDF review memo for one case."""
+
+    def body():
+        result = screen_file(case, rules)
+        from .memo_writer import write_memo
+        from .screening_run import memo_view
+
+        write_memo(memo_view(result), output, templates_dir=templates)
+        typer.echo(f"wrote {output}")
+        return _exit_for([result])
+
+    raise typer.Exit(_guard(body))
+
+
+@app.command()
+def example(output: Optional[Path] = typer.Argument(None, help="Where to write it (default: print).")):
+    """Write an annotated example case to start from."""
+    from importlib.resources import files
+
+    text = files("screening").joinpath("demo_cases/example_case.yaml").read_text(encoding="utf-8")
+    if output is None:
+        typer.echo(text, nl=False)
+    else:
+        write_atomic_text(output, text)
+        typer.echo(f"wrote {output}")
+
+
+@app.command()
+def schema():
+    """Print the JSON Schema of the case-file format."""
+    from .case_schema import case_json_schema
+
+    typer.echo(json.dumps(case_json_schema(), indent=2))
+
+
+@app.command()
+def demo(out: Path = typer.Option(Path("heatscreen-demo"), "--out", help="Folder for the demo memos."),
+         memos: bool = typer.Option(True, "--memos/--no-memos", help="Write a memo for each demo case.")):
+    """Screen the bundled demo cases (an invented site) and print the results."""
+    from importlib.resources import files
+
+    from .report_text import format_result
+
+    def body():
+        folder = files("screening").joinpath("demo_cases")
+        names = sorted(p.name for p in folder.iterdir() if p.name.endswith(".yaml") and p.name != "example_case.yaml")
+        results = []
+        for name in names:
+            path = str(folder.joinpath(name))
+            result = screen_file(path)
+            results.append(result)
+            typer.echo(format_result(result))
+            typer.echo("")
+        if memos:
+            try:
+                from .memo_writer import write_memo
+            except ImportError:
+                write_memo = None
+            if write_memo is not None:
+                from .screening_run import memo_view
+
+                out.mkdir(parents=True, exist_ok=True)
+                for r in results:
+                    target = out / f"{r['id']}.pdf"
+                    write_memo(memo_view(r), target)
+                typer.echo(f"wrote {len(results)} memos to {out}/")
+        typer.echo("Summary:")
+        for r in results:
+            first = min((l["time_s"] for l in r["limits"] if l["time_s"] is not None), default=None)
+            from .report_text import duration
+
+            typer.echo(f"  {r['id']:<12} {str(r.get('verdict', '')).upper():<7} first limit "
+                       f"{duration(first) if first is not None else 'not reached'}")
+        return EXIT_OK
+
+    raise typer.Exit(_guard(body))
+
+
+def run():  # console-script entry point
+    try:
+        app()
+    except KeyboardInterrupt:
+        typer.echo("interrupted", err=True)
+        sys.exit(130)
+
+
+if __name__ == "__main__":
+    run()
