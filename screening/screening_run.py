@@ -170,7 +170,7 @@ def boiling_closed_form(model, balance, t_boil, credit, unit):
     is positive; N falls with time, so boiling runs from t_boil until N = 0
     or the contents are dry.  Vapour rate N / latent heat.
     """
-    from scipy.optimize import brentq
+    from .root_finding import brent_root as brentq
 
     boil = model.boiling
     warnings = ["Vent and relief sizing are out of scope: the boil-off figures are not a vent or relief-sizing "

@@ -25,19 +25,11 @@ class HistoryShape:
     end_rate: float  # K/s at the horizon
 
 
-def _scalar(balance: LinearBalance) -> LinearBalance:
-    return balance
-
-
 def _brent(f, a: float, b: float, fa: float, fb: float, tol: float) -> float:
     """Brent's root finder on a bracket [a, b] with f(a), f(b) of opposite sign (or zero)."""
-    from scipy.optimize import brentq
+    from .root_finding import brent_root
 
-    if fa == 0.0:
-        return a
-    if fb == 0.0:
-        return b
-    return float(brentq(f, a, b, xtol=tol, rtol=4 * np.finfo(float).eps, maxiter=200))
+    return float(brent_root(f, a, b, fa, fb, xtol=tol, rtol=4 * np.finfo(float).eps, maxiter=300))
 
 
 def time_scales(balance: LinearBalance, horizon: float) -> list[float]:

@@ -87,11 +87,16 @@ def liquid_height(v: VesselShape, liquid_volume: float) -> float:
         return liquid_volume / (v.length * v.width)
     if v.shape == "sphere":
         from fluids.geometry import V_partial_sphere
-        from scipy.optimize import brentq
+        from .root_finding import brent_root as brentq
 
         return float(brentq(lambda h: V_partial_sphere(v.diameter, h) - liquid_volume, 0.0, v.diameter,
                             xtol=1e-12, rtol=1e-14))
-    return float(_tank(v).h_from_V(liquid_volume))
+    tank = _tank(v)
+    # Invert the monotone V(h) ourselves: fluids' h_from_V builds a spline table (slow to import).
+    from .root_finding import brent_root
+
+    return float(brent_root(lambda h: float(tank.V_from_h(h)) - liquid_volume, 0.0, float(tank.h_max),
+                            xtol=1e-13, rtol=1e-15))
 
 
 def wetted_area(v: VesselShape, liquid_volume: float) -> float:
