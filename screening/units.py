@@ -122,12 +122,70 @@ def _compound_to_differences(unit: str) -> str:
     return _TOKEN.sub(swap, unit)
 
 
+# Units common on data sheets, by dimension. Their SI factors are computed with pint once and
+# shipped in screening/data/unit_table.json (rebuilt with `python -m screening.units`), so that a
+# case that uses only these never pays for building a pint registry. A test checks the table
+# against pint; any other unit text goes to pint.
+COMMON_UNITS: dict[str, tuple[str, ...]] = {
+    "length": ("m", "mm", "cm", "km", "ft", "in", "inch", "yd"),
+    "area": ("m^2", "m**2", "cm^2", "mm^2", "ft^2", "ft**2", "in^2"),
+    "volume": ("m^3", "m**3", "L", "l", "liter", "litre", "mL", "gal", "ft^3", "ft**3", "bbl"),
+    "mass": ("kg", "g", "t", "tonne", "lb", "lbs", "mg"),
+    "density": ("kg/m^3", "kg/m**3", "g/cm^3", "g/mL", "kg/L", "lb/ft^3", "lb/gal", "t/m^3"),
+    "time": ("s", "sec", "min", "h", "hr", "hour", "hours", "d", "day", "days", "week", "ms"),
+    "power": ("W", "kW", "MW", "mW", "Btu/h", "Btu/hr", "hp", "kcal/h", "J/s", "MJ/h", "kJ/h", "kJ/s"),
+    "specific_power": ("W/kg", "mW/g", "mW/kg", "W/g", "kW/kg", "W/t", "Btu/(lb*h)", "J/(kg*s)"),
+    "specific_heat": ("J/(kg*K)", "kJ/(kg*K)", "J/(g*K)", "kJ/(kg*degC)", "J/(kg*degC)", "J/(g*degC)",
+                      "Btu/(lb*degF)", "cal/(g*K)", "cal/(g*degC)", "kcal/(kg*K)", "kcal/(kg*degC)",
+                      "kJ/kg/K", "J/kg/K"),
+    "heat_capacity": ("J/K", "kJ/K", "MJ/K", "Btu/degF", "J/degC", "kJ/degC"),
+    "conductance": ("W/K", "kW/K", "W/degC", "kW/degC", "Btu/(h*degF)", "Btu/(hr*degF)", "Btu/h/degF"),
+    "heat_transfer_coefficient": ("W/(m^2*K)", "W/(m^2*degC)", "W/m^2/K", "kW/(m^2*K)",
+                                  "Btu/(h*ft^2*degF)", "Btu/(hr*ft^2*degF)"),
+    "thermal_conductivity": ("W/(m*K)", "W/(m*degC)", "W/m/K", "Btu/(h*ft*degF)", "Btu/(hr*ft*degF)"),
+    "molar_energy": ("J/mol", "kJ/mol", "kcal/mol", "cal/mol", "MJ/kmol", "kJ/kmol"),
+    "specific_energy": ("J/kg", "kJ/kg", "MJ/kg", "J/g", "kJ/g", "cal/g", "kcal/kg", "Btu/lb"),
+    "temperature_difference": ("delta_degC", "delta_degF"),
+}
+
+
+@functools.lru_cache(maxsize=1)
+def _shipped_table() -> dict:
+    import json
+    from importlib.resources import files
+
+    try:
+        text = files("screening").joinpath("data/unit_table.json").read_text(encoding="utf-8")
+    except (FileNotFoundError, OSError):
+        return {}
+    return json.loads(text)
+
+
+def build_unit_table() -> dict:
+    """SI factors of COMMON_UNITS computed with pint (for screening/data/unit_table.json)."""
+    table: dict[str, dict[str, float]] = {}
+    for dimension, units in COMMON_UNITS.items():
+        table[dimension] = {u: _pint_factor(u, dimension)[0] for u in units}
+    return table
+
+
 @functools.lru_cache(maxsize=4096)
 def unit_factor(unit: str, dimension: str) -> tuple[float, float]:
     """(scale, offset) such that SI = value * scale + offset, for a unit text.
 
     Raises UnitError for an unknown unit or the wrong dimension.
     """
+    stripped = unit.strip()
+    if stripped in ("ton", "tons"):
+        raise UnitError("'ton' is ambiguous (short ton 907.18 kg, long ton 1016.05 kg, tonne 1000 kg); "
+                        "write t or tonne, short_ton or long_ton")
+    shipped = _shipped_table().get(dimension, {})
+    if stripped in shipped:
+        return (float(shipped[stripped]), 0.0)
+    return _pint_factor(unit, dimension)
+
+
+def _pint_factor(unit: str, dimension: str) -> tuple[float, float]:
     unit = _normalise_unit_text(unit)
     if dimension == "temperature":
         if unit in _TEMPERATURE_UNITS:
@@ -227,3 +285,13 @@ def kelvin_to(value_k: float, unit: str) -> float:
 def kelvin_difference_to(value_k: float, unit: str) -> float:
     """Convert a temperature difference from K to a display unit's difference."""
     return value_k * 9.0 / 5.0 if unit in ("degF", "degR") else value_k
+
+
+if __name__ == "__main__":  # rebuild the shipped table of common units
+    import json
+    from pathlib import Path
+
+    target = Path(__file__).parent / "data" / "unit_table.json"
+    target.parent.mkdir(exist_ok=True)
+    target.write_text(json.dumps(build_unit_table(), indent=1, sort_keys=True) + "\n", encoding="utf-8")
+    print(f"wrote {target}")
