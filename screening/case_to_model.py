@@ -150,7 +150,7 @@ def prepare_case(spec: CaseSpec) -> PreparedCase:
             arrh.append(m.ArrheniusSource(s.specific_power.si, s.reference_temperature.si, s.activation_energy.si,
                                           float(s.order),
                                           s.specific_heat_of_reaction.si if s.specific_heat_of_reaction else None,
-                                          af, s.gas_generating))
+                                          af, s.gas_generating, _tested_range(s)))
         elif isinstance(s, FireSpec):
             fires.append(_fire_source(s, i, shape, liquid_volume, problems, warnings))
     if problems:
@@ -194,6 +194,13 @@ def prepare_case(spec: CaseSpec) -> PreparedCase:
     return prepared
 
 
+def _tested_range(s: ArrheniusSpec):
+    if s.tested_range is None:
+        return None
+    lo, hi = (parse_quantity(v["value"] if isinstance(v, dict) else v, "temperature").value for v in s.tested_range)
+    return (min(lo, hi), max(lo, hi))
+
+
 def _fire_source(s: FireSpec, index: int, shape, liquid_volume, problems, warnings) -> m.FireExposure:
     from .fire_exposure import api521_fire_heat_input
 
@@ -208,5 +215,6 @@ def _fire_source(s: FireSpec, index: int, shape, liquid_volume, problems, warnin
                                      "a fire source needs wetted_area, or a vessel and the liquid volume "
                                      "(contents.density) to compute it"))
         return m.FireExposure(0.0, 0.0, F, s.drainage_and_firefighting)
-    power = float(api521_fire_heat_input(area, F, s.drainage_and_firefighting))
-    return m.FireExposure(power, area, F, s.drainage_and_firefighting)
+    fire = api521_fire_heat_input(area, F, s.drainage_and_firefighting)
+    warnings.extend(c for c in fire.cautions if c not in warnings)
+    return m.FireExposure(float(fire.power), area, F, s.drainage_and_firefighting)

@@ -232,9 +232,10 @@ def demo(out: Path = typer.Option(Path("heatscreen-demo"), "--out", help="Folder
                 from .screening_run import memo_view
 
                 out.mkdir(parents=True, exist_ok=True)
+                demo_templates = Path(str(folder.joinpath("templates")))
                 for r in results:
                     target = out / f"{r['id']}.pdf"
-                    write_memo(memo_view(r), target)
+                    write_memo(memo_view(r), target, templates_dir=demo_templates)
                 typer.echo(f"wrote {len(results)} memos to {out}/")
         typer.echo("Summary:")
         for r in results:

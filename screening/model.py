@@ -53,6 +53,7 @@ class ArrheniusSource:
     specific_heat_of_reaction: float | None = None  # J/kg
     accumulated_fraction: float = 1.0
     gas_generating: bool = False
+    tested_range: tuple[float, float] | None = None  # K, where the kinetics were measured
 
 
 @dataclass(frozen=True)

@@ -343,7 +343,7 @@ def screen_prepared(prepared: PreparedCase, input_hash: str | None = None) -> di
 
         result["fire"] = [{"power_W": f.power, "wetted_area_m2": f.wetted_area, "environment_factor": f.environment_factor,
                            "drainage_and_firefighting": f.drainage_and_firefighting} for f in model.fire_sources]
-        result["warnings"].extend(FIRE_CAUTIONS)
+        result["warnings"].extend(c for c in FIRE_CAUTIONS if c not in result["warnings"])
     result["geometry"] = prepared.geometry or None
     result["inputs"] = prepared.inputs
     result["units"] = {"temperature": prepared.display_temperature_unit}
