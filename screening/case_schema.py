@@ -8,6 +8,7 @@ The same schema validates case files and register rows.
 from __future__ import annotations
 
 import difflib
+import reprlib
 from dataclasses import dataclass
 from typing import Annotated, Any, Literal, Union
 
@@ -65,6 +66,17 @@ def _make_quantity_validator(dimension: str, check: str | None):
     return validate
 
 
+@dataclass(frozen=True)
+class QuantityField:
+    """Marker on a quantity field: its dimension and range check (used by the register fast path)."""
+
+    dimension: str
+    check: str | None
+
+    def validator(self):
+        return _make_quantity_validator(self.dimension, self.check)
+
+
 def Q(dimension: str, check: str | None = None):
     """Annotated type for a quantity field of a given dimension."""
     example = DIMENSION_WORDS[dimension]
@@ -76,7 +88,19 @@ def Q(dimension: str, check: str | None = None):
              "required": ["value"], "additionalProperties": False},
         ] + ([{"type": "number"}] if dimension == "fraction" else []),
     }
-    return Annotated[Any, BeforeValidator(_make_quantity_validator(dimension, check)), WithJsonSchema(schema)]
+    return Annotated[Any, BeforeValidator(_make_quantity_validator(dimension, check)), WithJsonSchema(schema),
+                     QuantityField(dimension, check)]
+
+
+def quantity_field(owner: BaseModel, name: str) -> QuantityField | None:
+    """The QuantityField marker of field ``name`` on a validated model instance, if it is a quantity."""
+    info = type(owner).model_fields.get(name)
+    if info is None:
+        return None
+    for item in info.metadata:
+        if isinstance(item, QuantityField):
+            return item
+    return None
 
 
 class Strict(BaseModel):
@@ -324,6 +348,19 @@ class CaseError(Exception):
         super().__init__("; ".join(f"{p.field}: {p.message}" for p in problems))
 
 
+_SHORT = reprlib.Repr()
+_SHORT.maxstring, _SHORT.maxother, _SHORT.maxlist, _SHORT.maxdict, _SHORT.maxlevel = 60, 60, 4, 4, 2
+
+
+def _show(value: Any) -> str:
+    """A short repr of an offending input for a message.
+
+    YAML aliases can make a small file hold a structure with billions of
+    elements (shared, never expanded in memory); a plain repr would expand it.
+    """
+    return _SHORT.repr(value)
+
+
 def _allowed_fields(model: type[BaseModel]) -> list[str]:
     return list(model.model_fields)
 
@@ -369,10 +406,10 @@ def problems_from_validation_error(exc: ValidationError, data: Any = None) -> li
             if kind is None:
                 msg = f"a heat source needs a kind: one of {', '.join(SOURCE_KINDS)}"
             else:
-                msg = f"unknown heat source kind '{kind}'; expected one of {', '.join(SOURCE_KINDS)}"
+                msg = f"unknown heat source kind {_show(kind)}; expected one of {', '.join(SOURCE_KINDS)}"
         elif etype == "literal_error":
             expected = err.get("ctx", {}).get("expected", "")
-            msg = f"'{err.get('input')}' is not allowed; expected {expected}"
+            msg = f"{_show(err.get('input'))} is not allowed; expected {expected}"
         elif etype in ("model_type", "model_attributes_type", "dict_type"):
             msg = f"expected a mapping of fields, got {type(err.get('input')).__name__}"
         elif etype == "list_type":
@@ -382,13 +419,13 @@ def problems_from_validation_error(exc: ValidationError, data: Any = None) -> li
         elif etype == "string_too_short":
             msg = "must not be empty"
         elif etype in ("string_type",):
-            msg = f"expected text, got {err.get('input')!r}"
+            msg = f"expected text, got {_show(err.get('input'))}"
         elif etype in ("float_parsing", "float_type"):
-            msg = f"expected a number, got {err.get('input')!r}"
+            msg = f"expected a number, got {_show(err.get('input'))}"
         elif etype in ("bool_parsing", "bool_type"):
-            msg = f"expected true or false, got {err.get('input')!r}"
+            msg = f"expected true or false, got {_show(err.get('input'))}"
         elif etype in ("greater_than_equal", "less_than_equal"):
-            msg = f"{msg.lower()} (got {err.get('input')!r})"
+            msg = f"{msg.lower()} (got {_show(err.get('input'))})"
         problems.append(FieldProblem(format_location(loc) or "(case)", msg))
     return problems
 

@@ -35,21 +35,30 @@ class PreparedCase:
     surface_coefficient: float | None = None
 
 
-def collect_inputs(obj, prefix: str = "") -> list[dict]:
+_FIELD_NAMES: dict = {}
+
+
+def collect_inputs(obj, prefix: str = "", out: list | None = None) -> list[dict]:
     """Every quantity in a case, with its path, text as written, SI value and source."""
-    out: list[dict] = []
+    if out is None:
+        out = []
     if isinstance(obj, Quantity):
         out.append({"field": prefix, "text": obj.text, "value_si": obj.si, "unit_si": obj.si_unit,
                     "source": obj.source})
     elif isinstance(obj, BaseModel):
-        for name in type(obj).model_fields:
-            value = getattr(obj, name)
-            if value is None:
+        cls = type(obj)
+        names = _FIELD_NAMES.get(cls)
+        if names is None:
+            names = _FIELD_NAMES[cls] = tuple(cls.model_fields)
+        d = obj.__dict__
+        for name in names:
+            value = d.get(name)
+            if value is None or isinstance(value, (str, bool, int, float)):
                 continue
-            out.extend(collect_inputs(value, f"{prefix}.{name}" if prefix else name))
+            collect_inputs(value, f"{prefix}.{name}" if prefix else name, out)
     elif isinstance(obj, (list, tuple)):
         for i, item in enumerate(obj):
-            out.extend(collect_inputs(item, f"{prefix}.{i}"))
+            collect_inputs(item, f"{prefix}.{i}", out)
     return out
 
 

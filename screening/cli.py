@@ -185,6 +185,83 @@ def memo(case: str = typer.Argument(..., help="Case file (YAML, TOML or JSON).")
 
 
 @app.command()
+def batch(register: Path = typer.Argument(..., help="Register of vessels (.csv or .xlsx), one row per case."),
+          out: Path = typer.Option(..., "--out", help="Folder for results.json, results.csv, errors.csv, summary.pdf."),
+          base: Optional[Path] = typer.Option(None, "--base", help="Base case file supplying what a row does not."),
+          rules: Optional[str] = typer.Option(None, "--rules", help="Rule set file (TOML)."),
+          memos: bool = typer.Option(False, "--memos", help="Also write one memo per case into OUT/memos/."),
+          templates: Optional[Path] = typer.Option(None, "--templates", help="Folder of memo templates.")):
+    """Screen every row of a register; bad rows are reported by row and field, good rows still screened."""
+
+    def body():
+        from .register_batch import run_batch
+        from .register_reading import RegisterError
+
+        progress = None
+        bar = None
+        if sys.stderr.isatty():
+            from .register_reading import read_register  # noqa: F401 - cheap
+
+            bar = _Progress()
+            progress = bar.advance
+        try:
+            summary = run_batch(register, out, base_path=base, rules_path=rules, memos=memos, progress=progress,
+                                templates_dir=templates)
+        except RegisterError as exc:
+            typer.echo(f"register: {exc.message}", err=True)
+            return EXIT_INVALID
+        finally:
+            if bar is not None:
+                bar.close()
+        counts = summary["verdict_counts"]
+        typer.echo(f"{summary['rows']} rows: {summary['valid']} screened ({counts.get('pass', 0)} pass, "
+                   f"{counts.get('review', 0)} review, {counts.get('fail', 0)} fail), {summary['invalid']} invalid. "
+                   f"Wrote {out}/results.json, results.csv, errors.csv, summary.pdf"
+                   + (" and memos/" if memos else "") + ".")
+        if summary["invalid"]:
+            typer.echo(f"See {out}/errors.csv for the invalid rows (row number, field, message).", err=True)
+        return summary["exit_code"]
+
+    raise typer.Exit(_guard(body))
+
+
+class _Progress:
+    """A plain progress line on an interactive terminal."""
+
+    def __init__(self):
+        self.done = 0
+
+    def advance(self, n: int) -> None:
+        self.done += n
+        sys.stderr.write(f"\rscreened {self.done} rows")
+        sys.stderr.flush()
+
+    def close(self) -> None:
+        sys.stderr.write("\n")
+        sys.stderr.flush()
+
+
+@app.command()
+def diff(old: Path = typer.Argument(..., help="Output folder of the earlier batch run."),
+         new: Path = typer.Argument(..., help="Output folder of the later batch run."),
+         csv_out: Optional[Path] = typer.Option(None, "--csv", help="Also write the changes as CSV."),
+         margin_tolerance: float = typer.Option(0.01, "--margin-tolerance",
+                                                help="Smallest margin change that counts, in hours.")):
+    """List vessels whose verdict, margin or inputs changed between two batch runs."""
+
+    def body():
+        from .register_diff import diff_runs, format_table, to_csv
+
+        changes = diff_runs(old, new, margin_tolerance_s=margin_tolerance * 3600.0)
+        typer.echo(format_table(changes))
+        if csv_out is not None:
+            write_atomic_text(csv_out, to_csv(changes))
+        return EXIT_REVIEW if changes else EXIT_OK
+
+    raise typer.Exit(_guard(body))
+
+
+@app.command()
 def example(output: Optional[Path] = typer.Argument(None, help="Where to write it (default: print).")):
     """Write an annotated example case to start from."""
     from importlib.resources import files

@@ -1666,7 +1666,7 @@ class _Register:
                       ("register_rank", "case_id", "title", "verdict", "first_limit", "register_time_first",
                        "register_smallest_margin", "register_warnings")]
             rows = [header]
-            for i, r in enumerate(ordered, start=1):
+            for i, r in enumerate(ordered[:REGISTER_TABLE_ROWS], start=1):
                 key, word = self.verdict_word(r["verdict"])
                 colour = _VERDICT_COLOURS.get(key, "#333333")
                 if r["first"] is not None:
@@ -1688,6 +1688,9 @@ class _Register:
             fr = (0.05, 0.12, 0.2, 0.09, 0.16, 0.13, 0.13, 0.12)
             story.append(lay.table(rows, [w * f for f in fr]))
             story.append(lay.P(self.esc(self.L("register_order_note")), "small"))
+            if len(ordered) > REGISTER_TABLE_ROWS:
+                story.append(lay.P(self.esc(self.L("register_table_truncated", shown=REGISTER_TABLE_ROWS,
+                                                   rest=len(ordered) - REGISTER_TABLE_ROWS)), "small"))
         else:
             story.append(lay.P(f"<i>{self.esc(self.L('register_no_results'))}</i>"))
 
@@ -1699,8 +1702,11 @@ class _Register:
         if self.errors:
             erows = [[lay.P(self.esc(self.L("register_error_case")), "head"),
                       lay.P(self.esc(self.L("register_error_message")), "head")]]
-            erows += [[lay.user(c, "cellb"), lay.user(m)] for c, m in self.errors]
+            erows += [[lay.user(c, "cellb"), lay.user(m)] for c, m in self.errors[:REGISTER_TABLE_ROWS]]
             story.append(lay.table(erows, [w * 0.3, w * 0.7]))
+            if len(self.errors) > REGISTER_TABLE_ROWS:
+                story.append(lay.P(self.esc(self.L("register_errors_truncated", shown=REGISTER_TABLE_ROWS,
+                                                   rest=len(self.errors) - REGISTER_TABLE_ROWS)), "small"))
         else:
             story.append(lay.P(self.esc(self.L("register_no_errors"))))
 
@@ -1740,6 +1746,10 @@ class _Register:
                             y_label=self.tx.clean(self.L("register_hist_y")),
                             special=[False] * (len(cats) - 1) + [True])
         return [KeepTogether([heading, drawing])]
+
+
+#: Rows of the vessel and error tables in a register summary; the rest are in the CSV files.
+REGISTER_TABLE_ROWS = 250
 
 
 def render_register_summary(results: Sequence[Mapping], errors: Sequence = (),

@@ -208,7 +208,7 @@ def screen_with_arrhenius(prepared: PreparedCase) -> dict:
         "stop_reason": hist.stop_reason,
     }
     alarm_time = _alarm_time(hist)
-    detection_and_recovery(prepared, result, temperature_at=lambda _: alarm_time)
+    detection_and_recovery(prepared, result, alarm_time=alarm_time)
     _arrhenius_recovery(prepared, result, hist)
     result["_history"] = {"time_s": np.asarray(hist.time).tolist(), "temperature_K": np.asarray(hist.temperature).tolist(),
                           "generation_W": np.asarray(hist.heat_generation).tolist(),

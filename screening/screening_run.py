@@ -6,6 +6,7 @@ criteria) to the result object that ``heatscreen check --json`` prints.
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 
 import numpy as np
 
@@ -68,14 +69,58 @@ def _hours(s: float) -> str:
     return f"{s / 3600:.3g} h"
 
 
-def screen_closed_form(prepared: PreparedCase) -> dict:
-    """Result for a case whose sources are constant, decaying, fire or heating media."""
+@dataclass
+class ClosedFormValues:
+    """What the time-to-limit solver gives for one closed-form case (from either engine).
+
+    limit_times : first time to each model limit, s (None: not reached within the horizon)
+    boil_time : first time to the boiling point, s, or None
+    alarm_time : first time to the alarm temperature, s, or None
+    peak : (temperature K, time s) within the horizon
+    end_temperature, end_rate : K and K/s at the horizon
+    adiabatic_limit_times : the same limits with UA = 0
+    """
+
+    limit_times: list
+    boil_time: float | None
+    alarm_time: float | None
+    peak: tuple
+    end_temperature: float
+    end_rate: float
+    adiabatic_limit_times: list
+
+
+def closed_form_values(prepared: PreparedCase) -> ClosedFormValues:
+    """Scalar engine: turning points, peak and first crossings for one case."""
+    model = prepared.model
+    H = model.horizon
+    balance = balance_of(model)
+    shape = history_shape(balance, H)
+    times = [first_crossing(balance, lim.temperature, H, shape) for lim in model.limits]
+    boil = first_crossing(balance, model.boiling.boiling_point, H, shape) if model.boiling is not None else None
+    alarm = (first_crossing(balance, prepared.detection_alarm, H, shape)
+             if prepared.detection_alarm is not None else None)
+    ad = balance_of(model, ua=0.0)
+    ad_shape = history_shape(ad, H)
+    ad_times = [first_crossing(ad, lim.temperature, H, ad_shape) for lim in model.limits]
+    return ClosedFormValues(times, boil, alarm, (shape.peak_temperature, shape.peak_time), shape.end_temperature,
+                            shape.end_rate, ad_times)
+
+
+def screen_closed_form(prepared: PreparedCase, values: ClosedFormValues | None = None,
+                       with_history: bool = True) -> dict:
+    """Result for a case whose sources are constant, decaying, fire or heating media.
+
+    ``values`` may come from the vectorised engine (registers); by default the
+    scalar engine computes them.
+    """
     model = prepared.model
     unit = prepared.display_temperature_unit
     warnings: list[str] = []
     H = model.horizon
     balance = balance_of(model)
-    shape = history_shape(balance, H)
+    if values is None:
+        values = closed_form_values(prepared)
     G = float(balance.conductance)
     C = model.heat_capacity
     tau = C / G if G > 0 else None
@@ -86,20 +131,17 @@ def screen_closed_form(prepared: PreparedCase) -> dict:
     boiling_result = None
     boil = model.boiling
     boil_credit = boil is not None and boil.venting == "open"
-    t_boil = None
-    if boil is not None:
-        t_boil = first_crossing(balance, boil.boiling_point, H, shape)
+    t_boil = values.boil_time
     limit_rows = []
-    for lim in model.limits:
-        t = first_crossing(balance, lim.temperature, H, shape)
+    for lim, t in zip(model.limits, values.limit_times):
         if boil_credit and t_boil is not None and lim.temperature > boil.boiling_point:
             t = None  # held at the boiling point while liquid remains
         limit_rows.append({"name": lim.name, "temperature_K": lim.temperature, "time_s": t, "reached": t is not None})
         if t == 0.0:
             warnings.append(f"Limit '{lim.name}' ({_fmt_temp(lim.temperature, unit)}) is already reached at the start: "
                             f"the initial temperature is {_fmt_temp(T0, unit)}.")
-    peak_T, peak_t = shape.peak_temperature, shape.peak_time
-    end_rate = shape.end_rate
+    peak_T, peak_t = values.peak
+    end_rate = values.end_rate
     if boil is not None:
         boiling_result, boil_warnings, boil_peak = boiling_closed_form(model, balance, t_boil, boil_credit, unit)
         warnings.extend(boil_warnings)
@@ -116,11 +158,8 @@ def screen_closed_form(prepared: PreparedCase) -> dict:
                                     f"conservative if the vent is undersized or blocked.")
 
     # adiabatic bound (UA = 0; heating media stay on)
-    adiabatic_balance = balance_of(model, ua=0.0)
-    ad_shape = history_shape(adiabatic_balance, H)
     adiabatic = {
-        "limits": [{"name": lim.name, "time_s": first_crossing(adiabatic_balance, lim.temperature, H, ad_shape)}
-                   for lim in model.limits],
+        "limits": [{"name": lim.name, "time_s": t} for lim, t in zip(model.limits, values.adiabatic_limit_times)],
         "temperature_rise_K": sum(s.power * s.time_constant for s in model.decaying_sources) / C,
     }
 
@@ -129,7 +168,7 @@ def screen_closed_form(prepared: PreparedCase) -> dict:
                         f"temperature is still far from where it settles. Extend the horizon to see the whole response.")
     if end_rate > 0 and any(not r["reached"] for r in limit_rows):
         where = f"; it settles at {_fmt_temp(steady, unit)}" if steady is not None else "; it has no steady state"
-        warnings.append(f"The temperature is still rising at the end of the horizon ({_fmt_temp(shape.end_temperature, unit)}, "
+        warnings.append(f"The temperature is still rising at the end of the horizon ({_fmt_temp(values.end_temperature, unit)}, "
                         f"{end_rate * 3600:.3g} K/h){where}. A limit not reached within the horizon may be reached later.")
     if G == 0:
         warnings.append("No heat loss and no heating medium (UA = 0): the vessel is treated as adiabatic.")
@@ -145,8 +184,11 @@ def screen_closed_form(prepared: PreparedCase) -> dict:
         "warnings": warnings,
         "method": "closed-form",
     }
-    detection_and_recovery(prepared, result, balance=balance, shape=shape)
-    result["_history"] = closed_form_history_arrays(model, balance, H, shape, limit_rows, t_boil if boil_credit else None)
+    detection_and_recovery(prepared, result, balance=balance, alarm_time=values.alarm_time)
+    if with_history:
+        shape = history_shape(balance, H)
+        result["_history"] = closed_form_history_arrays(model, balance, H, shape, limit_rows,
+                                                        t_boil if boil_credit else None)
     return result
 
 
@@ -221,8 +263,7 @@ def boiling_closed_form(model, balance, t_boil, credit, unit):
     return res, warnings, (Tb, t_boil)
 
 
-def detection_and_recovery(prepared: PreparedCase, result: dict, balance=None, shape=None,
-                           temperature_at=None, no_return=None) -> None:
+def detection_and_recovery(prepared: PreparedCase, result: dict, balance=None, alarm_time=None) -> None:
     """Detection time, margins, and the recovery path (closed-form cases)."""
     model = prepared.model
     H = model.horizon
@@ -230,10 +271,7 @@ def detection_and_recovery(prepared: PreparedCase, result: dict, balance=None, s
     if prepared.detection_delay is not None:
         detection = prepared.detection_delay
     elif prepared.detection_alarm is not None:
-        if balance is not None:
-            detection = first_crossing(balance, prepared.detection_alarm, H, shape)
-        else:
-            detection = temperature_at("alarm")
+        detection = alarm_time
         if detection is None:
             result["warnings"].append("The alarm temperature is not reached within the horizon: the alarm never "
                                       "sounds, so detection relies on something else.")
@@ -308,15 +346,20 @@ def biot_and_validity(prepared: PreparedCase, result: dict) -> None:
                                      f"model is acceptable by the usual criterion (Incropera et al., ch. 5).")
 
 
-def screen_prepared(prepared: PreparedCase, input_hash: str | None = None) -> dict:
-    """Full result dict for one prepared case (without a verdict)."""
+def screen_prepared(prepared: PreparedCase, input_hash: str | None = None,
+                    values: ClosedFormValues | None = None, with_history: bool = True) -> dict:
+    """Full result dict for one prepared case (without a verdict).
+
+    ``values`` (closed-form cases only) are engine results computed elsewhere,
+    e.g. by the vectorised engine for a register.
+    """
     model = prepared.model
     if model.arrhenius_sources:
         from .runaway_screening import screen_with_arrhenius
 
         core = screen_with_arrhenius(prepared)
     else:
-        core = screen_closed_form(prepared)
+        core = screen_closed_form(prepared, values, with_history=with_history)
     spec = prepared.spec
     result = {
         "id": spec.id,
@@ -352,7 +395,8 @@ def screen_prepared(prepared: PreparedCase, input_hash: str | None = None) -> di
                       "revision": meta.revision if meta else None, "notes": meta.notes if meta else None}
     result["tool_version"] = __version__
     result["input_hash"] = input_hash
-    result["_history"] = core.get("_history")
+    if core.get("_history") is not None:
+        result["_history"] = core["_history"]
     if "_recovery_history" in core:
         result["_recovery_history"] = core["_recovery_history"]
     if "_heat_balance" in core:
