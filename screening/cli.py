@@ -291,6 +291,7 @@ def demo(out: Path = typer.Option(Path("heatscreen-demo"), "--out", help="Folder
     from .report_text import format_result
 
     def body():
+        out.mkdir(parents=True, exist_ok=True)
         folder = files("screening").joinpath("demo_cases")
         names = sorted(p.name for p in folder.iterdir() if p.name.endswith(".yaml") and p.name != "example_case.yaml")
         results = []
@@ -308,13 +309,24 @@ def demo(out: Path = typer.Option(Path("heatscreen-demo"), "--out", help="Folder
             if write_memo is not None:
                 from .screening_run import memo_view
 
-                out.mkdir(parents=True, exist_ok=True)
                 demo_templates = Path(str(folder.joinpath("templates")))
                 for r in results:
                     target = out / f"{r['id']}.pdf"
                     write_memo(memo_view(r), target, templates_dir=demo_templates)
                 typer.echo(f"wrote {len(results)} memos to {out}/")
-        typer.echo("Summary:")
+        from .register_batch import run_batch
+
+        registers = folder.joinpath("registers")
+        reg_out = out / "register"
+        summary = run_batch(Path(str(registers.joinpath("fenmarsh-register.csv"))), reg_out,
+                            base_path=Path(str(registers.joinpath("fenmarsh-base.yaml"))), memos=memos,
+                            templates_dir=Path(str(folder.joinpath("templates"))))
+        counts = summary["verdict_counts"]
+        typer.echo(f"Demo register: {summary['rows']} rows, {summary['valid']} screened ({counts['pass']} pass, "
+                   f"{counts['review']} review, {counts['fail']} fail), {summary['invalid']} invalid on purpose "
+                   f"(see {reg_out}/errors.csv); results, summary.pdf" + (" and memos" if memos else "")
+                   + f" in {reg_out}/")
+        typer.echo("Summary of the demo cases:")
         for r in results:
             first = min((l["time_s"] for l in r["limits"] if l["time_s"] is not None), default=None)
             from .report_text import duration
