@@ -33,6 +33,7 @@ class PreparedCase:
     recovery: tuple[float, float] | None = None  # (medium temperature K, ua W/K)
     fill_fraction: float | None = None
     surface_coefficient: float | None = None
+    uncertainty_plan: object = None
 
 
 _FIELD_NAMES: dict = {}
@@ -200,6 +201,10 @@ def prepare_case(spec: CaseSpec) -> PreparedCase:
             prepared.detection_delay = spec.detection.delay.si
     if spec.recovery is not None:
         prepared.recovery = (spec.recovery.medium_temperature.si, spec.recovery.ua.si)
+    if spec.uncertainty is not None:
+        from .uncertainty import plan_uncertainty
+
+        prepared.uncertainty_plan = plan_uncertainty(spec)
     return prepared
 
 

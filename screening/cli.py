@@ -51,7 +51,35 @@ def screen_file(path: str, rules_path: str | None = None):
     prepared = prepare_case(loaded.spec)
     result = screen_prepared(prepared, loaded.input_hash)
     apply_rules(result, rules_path)
+    result["allowable_values"] = allowable_for_uncertain_inputs(prepared, rules_path)
     return result
+
+
+def allowable_for_uncertain_inputs(prepared, rules_path):
+    """Allowable values of each uncertain input over its 0.5-99.5 % range (closed-form cases only)."""
+    plan = prepared.uncertainty_plan
+    if plan is None:
+        return None
+    if prepared.model.arrhenius_sources:
+        return [{"input": inp.path, "unit": "", "nominal": None, "range": None, "changes": [], "scan": [],
+                 "note": "not computed for cases with Arrhenius sources (each point needs a stiff integration); "
+                         "run heatscreen margin CASE --vary " + inp.path} for inp in plan.inputs]
+    from .allowable_values import find_allowable_values
+    from .uncertainty import physically_possible, quantile
+
+    out = []
+    for inp in plan.inputs:
+        lo, hi = quantile(inp, 0.005), quantile(inp, 0.995)
+        import numpy as np
+
+        if not physically_possible(inp, np.array([lo]))[0]:
+            lo = inp.nominal * 1e-3 if inp.nominal > 0 else lo
+        report = find_allowable_values(prepared, inp.path, lo, hi, 21, rules_path)
+        report.pop("scan", None)
+        report["note"] += (" The verdict at each point is that of the case's own values with this one input "
+                           "changed; the Monte Carlo probabilities are not re-run.")
+        out.append(report)
+    return out
 
 
 def apply_rules(result: dict, rules_path: str | None) -> None:
@@ -262,6 +290,40 @@ def diff(old: Path = typer.Argument(..., help="Output folder of the earlier batc
 
 
 @app.command()
+def margin(case: str = typer.Argument(..., help="Case file (YAML, TOML or JSON)."),
+           vary: str = typer.Option(..., "--vary", help="Dotted path of the input to vary, e.g. "
+                                                         "heat_loss.ambient_temperature, contents.mass, heat_loss.ua, "
+                                                         "heat_sources.0.power, response_time."),
+           low: Optional[str] = typer.Option(None, "--low", help="Low end of the scan, with a unit or as % of the "
+                                                                 "case value (default: a wide range around it)."),
+           high: Optional[str] = typer.Option(None, "--high", help="High end of the scan, with a unit or as %."),
+           points: Optional[int] = typer.Option(None, "--points", min=3, max=2001, help="Scan points."),
+           rules: Optional[str] = typer.Option(None, "--rules", help="Rule set file (TOML)."),
+           json_out: bool = typer.Option(False, "--json", help="Print the result as JSON.")):
+    """Allowable values: where one input's value changes the case's overall verdict."""
+
+    def body():
+        from .allowable_values import _locate, find_allowable_values, format_allowable, parse_bound
+        from .case_files import load_case_file
+        from .case_to_model import prepare_case
+
+        loaded = load_case_file(case)
+        spec = loaded.spec.model_copy(update={"uncertainty": None})
+        prepared = prepare_case(spec)
+        _, q, _ = _locate(prepared.spec, vary)
+        lo = parse_bound(low, q) if low is not None else None
+        hi = parse_bound(high, q) if high is not None else None
+        report = find_allowable_values(prepared, vary, lo, hi, points, rules)
+        if json_out:
+            typer.echo(json.dumps(report, indent=2, ensure_ascii=False, allow_nan=False))
+        else:
+            typer.echo(format_allowable(report))
+        return EXIT_OK
+
+    raise typer.Exit(_guard(body))
+
+
+@app.command()
 def example(output: Optional[Path] = typer.Argument(None, help="Where to write it (default: print).")):
     """Write an annotated example case to start from."""
     from importlib.resources import files
@@ -344,6 +406,14 @@ def run():  # console-script entry point
     except KeyboardInterrupt:
         typer.echo("interrupted", err=True)
         sys.exit(130)
+    except SystemExit:
+        raise
+    except BaseException as exc:  # noqa: BLE001 - never a traceback unless asked for
+        if "--debug" in sys.argv:
+            raise
+        typer.echo(f"heatscreen: internal error: {type(exc).__name__}: {exc}. Run again with --debug for details.",
+                   err=True)
+        sys.exit(EXIT_INTERNAL)
 
 
 if __name__ == "__main__":

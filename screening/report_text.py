@@ -107,6 +107,35 @@ def format_result(r: dict) -> str:
                      f"peak boil-off {num(b['peak_boil_off_kg_per_s'], 'kg/s')}; "
                      f"boiled off {num(b['boiled_off_kg'], 'kg')} within the horizon; "
                      f"dry {duration(b['time_to_dry_s']) if b['time_to_dry_s'] is not None else 'not within horizon'}")
+    unc = r.get("uncertainty")
+    if unc:
+        lines.append("")
+        lines.append(f"Uncertainty (Monte Carlo, {unc.get('accepted', unc['samples'])} samples accepted of "
+                     f"{unc['samples']}, {unc['rejected']} rejected as physically impossible, seed {unc['seed']}, "
+                     f"{unc['sampling']} sampling):")
+        if unc.get("note"):
+            lines.append(_wrap(unc["note"]))
+        for l in unc.get("limits", []):
+            pb = l["probability_before_response"]
+            pb_text = "—" if pb is None else f"{pb:.4f} ± {l['probability_before_response_standard_error']:.4f}"
+            lines.append(f"  {l['name']}: P(before detection + response) {pb_text}"
+                         f"; P(within horizon) {l['probability_within_horizon']:.4f}; time 5/50/95 %: "
+                         f"{duration(l['p05_time_s']) if l['p05_time_s'] is not None else 'not reached'} / "
+                         f"{duration(l['p50_time_s']) if l['p50_time_s'] is not None else 'not reached'} / "
+                         f"{duration(l['p95_time_s']) if l['p95_time_s'] is not None else 'not reached'}")
+        if unc.get("sensitivity"):
+            lines.append(f"  Sensitivity of the time to '{unc.get('first_limit')}' (each input at its 5th and 95th "
+                         f"percentile, others at the case values):")
+            for s_ in unc["sensitivity"]:
+                rho = s_.get("rank_correlation")
+                lines.append(f"    {s_['input']:<36} {duration(s_['low_time_s']) if s_['low_time_s'] is not None else 'not reached':>12}"
+                             f" .. {duration(s_['high_time_s']) if s_['high_time_s'] is not None else 'not reached':<12}"
+                             f" rank correlation {'—' if rho is None else f'{rho:+.2f}'}")
+    for av in r.get("allowable_values") or []:
+        lines.append("")
+        from .allowable_values import format_allowable
+
+        lines.append(format_allowable(av))
     rec = r.get("recovery")
     if rec:
         lines.append("")

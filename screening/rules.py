@@ -588,6 +588,52 @@ def _q_warning_count(r):
 
 
 _LIMIT_EXTRAS = (("limit", TEXT), ("limit_time", TIME))
+_NO_UNCERTAINTY = "the case has no uncertainty block"
+
+
+def _uncertainty_block(r):
+    block = r.get("uncertainty")
+    if not isinstance(block, dict) or not block.get("limits"):
+        return _Missing(NOT_APPLICABLE, _NO_UNCERTAINTY)
+    return block
+
+
+def _q_probability(key: str):
+    @_safe
+    def fn(r):
+        block = _uncertainty_block(r)
+        if isinstance(block, _Missing):
+            return block
+        best = None
+        for lim in block["limits"]:
+            v = lim.get(key)
+            if v is None:
+                continue
+            if best is None or v > best[0]:
+                best = (float(v), lim)
+        if best is None:
+            return _Missing(UNKNOWN, "response time not given" if key == "probability_before_response" else
+                            "no probability in the result")
+        return best[0], {"limit": _lname(best[1])}
+
+    fn.__name__ = f"_q_{key}"
+    fn.__qualname__ = fn.__name__
+    return fn
+
+
+@_safe
+def _q_p05_first_limit_time(r):
+    block = _uncertainty_block(r)
+    if isinstance(block, _Missing):
+        return block
+    name = block.get("first_limit")
+    lim = next((x for x in block["limits"] if x.get("name") == name), None)
+    if lim is None:
+        return _Missing(UNKNOWN, "the first limit is not in the uncertainty result")
+    v = lim.get("p05_time_s")
+    if v is None:
+        return _Missing(NOT_APPLICABLE, "fewer than 5 % of the samples reach the first limit within the horizon")
+    return float(v), {"limit": str(name)}
 
 
 def _quantity_table() -> dict[str, Quantity]:
@@ -670,6 +716,15 @@ def _quantity_table() -> dict[str, Quantity]:
         Quantity("recovery_past_no_return", FLAG, "the contents are past the no-return temperature when "
                  "cooling returns", _q_recovery_past_no_return),
         Quantity("warning_count", COUNT, "number of warnings in the result", _q_warning_count),
+        # uncertainty (Monte Carlo)
+        Quantity("probability_before_response", NUMBER, "largest probability, over the limits, that a limit is "
+                 "reached before detection + response (Monte Carlo); not applicable without an uncertainty block",
+                 _q_probability("probability_before_response"), (("limit", TEXT),)),
+        Quantity("probability_within_horizon", NUMBER, "largest probability, over the limits, that a limit is "
+                 "reached within the horizon (Monte Carlo)", _q_probability("probability_within_horizon"),
+                 (("limit", TEXT),)),
+        Quantity("p05_first_limit_time", TIME, "5th percentile of the time to the first (lowest) limit "
+                 "(Monte Carlo)", _q_p05_first_limit_time, (("limit", TEXT),)),
     ]
     return {x.name: x for x in q}
 

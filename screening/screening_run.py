@@ -397,6 +397,14 @@ def screen_prepared(prepared: PreparedCase, input_hash: str | None = None,
     result["input_hash"] = input_hash
     if core.get("_history") is not None:
         result["_history"] = core["_history"]
+    if prepared.uncertainty_plan is not None:
+        from .uncertainty import analyse
+
+        unc = analyse(prepared, prepared.uncertainty_plan)
+        result["_uncertainty_cdf"] = unc.pop("_cdf", None)
+        result["uncertainty"] = unc
+    else:
+        result["uncertainty"] = None
     if "_recovery_history" in core:
         result["_recovery_history"] = core["_recovery_history"]
     if "_heat_balance" in core:
@@ -418,4 +426,6 @@ def memo_view(result: dict) -> dict:
         out["heat_balance"] = result["_heat_balance"]
     if result.get("_recovery_history") is not None:
         out["recovery_history"] = result["_recovery_history"]
+    if result.get("_uncertainty_cdf") is not None:
+        out["uncertainty_cdf"] = result["_uncertainty_cdf"]
     return out
