@@ -138,6 +138,8 @@ def find_allowable_values(prepared: PreparedCase, path: str, low: float | None =
         "range": [conv(lo), conv(hi)],
         "points": n,
         "scan": [{"value": conv(x), "verdict": v} for x, v in zip(xs, verdicts)],
+        "verdict_at_low": verdicts[0],
+        "verdict_at_high": verdicts[-1],
         "changes": [{"value": conv(c.value_si), "below": c.below, "above": c.above,
                      "bracket": [conv(c.bracket_si[0]), conv(c.bracket_si[1])], "value_si": c.value_si}
                     for c in changes],
@@ -152,8 +154,7 @@ def format_allowable(report: dict) -> str:
     lines = [f"Allowable values of {report['input']} (case value {report['nominal']:.6g} {unit}; scanned "
              f"{report['range'][0]:.6g} to {report['range'][1]:.6g} {unit}):"]
     if not report["changes"]:
-        v = report["scan"][0]["verdict"]
-        lines.append(f"  the verdict stays '{v}' over the whole range.")
+        lines.append(f"  the verdict stays '{report['verdict_at_low']}' over the whole range.")
     for c in report["changes"]:
         lines.append(f"  at {c['value']:.6g} {unit}: {c['below']} below, {c['above']} above "
                      f"(between {c['bracket'][0]:.8g} and {c['bracket'][1]:.8g} {unit})")

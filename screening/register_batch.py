@@ -80,7 +80,7 @@ def dumps(obj) -> bytes:
 
 SLIM_KEYS = ("id", "title", "verdict", "reasons", "register_row", "limits", "peak_temperature_K", "peak_time_s",
              "steady_temperature_K", "time_constant_s", "tmr_adiabatic_s", "critical_ambient_temperature_K",
-             "ambient_temperature_K", "t_d24_K", "mtsr_K", "criticality_class", "units")
+             "ambient_temperature_K", "t_d24_K", "mtsr_K", "criticality_class", "units", "uncertainty")
 
 
 def _slim(result: dict) -> dict:
@@ -625,7 +625,7 @@ def results_csv(results: list[dict], limit_names: list[str]) -> str:
     head += [f"time_to_limit_h: {n}" for n in limit_names]
     head += ["peak_temperature_K", "peak_time_h", "steady_temperature_K", "time_constant_h", "tmr_adiabatic_h",
              "critical_ambient_temperature_K", "ambient_temperature_K", "t_d24_K", "mtsr_K", "criticality_class",
-             "warnings", "reasons"]
+             "probability_before_response", "p05_time_to_first_limit_h", "warnings", "reasons"]
     w.writerow(head)
     for r in results:
         reached = [l for l in r["limits"] if l["time_s"] is not None]
@@ -639,9 +639,18 @@ def results_csv(results: list[dict], limit_names: list[str]) -> str:
                 _hours(r.get("time_constant_s")), _hours(r.get("tmr_adiabatic_s")),
                 _kelvin(r.get("critical_ambient_temperature_K")), _kelvin(r.get("ambient_temperature_K")),
                 _kelvin(r.get("t_d24_K")), _kelvin(r.get("mtsr_K")), r.get("criticality_class") or "",
+                *_uncertainty_columns(r.get("uncertainty")),
                 len(r.get("warnings") or []), " | ".join(r.get("reasons") or [])]
         w.writerow(row)
     return buf.getvalue()
+
+
+def _uncertainty_columns(unc) -> list[str]:
+    if not isinstance(unc, dict) or not unc.get("limits"):
+        return ["", ""]
+    probs = [l["probability_before_response"] for l in unc["limits"] if l.get("probability_before_response") is not None]
+    first = next((l for l in unc["limits"] if l["name"] == unc.get("first_limit")), None)
+    return [f"{max(probs):.6g}" if probs else "", _hours(first["p05_time_s"]) if first else ""]
 
 
 def errors_csv(errors: list[dict]) -> str:
@@ -707,7 +716,8 @@ def _run_into(register: Register, base: dict, tmp: Path, out: Path, rules_path, 
         memos_dir.mkdir()
     n = len(register.rows)
     if workers is None:
-        workers = min(2, os.cpu_count() or 1) if (n >= PARALLEL_THRESHOLD or (memos and n >= 8)) else 1
+        heavy = (memos and n >= 8) or (isinstance(base.get("uncertainty"), dict) and n >= 20)
+        workers = min(2, os.cpu_count() or 1) if (n >= PARALLEL_THRESHOLD or heavy) else 1
     spans = _chunks(n, workers)
 
     base_digest = hashlib.sha256(json.dumps(base, sort_keys=True, default=str).encode("utf-8")).hexdigest()
