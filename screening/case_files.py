@@ -11,6 +11,7 @@ from .case_schema import CaseError, CaseSpec, FieldProblem, validate_case_data
 
 MAX_CASE_BYTES = 2_000_000
 MAX_YAML_NODES = 100_000  # guards against alias ("billion laughs") expansion
+MAX_EXPANDED_SIZE = 200_000  # values in the document once every alias is expanded
 
 
 @dataclass(frozen=True)
@@ -80,7 +81,11 @@ def parse_text(raw: bytes, kind: str) -> Any:
 
     loader = _yaml_loader()
     try:
-        return yaml.load(text, Loader=loader)  # noqa: S506 - a SafeLoader subclass
+        data = yaml.load(text, Loader=loader)  # noqa: S506 - a SafeLoader subclass
+        if expanded_size(data) > MAX_EXPANDED_SIZE:
+            raise CaseError([FieldProblem("(file)", f"the document expands to more than {MAX_EXPANDED_SIZE} values "
+                                                    f"through YAML aliases; write the values out instead")])
+        return data
     except yaml.MarkedYAMLError as exc:
         mark = exc.problem_mark or exc.context_mark
         where = f" at line {mark.line + 1}, column {mark.column + 1}" if mark else ""
@@ -90,6 +95,27 @@ def parse_text(raw: bytes, kind: str) -> Any:
         raise CaseError([FieldProblem("(file)", f"YAML error: {exc}")]) from None
     except RecursionError:
         raise CaseError([FieldProblem("(file)", "YAML nesting is too deep")]) from None
+
+
+def expanded_size(obj, memo: dict | None = None) -> int:
+    """Number of values in a parsed document with every shared (aliased) node counted each time it is used.
+
+    Linear in the number of distinct nodes, so it is safe on an alias bomb.
+    """
+    if memo is None:
+        memo = {}
+    if not isinstance(obj, (dict, list)):
+        return 1
+    key = id(obj)
+    if key in memo:
+        return memo[key]
+    memo[key] = 1  # a cycle counts once
+    if isinstance(obj, dict):
+        total = 1 + sum(expanded_size(k, memo) + expanded_size(v, memo) for k, v in obj.items())
+    else:
+        total = 1 + sum(expanded_size(v, memo) for v in obj)
+    memo[key] = total
+    return total
 
 
 def kind_of(path: str | Path) -> str:

@@ -183,7 +183,13 @@ def check(case: str = typer.Argument(..., help="Case file (YAML, TOML or JSON)."
     def body():
         result = screen_file(case, rules)
         if history is not None:
-            write_atomic_text(history, history_csv(result))
+            try:
+                write_atomic_text(history, history_csv(result))
+            except OSError as exc:
+                from .case_schema import CaseError, FieldProblem
+
+                raise CaseError([FieldProblem("--history", f"cannot write {history}: {exc.strerror or exc}; "
+                                                           f"expected a path in an existing, writable folder")])
         if json_out:
             typer.echo(json.dumps(public_result(result), indent=2, ensure_ascii=False, allow_nan=False))
         else:
@@ -205,7 +211,13 @@ def memo(case: str = typer.Argument(..., help="Case file (YAML, TOML or JSON).")
         from .memo_writer import write_memo
         from .screening_run import memo_view
 
-        write_memo(memo_view(result), output, templates_dir=templates)
+        try:
+            write_memo(memo_view(result), output, templates_dir=templates)
+        except OSError as exc:
+            from .case_schema import CaseError, FieldProblem
+
+            raise CaseError([FieldProblem("--output", f"cannot write {output}: {exc.strerror or exc}; expected a "
+                                                      f"path in an existing, writable folder")]) from None
         typer.echo(f"wrote {output}")
         return _exit_for([result])
 

@@ -144,10 +144,23 @@ def temperature(balance: LinearBalance, t):
 
 
 def temperature_rate(balance: LinearBalance, t, temp=None):
-    """dT/dt, K/s, from the balance: (Q0 + sum P_i exp(-b_i t) - G T) / C."""
+    r"""dT/dt, K/s.
+
+    Without ``temp``: the time derivative of the closed form,
+
+    .. math:: \frac{dT}{dt} = \frac{Q_0 - G T_0}{C} e^{-\lambda t}
+              + \sum_i \frac{P_i}{C} e^{-m_i t} \left(e^{-d_i t} - m_i\, t\, g(d_i t)\right),
+              \qquad m_i = \min(b_i, \lambda),\; d_i = |\lambda - b_i|,
+
+    whose error scales with the transients still present.  (Evaluating the
+    balance (Q0 + sum P_i exp(-b_i t) - G T) / C instead leaves round-off of
+    order eps * G T / C once T has settled, which shows up as spurious sign
+    changes of dT/dt late in the history.)  With ``temp`` given: the balance at
+    that temperature.
+    """
     t = np.asarray(t, dtype=float)
     if temp is None:
-        temp = temperature(balance, t)
+        return _closed_form_rate(balance, t)
     C = np.asarray(balance.heat_capacity, dtype=float)
     G = np.asarray(balance.conductance, dtype=float)
     Q0 = np.asarray(balance.drive, dtype=float)
@@ -164,6 +177,32 @@ def temperature_rate(balance: LinearBalance, t, temp=None):
         for i in range(n_src):
             rate = rate + np.reshape(Pb[..., i], shape) * np.exp(-np.reshape(bb[..., i], shape) * t)
     return rate / C_
+
+
+def _closed_form_rate(balance: LinearBalance, t):
+    """Time derivative of :func:`temperature` (same broadcasting rules)."""
+    C = np.asarray(balance.heat_capacity, dtype=float)
+    G = np.asarray(balance.conductance, dtype=float)
+    lam = G / C
+    T0 = np.asarray(balance.initial_temperature, dtype=float)
+    Q0 = np.asarray(balance.drive, dtype=float)
+    extra = t.ndim - lam.ndim
+    shape = lam.shape + (1,) * extra
+    lam_, C_, T0_, Q0_, G_ = (np.reshape(v, shape) for v in np.broadcast_arrays(lam, C, T0, Q0, G))
+    out = (Q0_ - G_ * T0_) / C_ * np.exp(-lam_ * t)
+    P = np.asarray(balance.decaying_power, dtype=float)
+    if P.size:
+        b = np.asarray(balance.decay_rate, dtype=float)
+        n_src = P.shape[-1]
+        Pb = np.broadcast_to(P, lam.shape + (n_src,))
+        bb = np.broadcast_to(b, lam.shape + (n_src,))
+        for i in range(n_src):
+            Pi = np.reshape(Pb[..., i], shape)
+            bi = np.reshape(bb[..., i], shape)
+            m = np.minimum(bi, lam_)
+            d = np.abs(lam_ - bi)
+            out = out + (Pi / C_) * np.exp(-m * t) * (np.exp(-d * t) - m * t * relaxation(d * t))
+    return out
 
 
 def steady_temperature(balance: LinearBalance):

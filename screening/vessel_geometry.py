@@ -103,6 +103,8 @@ def wetted_area(v: VesselShape, liquid_volume: float) -> float:
     """Area of the vessel wall in contact with the liquid (bottom included), m^2."""
     h = liquid_height(v, liquid_volume)
     if v.shape == "box":
+        if h >= v.height:  # brim-full: the lid is wetted too, as for full cylinders and spheres
+            return total_area(v)
         return v.length * v.width + 2.0 * (v.length + v.width) * h
     if v.shape == "sphere":
         from fluids.geometry import SA_partial_sphere
