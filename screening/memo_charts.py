@@ -11,7 +11,7 @@ import math
 from dataclasses import dataclass, field
 from typing import Sequence
 
-from reportlab.graphics.shapes import Circle, Drawing, Group, Line, PolyLine, Rect, String
+from reportlab.graphics.shapes import Circle, Drawing, Group, Line, PolyLine, Polygon, Rect, String
 from reportlab.lib import colors
 from reportlab.pdfbase.pdfmetrics import stringWidth
 
@@ -33,6 +33,8 @@ LIMIT_DASHES = ((6, 2), (2, 2), (8, 2, 2, 2), (4, 4), (1, 2), (10, 3))
 MARK = colors.HexColor("#1B1B1B")
 BAR = colors.HexColor("#5B7DB1")
 BAR_SPECIAL = colors.HexColor("#9E9E9E")
+SWING_LOW = colors.HexColor("#3F6FB0")  # tornado: input at its low value
+SWING_HIGH = colors.HexColor("#D08A2E")  # tornado: input at its high value
 
 
 @dataclass
@@ -551,4 +553,194 @@ def bar_chart(
     d.add(String(left + plot_w / 2, 6, x_label, fontName=fonts.bold, fontSize=fs, fillColor=INK,
                  textAnchor="middle"))
     d.add(_rotated_string(6 + fs, bottom + plot_h / 2, y_label, fonts.bold, fs))
+    return d
+
+
+@dataclass
+class TornadoRow:
+    """One input of a tornado chart.  Times in display units (hours); None = not reached."""
+    label: str
+    low: float | None
+    high: float | None
+    mark: str = ""  # appended to the label after any shortening (e.g. a footnote "*")
+
+
+def _wrap_path(text: str, font: str, size: float, width: float, max_lines: int = 2) -> list[str]:
+    """Break a dotted path after dots to fit ``width``; shorten the last line if still too long."""
+    if stringWidth(text, font, size) <= width or "." not in text:
+        return [fit_text(text, font, size, width)]
+    pieces = text.split(".")
+    parts = [p + "." for p in pieces[:-1]] + [pieces[-1]]
+    lines, cur = [], ""
+    for part in parts:
+        if cur and stringWidth(cur + part, font, size) > width:
+            lines.append(cur)
+            cur = part
+        else:
+            cur += part
+    lines.append(cur)
+    if len(lines) > max_lines:
+        lines = lines[:max_lines - 1] + ["".join(lines[max_lines - 1:])]
+    return [fit_text(line, font, size, width) for line in lines]
+
+
+def _flow(items: Sequence[float], gap: float, width: float) -> list[tuple[int, float]]:
+    """Greedy left-to-right flow of items of the given widths: (row, x offset) for each."""
+    out, row, x = [], 0, 0.0
+    for w in items:
+        if x > 0 and x + w > width:
+            row, x = row + 1, 0.0
+        out.append((row, x))
+        x += w + gap
+    return out
+
+
+def _not_reached_marker(x: float, y: float, colour, size: float = 3.2) -> Polygon:
+    return Polygon([x, y - size, x, y + size, x + 1.8 * size, y], fillColor=colour, strokeColor=INK,
+                   strokeWidth=0.4)
+
+
+def tornado_chart(
+    width: float,
+    rows: Sequence[TornadoRow],
+    fonts: ChartFonts,
+    x_label: str,
+    low_label: str,
+    high_label: str,
+    nominal: float | None = None,
+    nominal_label: str = "",
+    x_max: float | None = None,
+    not_reached_label: str = "",
+    notes: Sequence[str] = (),
+) -> Drawing:
+    """Horizontal swing bars around a nominal time, one row per input, first row on top.
+
+    Each row shows two segments from the nominal time: to the time with the input
+    at its low value and to the time with it at its high value, in two colours.
+    When both lie on the same side the nearer one is drawn narrower on top, so
+    neither hides the other.  A time of None (not reached) is drawn to the right
+    edge (``x_max``, the horizon) and marked with a triangle past the edge.
+    ``nominal`` None with a ``nominal_label`` means the nominal case does not
+    reach the limit: its line is drawn at the right edge.
+    """
+    fs = fonts.size
+    rows = list(rows)
+    finite = [t for r in rows for t in (r.low, r.high) if t is not None and math.isfinite(t)]
+    if nominal is not None and math.isfinite(nominal):
+        finite.append(nominal)
+    top_x = x_max if x_max is not None and math.isfinite(x_max) and x_max > 0 else None
+    if top_x is None:
+        top_x = max(finite) * 1.05 if finite and max(finite) > 0 else 1.0
+    top_x = max([top_x] + finite)
+    x0, x1, xticks, xstep = hour_ticks(0.0, top_x, 7)
+    x1 = top_x if top_x > 0 else x1  # the right edge is the horizon itself
+    xticks = [t for t in xticks if t <= x1 * (1 + 1e-9)]
+    xfmt = tick_format(xstep)
+
+    # Label column: as wide as the longest label, at most 36 % of the drawing.
+    max_label = width * 0.36
+    label_lines = []
+    for r in rows:
+        mark_w = stringWidth(r.mark, fonts.regular, fs) if r.mark else 0.0
+        lines = _wrap_path(r.label, fonts.regular, fs, max_label - mark_w)
+        lines[-1] += r.mark
+        label_lines.append(lines)
+    label_w = max((stringWidth(line, fonts.regular, fs) for ll in label_lines for line in ll), default=20.0)
+    nlines = max((len(ll) for ll in label_lines), default=1)
+    row_h = max(16.0, nlines * (fs + 1.5) + 6)
+    left = 6 + label_w + 8
+    right = 14.0  # room for the not-reached triangles
+    plot_w = width - left - right
+
+    # Legend items (swatch + text), flowed into rows under the axis label.
+    legend = [("low", low_label), ("high", high_label)]
+    if not_reached_label and any(r.low is None or r.high is None for r in rows):
+        legend.append(("nr", not_reached_label))
+    legend = [(k, fit_text(t, fonts.regular, fs, width - 30)) for k, t in legend if t]
+    legend_w = [16 + stringWidth(t, fonts.regular, fs) for _, t in legend]
+    # Under the plot when the legend fits there on one row; else from the drawing's left edge.
+    legend_x = 6 + label_w + 8
+    placed_legend = _flow(legend_w, 14, width - legend_x - 4)
+    if placed_legend and placed_legend[-1][0] > 0:
+        legend_x = 4.0
+        placed_legend = _flow(legend_w, 14, width - 8)
+    legend_rows = (placed_legend[-1][0] + 1) if placed_legend else 0
+    notes = [fit_text(n, fonts.regular, fs, width - 8) for n in notes if n]
+
+    bottom = 6 + len(notes) * (fs + 3) + legend_rows * (fs + 5) + fs + 6 + fs + 6
+    top = (fs + 8) if nominal_label else 6.0
+    plot_h = row_h * max(len(rows), 1)
+    height = bottom + plot_h + top
+    d = Drawing(width, height, initialFontName=fonts.regular, initialFontSize=fs)
+    fr = _Frame(left, bottom, plot_w, plot_h, x0, x1, 0.0, 1.0)
+
+    def px(t):
+        return fr.px(min(max(t, x0), x1))
+
+    # Grid, ticks, frame.
+    for t in xticks:
+        x = fr.px(t)
+        d.add(Line(x, bottom, x, bottom + plot_h, strokeColor=GRID, strokeWidth=0.5))
+        d.add(String(x, bottom - fs - 3, _fmt_tick(t, xfmt), fontName=fonts.regular, fontSize=fs,
+                     fillColor=INK, textAnchor="middle"))
+    for i in range(1, len(rows)):
+        y = bottom + plot_h - i * row_h
+        d.add(Line(left, y, left + plot_w, y, strokeColor=GRID, strokeWidth=0.4))
+    d.add(Rect(left, bottom, plot_w, plot_h, strokeColor=FRAME, strokeWidth=0.7, fillColor=None))
+    d.add(String(left + plot_w / 2, bottom - 2 * fs - 8, fit_text(x_label, fonts.bold, fs, plot_w), fontName=fonts.bold,
+                 fontSize=fs, fillColor=INK, textAnchor="middle"))
+
+    base = nominal if nominal is not None and math.isfinite(nominal) else x1
+    bx = px(base)
+    bar_h = min(row_h * 0.6, 10.0)
+    for i, (r, lines) in enumerate(zip(rows, label_lines)):
+        yc = bottom + plot_h - (i + 0.5) * row_h
+        # Labels, right-aligned against the plot, centred on the row.
+        first_y = yc + (len(lines) - 1) * (fs + 1.5) / 2 - fs * 0.35
+        for k, line in enumerate(lines):
+            d.add(String(left - 6, first_y - k * (fs + 1.5), line, fontName=fonts.regular, fontSize=fs,
+                         fillColor=INK, textAnchor="end"))
+        segs = []
+        for t, colour in ((r.low, SWING_LOW), (r.high, SWING_HIGH)):
+            reached = t is not None and math.isfinite(t)
+            end = px(t) if reached else left + plot_w
+            segs.append((end, colour, reached))
+        same_side = (segs[0][0] - bx) * (segs[1][0] - bx) > 0 or abs(segs[0][0] - segs[1][0]) < 0.5
+        order = sorted(segs, key=lambda s: -abs(s[0] - bx))
+        for k, (end, colour, reached) in enumerate(order):
+            h = bar_h if (k == 0 or not same_side) else bar_h * 0.5
+            x_lo, x_hi = min(bx, end), max(bx, end)
+            d.add(Rect(x_lo, yc - h / 2, max(x_hi - x_lo, 0.8), h, fillColor=colour, strokeColor=INK,
+                       strokeWidth=0.3))
+        unreached = [colour for end, colour, reached in segs if not reached]
+        for k, colour in enumerate(unreached):
+            dy = 0.0 if len(unreached) == 1 else (2.6 if k == 0 else -2.6)
+            d.add(_not_reached_marker(left + plot_w + 2, yc + dy, colour, 2.6 if len(unreached) > 1 else 3.2))
+
+    # Nominal line and its label above the plot.
+    if nominal_label or nominal is not None:
+        d.add(Line(bx, bottom, bx, bottom + plot_h + (3 if nominal_label else 0), strokeColor=INK, strokeWidth=1.0,
+                   strokeDashArray=(3, 2)))
+        if nominal_label:
+            text = fit_text(nominal_label, fonts.regular, fs, width - 4)
+            w = stringWidth(text, fonts.regular, fs)
+            a = bx + 3 if bx + 3 + w <= width - 2 else bx - 3 - w
+            a = min(max(a, 2.0), width - 2.0 - w)
+            d.add(String(a, bottom + plot_h + 3, text, fontName=fonts.regular, fontSize=fs, fillColor=INK))
+
+    # Legend and notes.
+    yrow = bottom - 2 * fs - 8 - fs - 5
+    for (kind, text), (row, off) in zip(legend, placed_legend):
+        x = legend_x + off
+        y = yrow - row * (fs + 5)
+        if kind == "nr":
+            d.add(_not_reached_marker(x + 3, y + fs * 0.35, FRAME))
+        else:
+            d.add(Rect(x, y - 0.5, 11, fs, fillColor=SWING_LOW if kind == "low" else SWING_HIGH, strokeColor=INK,
+                       strokeWidth=0.3))
+        d.add(String(x + 16, y, text, fontName=fonts.regular, fontSize=fs, fillColor=INK))
+    yrow -= legend_rows * (fs + 5)
+    for note in notes:
+        d.add(String(4.0, yrow, note, fontName=fonts.regular, fontSize=fs, fillColor=INK))
+        yrow -= fs + 3
     return d

@@ -15,6 +15,21 @@ Public API
 ``template_hashes(templates_dir=None) -> dict[str, str]``
 ``default_templates_dir() -> Path``
 ``TemplateError``, ``MemoInputError``
+
+Optional result keys for the uncertainty and allowable-value parts
+------------------------------------------------------------------
+``uncertainty`` (dict or null): Monte Carlo summary (samples, accepted, rejected,
+seed, sampling, inputs, first_limit, limits with probabilities, their standard
+errors and 5/50/95 % times, ranked sensitivity swings, method, note).  When
+present the memo gets an "Uncertainty" section after the results, runaway,
+boiling and recovery sections and before the verdict.
+``uncertainty_cdf`` (or ``_uncertainty_cdf``, or ``uncertainty["_cdf"]``):
+``{"time_s": [...], "probability": [...], "n": ...}``, the empirical cumulative
+distribution of the time to the first limit, for the chart only.
+``allowable_values`` (list or null): per scanned input, its unit text, case value,
+scanned range and the values where the verdict changes (``changes``; empty means
+no change), all in the case's own units; printed at the end of the results section.
+Times of null mean "not reached within the horizon" throughout.
 """
 from __future__ import annotations
 
@@ -172,7 +187,16 @@ def _check_values(tpl: dict, path: Path) -> None:
                         ("criticality_class_value", ("n",)), ("hb_x", ("unit",)), ("hb_y", ("unit",)),
                         ("hb_ambient", ("temp",)), ("hb_critical_ambient", ("temp",)),
                         ("hb_critical_ambient_lumped", ("temp",)), ("hb_caption", ("n",)),
-                        ("recovery_caption", ("n",)), ("glyph_note", ("n",))):
+                        ("recovery_caption", ("n",)), ("glyph_note", ("n",)),
+                        ("allowable_range_value", ("low", "high")), ("allowable_change", ("value", "below", "above")),
+                        ("allowable_bracket", ("low", "high")), ("allowable_throughout", ("verdict",)),
+                        ("unc_run", ("samples", "accepted", "rejected", "seed", "sampling")),
+                        ("unc_none_of", ("n",)), ("unc_all_of", ("n",)), ("unc_limits_note", ("horizon",)),
+                        ("unc_tornado_x", ("limit",)), ("unc_tornado_nominal", ("time",)),
+                        ("unc_tornado_caption", ("n", "limit")), ("unc_tornado_truncated", ("shown", "total")),
+                        ("unc_sens_note", ("limit",)), ("unc_cdf_nominal", ("time",)),
+                        ("unc_cdf_caption", ("n", "limit", "samples")), ("unc_cdf_caption_end", ("end",)),
+                        ("unc_cdf_empty", ("limit",))):
         _check_format(tpl, path, "labels", key, fields)
 
 
@@ -426,6 +450,60 @@ def _hours_short(seconds: float) -> str:
     if a >= 1:
         return _minus(f"{h:.2f} h")
     return _minus(f"{h:.2g} h")
+
+
+def _decimals_for(p: float, decimals: int) -> int:
+    """More decimals when rounding would show a probability strictly between 0 and 1 as 0 % or 100 %."""
+    while decimals < 8 and 0.0 < p < 1.0 and float(f"{p * 100:.{decimals}f}") in (0.0, 100.0):
+        decimals += 1
+    return decimals
+
+
+def _percent(p: float, se: float | None = None) -> str:
+    """A probability as a percentage; with its standard error when one is given and non-zero.
+
+    The standard error is shown to two significant digits and the probability to
+    the same decimal place (more if that would round it to 0 % or 100 %).
+    """
+    if not math.isfinite(p):
+        return _num_text(p)
+    if se is None or not math.isfinite(se) or se <= 0:
+        d = _decimals_for(p, 1 if 0.0 < p < 1.0 else 0)
+        return f"{p * 100:.{d}f} %"
+    sp = se * 100.0
+    d = max(0, min(4, 1 - math.floor(math.log10(sp))))
+    d = _decimals_for(p, d)
+    return f"{p * 100:.{d}f} % \u00b1 {sp:.{d}f} %"
+
+
+def _count_text(value, where: str) -> str | None:
+    """A count (samples, seed) as digits; None when missing."""
+    if value is None:
+        return None
+    if isinstance(value, bool):
+        raise MemoInputError(f"{where}: expected a number or null, got bool")
+    if isinstance(value, int):
+        return str(value)
+    if isinstance(value, float):
+        return str(int(value)) if value.is_integer() else _num_text(value, 8)
+    return _str(value, where)
+
+
+_TEMPERATURE_TEXTS = {"degc": "degC", "degf": "degF", "degr": "degR", "\u00b0c": "degC", "\u00b0f": "degF",
+                      "\u00b0r": "degR", "celsius": "degC", "fahrenheit": "degF", "rankine": "degR",
+                      "degree_celsius": "degC", "degree_fahrenheit": "degF", "degree_rankine": "degR"}
+
+
+def _case_unit(unit: str | None) -> str:
+    """The unit a case wrote, with temperature words shown as their symbols (degC as \u00b0C)."""
+    if not unit:
+        return ""
+    key = _TEMPERATURE_TEXTS.get(unit.strip().lower())
+    return _UNIT_SYMBOL[key] if key else unit.strip()
+
+
+def _with_unit(x: float, unit: str, digits: int = 5) -> str:
+    return f"{_num_text(x, digits)} {unit}".strip()
 
 
 class _Units:
@@ -878,6 +956,30 @@ class _Memo:
     def horizon_text(self) -> str:
         return _hours_short(self.horizon) if self.horizon is not None else "?"
 
+    def markup(self, key: str, **fields) -> str:
+        """A template label with its placeholders replaced by markup that is already safe.
+
+        The template's own text is escaped; only the inserted fields carry markup."""
+        import string
+
+        out = []
+        for literal, name, _spec, _conv in string.Formatter().parse(self.lay.tpl["labels"][key]):
+            out.append(self.esc(literal))
+            if name is not None:
+                out.append(fields[name])
+        return "".join(out)
+
+    def verdict_markup(self, verdict) -> str:
+        """A verdict word from the result, coloured when it is one of pass / review / fail."""
+        text = _any_text(verdict)
+        key = _verdict_key(text)
+        if key:
+            return f'<b><font color="{_VERDICT_COLOURS[key]}">{self.esc(self.L("verdict_" + key))}</font></b>'
+        return f"<b>{self.esc(text or self.L('not_given'))}</b>"
+
+    def uncertainty(self) -> Mapping | None:
+        return _mapping(self.r.get("uncertainty"), "uncertainty")
+
     # -- sections ---------------------------------------------------------------
     def has_runaway(self) -> bool:
         keys = ("tmr_adiabatic_s", "tmr_at_mtsr_s", "t_d24_K", "critical_ambient_temperature_K",
@@ -900,6 +1002,8 @@ class _Memo:
             order.append("boiling")
         if self.has_recovery():
             order.append("recovery")
+        if self.uncertainty() is not None:
+            order.append("uncertainty")
         order += ["verdict", "warnings", "assumptions", "caution_end", "signoff"]
         self.numbers = {key: i + 1 for i, key in enumerate(order)}
 
@@ -1151,6 +1255,62 @@ class _Memo:
         if biot is not None or (mixing and mixing != "stirred"):
             pairs.append((self.L("biot"), self.esc(_num_text(biot, 3)) if biot is not None else self.na()))
         out.append(lay.kv_table(pairs))
+        if _seq(self.r.get("allowable_values"), "allowable_values"):
+            out += self.allowable_values()
+        return out
+
+    def allowable_values(self) -> list:
+        """Rows of input values at which the overall verdict changes (values in the case's units)."""
+        from reportlab.platypus import CondPageBreak
+
+        lay = self.lay
+        items = _seq(self.r.get("allowable_values"), "allowable_values")
+        out = [CondPageBreak(90), lay.P(self.esc(lay.T("headings.allowable")), "h2")]
+        w = lay.frame_width
+        rows = [[lay.P(self.esc(self.L(k)), "head") for k in
+                 ("allowable_input", "allowable_nominal", "allowable_range", "allowable_changes")]]
+        for i, item in enumerate(items):
+            where = f"allowable_values[{i}]"
+            m = _mapping(item, where) or {}
+            unit = _case_unit(_str(m.get("unit"), f"{where}.unit"))
+            nominal = _num(m.get("nominal"), f"{where}.nominal")
+            nom_txt = self.esc(_with_unit(nominal, unit)) if nominal is not None else self.esc(self.L("not_given"))
+            rng = _floats(m.get("range"), f"{where}.range")
+            if len(rng) == 2:
+                rng_txt = self.markup("allowable_range_value", low=self.esc(_with_unit(rng[0], unit)),
+                                      high=self.esc(_with_unit(rng[1], unit)))
+            else:
+                rng_txt = self.na()
+            lines = []
+            changes = _seq(m.get("changes"), f"{where}.changes")
+            for j, ch in enumerate(changes):
+                cw = f"{where}.changes[{j}]"
+                c = _mapping(ch, cw) or {}
+                value = _num(c.get("value"), f"{cw}.value")
+                v_txt = f"<b>{self.esc(_with_unit(value, unit))}</b>" if value is not None else self.na()
+                line = self.markup("allowable_change", value=v_txt, below=self.verdict_markup(c.get("below")),
+                                   above=self.verdict_markup(c.get("above")))
+                br = _floats(c.get("bracket"), f"{cw}.bracket")
+                if len(br) == 2:
+                    lo_t, hi_t = _with_unit(br[0], unit), _with_unit(br[1], unit)
+                    if lo_t != hi_t:  # only when the location is coarser than the digits shown
+                        line += " " + self.esc(self.L("allowable_bracket", low=lo_t, high=hi_t))
+                lines.append(line)
+            if not changes:
+                text = self.esc(self.L("allowable_no_change"))
+                scan = [(_mapping(x, f"{where}.scan[{k}]") or {}).get("verdict")
+                        for k, x in enumerate(_seq(m.get("scan"), f"{where}.scan"))]
+                if scan and all(v == scan[0] for v in scan) and scan[0] is not None:
+                    text += "; " + self.markup("allowable_throughout", verdict=self.verdict_markup(scan[0]))
+                lines.append(f"<i>{text}</i>")
+            cell = [lay.P("<br/>".join(lines), "cell")]
+            note = m.get("note")
+            if note is not None:
+                cell.append(lay.user(_any_text(note), "small"))
+            rows.append([lay.path(m.get("input"), w * 0.29 - 8), lay.P(nom_txt, "cell"), lay.P(rng_txt, "cell"), cell])
+        if len(rows) > 1:
+            out.append(lay.table(rows, [w * 0.29, w * 0.12, w * 0.2, w * 0.39]))
+        out += lay.prose(lay.T("allowable.text"), "small")
         return out
 
     def _det_resp_text(self) -> str:
@@ -1439,6 +1599,268 @@ class _Memo:
             out.append(KeepTogether([drawing, lay.P(self.esc(self.L("recovery_caption", n=n)), "caption")]))
         return out
 
+    # -- uncertainty --------------------------------------------------------------
+    def sec_uncertainty(self):
+        lay = self.lay
+        u = self.uncertainty() or {}
+        out = [lay.heading(self.numbers["uncertainty"], "uncertainty")]
+        note = u.get("note")
+        if note is not None:
+            out.append(lay.P(f"<b>{self.esc(self.L('unc_note'))}:</b> {self.esc(_any_text(note))}"))
+        out += lay.prose(lay.T("uncertainty.text"))
+        given = self.L("not_given")
+        run = {k: _count_text(u.get(k), f"uncertainty.{k}") for k in ("samples", "accepted", "rejected", "seed")}
+        run["sampling"] = _str(u.get("sampling"), "uncertainty.sampling")
+        out.append(lay.P(self.esc(self.L("unc_run", **{k: (v if v is not None else given) for k, v in run.items()}))))
+        method = u.get("method")
+        if method is not None:
+            out.append(lay.P(f"<b>{self.esc(self.L('unc_method'))}:</b> {self.esc(_any_text(method))}", "small"))
+        out += self._unc_inputs(u)
+        out += self._unc_limits(u)
+        out += self._unc_sensitivity(u)
+        out += self._unc_cdf(u)
+        return out
+
+    def _unc_first_limit(self, u: Mapping) -> tuple[str, dict | None]:
+        """Name of the limit the charts are about, and the deterministic limit of that name."""
+        name = _str(u.get("first_limit"), "uncertainty.first_limit")
+        if name is not None:
+            return name, next((x for x in self.limits if x["name"] == name), None)
+        temps = [x for x in self.limits if x["temperature_K"] is not None]
+        lim = min(temps, key=lambda x: x["temperature_K"]) if temps else None
+        return (lim["name"] if lim else self.L("first_limit")), lim
+
+    def _unc_nominal_time(self, u: Mapping) -> tuple[bool, float | None]:
+        """(known, time in s or None when not reached) of the first limit with all inputs at case values."""
+        _, lim = self._unc_first_limit(u)
+        if lim is None:
+            return False, None
+        if lim["time_s"] is not None and lim["reached"]:
+            return True, lim["time_s"]
+        return True, None
+
+    def _unc_inputs(self, u: Mapping) -> list:
+        lay = self.lay
+        items = _seq(u.get("inputs"), "uncertainty.inputs")
+        if not items:
+            return [] if u.get("note") is not None else [lay.P(f"<i>{self.esc(self.L('unc_no_inputs'))}</i>")]
+        w = lay.frame_width
+        rows = [[lay.P(self.esc(self.L(k)), "head") for k in
+                 ("unc_input", "unc_distribution", "unc_parameters", "unc_nominal")]]
+        known = ("low", "mode", "high", "mean", "sd", "median", "gsd")
+        unitless = ("gsd",)
+        skip = ("input", "distribution", "nominal", "unit_si")
+        for i, item in enumerate(items):
+            where = f"uncertainty.inputs[{i}]"
+            m = _mapping(item, where) or {}
+            unit = _str(m.get("unit_si"), f"{where}.unit_si") or ""
+            keys = [k for k in known if k in m] + [k for k in m if k not in known and k not in skip]
+            params = []
+            for k in keys:
+                v = m.get(k)
+                if v is None:
+                    continue
+                name = self.L(f"unc_param_{k}") if f"unc_param_{k}" in self.lay.tpl["labels"] else str(k)
+                if isinstance(v, (int, float)) and not isinstance(v, bool):
+                    v_txt = _num_text(float(v), 6) if k in unitless else _with_unit(float(v), unit, 6)
+                else:
+                    v_txt = _any_text(v)
+                params.append(f"{self.esc(name)} {self.esc(v_txt)}")
+            nominal = _num(m.get("nominal"), f"{where}.nominal")
+            rows.append([lay.path(m.get("input"), w * 0.3 - 8), lay.user(_any_text(m.get("distribution"))),
+                         lay.P(", ".join(params) or self.na(), "cell"),
+                         lay.P(self.esc(_with_unit(nominal, unit, 6)) if nominal is not None else self.na(), "cell")])
+        return [lay.P(self.esc(lay.T("headings.unc_inputs")), "h2"),
+                lay.table(rows, [w * 0.3, w * 0.14, w * 0.36, w * 0.2])]
+
+    def _unc_prob(self, m: Mapping, key: str, where: str, n: str | None, zero_flags: list) -> str:
+        p = _num(m.get(key), f"{where}.{key}")
+        se = _num(m.get(key + "_standard_error"), f"{where}.{key}_standard_error")
+        if p is None:
+            return self.esc(self.L("unc_no_deadline")) if key == "probability_before_response" else self.na()
+        text = self.esc(_percent(p, se))
+        if se is not None and se == 0 and p in (0.0, 1.0):
+            zero_flags.append(True)
+            if n is not None:
+                text += " " + self.esc(self.L("unc_none_of" if p == 0.0 else "unc_all_of", n=n))
+        return text
+
+    def _unc_limits(self, u: Mapping) -> list:
+        lay = self.lay
+        items = _seq(u.get("limits"), "uncertainty.limits")
+        if not items:
+            return [] if u.get("note") is not None else [lay.P(f"<i>{self.esc(self.L('unc_no_limits'))}</i>")]
+        n = _count_text(u.get("accepted"), "uncertainty.accepted")
+        first_name, _ = self._unc_first_limit(u)
+        w = lay.frame_width
+        rows = [[lay.P(self.esc(self.L(k)), "head") for k in
+                 ("unc_limit", "unc_before", "unc_within", "unc_p05", "unc_p50", "unc_p95")]]
+        zero_flags: list = []
+        for i, item in enumerate(items):
+            where = f"uncertainty.limits[{i}]"
+            m = _mapping(item, where) or {}
+            name = _str(m.get("name"), f"{where}.name") or f"limit {i + 1}"
+            name_cell = [lay.user(name, "cellb")]
+            if name == first_name:
+                name_cell.append(lay.P(self.esc(self.L("unc_first_limit_mark")), "small"))
+            cells = [name_cell,
+                     lay.P(self._unc_prob(m, "probability_before_response", where, n, zero_flags), "cell"),
+                     lay.P(self._unc_prob(m, "probability_within_horizon", where, n, zero_flags), "cell")]
+            for k in ("p05_time_s", "p50_time_s", "p95_time_s"):
+                t = _num(m.get(k), f"{where}.{k}")
+                cells.append(lay.P(self.esc(_hours_short(t)) if t is not None else
+                                   f"<i>{self.esc(self.L('unc_not_reached'))}</i>", "cell"))
+            rows.append(cells)
+        out = [lay.P(self.esc(lay.T("headings.unc_limits")), "h2"),
+               lay.table(rows, [w * 0.21, w * 0.2, w * 0.2, w * 0.13, w * 0.13, w * 0.13]),
+               lay.P(self.esc(self.L("unc_limits_note", horizon=self.horizon_text())), "small")]
+        if zero_flags:
+            out.append(lay.P(f"<b>{self.esc(self.L('unc_zero_se_note'))}</b>", "small"))
+        return out
+
+    def _unc_sensitivity(self, u: Mapping) -> list:
+        from reportlab.platypus import KeepTogether
+
+        from .memo_charts import TornadoRow, tornado_chart
+
+        lay = self.lay
+        items = _seq(u.get("sensitivity"), "uncertainty.sensitivity")
+        if not items:
+            return [] if u.get("note") is not None else [lay.P(f"<i>{self.esc(self.L('unc_no_sensitivity'))}</i>")]
+        limit_name, _ = self._unc_first_limit(u)
+        known, nominal_s = self._unc_nominal_time(u)
+        w = lay.frame_width
+        entries = []
+        for i, item in enumerate(items):
+            where = f"uncertainty.sensitivity[{i}]"
+            m = _mapping(item, where) or {}
+            possible = m.get("swing_possible")
+            entries.append({
+                "input": _str(m.get("input"), f"{where}.input") or f"input {i + 1}",
+                "unit": _str(m.get("unit_si"), f"{where}.unit_si") or "",
+                "low_value": _num(m.get("low_value"), f"{where}.low_value"),
+                "high_value": _num(m.get("high_value"), f"{where}.high_value"),
+                "low_time": _num(m.get("low_time_s"), f"{where}.low_time_s"),
+                "high_time": _num(m.get("high_time_s"), f"{where}.high_time_s"),
+                "rho": _num(m.get("rank_correlation"), f"{where}.rank_correlation"),
+                "impossible": possible is not None and not bool(possible),
+            })
+        for i, e in enumerate(entries):
+            for key in ("low_time", "high_time"):
+                if e[key] is not None and not math.isfinite(e[key]):
+                    # would otherwise be drawn as "not reached": refuse rather than mislead
+                    raise MemoInputError(f"uncertainty.sensitivity[{i}].{key}_s: expected a finite number or "
+                                         f"null (null = not reached), got {e[key]}")
+        any_impossible = any(e["impossible"] for e in entries)
+        shown = entries[:_TORNADO_ROWS]
+        rows = [TornadoRow(self.tx.clean(e["input"]),
+                           e["low_time"] / 3600.0 if e["low_time"] is not None else None,
+                           e["high_time"] / 3600.0 if e["high_time"] is not None else None,
+                           mark=" *" if e["impossible"] else "") for e in shown]
+        if known and nominal_s is not None:
+            nom_label = self.L("unc_tornado_nominal", time=_hours_short(nominal_s))
+        elif known:
+            nom_label = self.L("unc_tornado_nominal_never")
+        else:
+            nom_label = ""
+        notes = []
+        if any(e["impossible"] for e in shown):
+            notes.append(self.tx.clean(self.L("unc_tornado_impossible")))
+        if len(entries) > len(shown):
+            notes.append(self.tx.clean(self.L("unc_tornado_truncated", shown=len(shown), total=len(entries))))
+        drawing = tornado_chart(
+            w, rows, lay.chart_fonts(),
+            x_label=self.tx.clean(self.L("unc_tornado_x", limit=limit_name)),
+            low_label=self.tx.clean(self.L("unc_tornado_low")),
+            high_label=self.tx.clean(self.L("unc_tornado_high")),
+            nominal=(nominal_s / 3600.0) if nominal_s is not None else None,
+            nominal_label=self.tx.clean(nom_label),
+            x_max=self.horizon / 3600.0 if self.horizon is not None else None,
+            not_reached_label=self.tx.clean(self.L("unc_tornado_not_reached")),
+            notes=notes,
+        )
+        fig = lay.figure_number()
+        caption = self.L("unc_tornado_caption", n=fig, limit=limit_name)
+        head = lay.P(self.esc(lay.T("headings.unc_sensitivity")), "h2")
+        out = [KeepTogether([head, drawing, lay.P(self.esc(caption), "caption")])]
+
+        trows = [[lay.P(self.esc(self.L(k)), "head") for k in
+                  ("unc_sens_input", "unc_sens_low", "unc_sens_low_time", "unc_sens_high", "unc_sens_high_time",
+                   "unc_sens_rho")]]
+        not_reached = f"<i>{self.esc(self.L('unc_not_reached'))}</i>"
+        for e in entries:
+            name = e["input"] + (" *" if e["impossible"] else "")
+            trows.append([
+                lay.path(name, w * 0.28 - 8),
+                lay.P(self.esc(_with_unit(e["low_value"], e["unit"], 4)) if e["low_value"] is not None else self.na(),
+                      "cell"),
+                lay.P(self.esc(_hours_short(e["low_time"])) if e["low_time"] is not None else not_reached, "cell"),
+                lay.P(self.esc(_with_unit(e["high_value"], e["unit"], 4)) if e["high_value"] is not None
+                      else self.na(), "cell"),
+                lay.P(self.esc(_hours_short(e["high_time"])) if e["high_time"] is not None else not_reached, "cell"),
+                lay.P(self.esc(_minus(f"{e['rho']:+.2f}")) if e["rho"] is not None else self.na(), "cell"),
+            ])
+        out.append(lay.table(trows, [w * 0.28, w * 0.14, w * 0.13, w * 0.14, w * 0.13, w * 0.18]))
+        out.append(lay.P(self.esc(self.L("unc_sens_note", limit=limit_name)), "small"))
+        if any_impossible:
+            out.append(lay.P(self.esc(self.L("unc_tornado_impossible")), "small"))
+        return out
+
+    def _unc_cdf(self, u: Mapping) -> list:
+        from reportlab.platypus import KeepTogether
+
+        from .memo_charts import TRACE, Series, VLine, fit_text, line_chart
+
+        lay = self.lay
+        cdf = self.plot("uncertainty_cdf")
+        if cdf is None:
+            cdf = u.get("_cdf")
+        cdf = _mapping(cdf, "uncertainty_cdf")
+        head = lay.P(self.esc(lay.T("headings.unc_cdf")), "h2")
+        limit_name, _ = self._unc_first_limit(u)
+        if cdf is None:
+            if u.get("note") is not None:
+                return []
+            return [head, lay.P(f"<i>{self.esc(self.L('unc_cdf_missing'))}</i>")]
+        ts = _floats(cdf.get("time_s"), "uncertainty_cdf.time_s")
+        ps = _floats(cdf.get("probability"), "uncertainty_cdf.probability")
+        k = min(len(ts), len(ps))
+        pts = [(t / 3600.0, p) for t, p in zip(ts[:k], ps[:k]) if math.isfinite(t) and math.isfinite(p)]
+        if not pts:
+            return [head, lay.P(f"<i>{self.esc(self.L('unc_cdf_empty', limit=limit_name))}</i>")]
+        n_txt = _count_text(cdf.get("n"), "uncertainty_cdf.n") or _count_text(u.get("accepted"), "uncertainty.accepted")
+        xs = [pts[0][0]] + [x for x, _ in pts]
+        ys = [0.0] + [y for _, y in pts]
+        series = [Series(xs, ys, "", colour=TRACE, width=1.5)]
+        h_end = self.horizon / 3600.0 if self.horizon is not None else None
+        if h_end is not None and h_end > xs[-1]:  # no further sample reaches the limit before the horizon
+            series.append(Series([xs[-1], h_end], [ys[-1], ys[-1]], "", colour=TRACE, width=1.0, dash=(3, 2)))
+        vlines = []
+        known, nominal_s = self._unc_nominal_time(u)
+        if known and nominal_s is not None:
+            vlines.append(VLine(nominal_s / 3600.0, self.tx.clean(self.L("unc_cdf_nominal",
+                                                                        time=_hours_short(nominal_s))),
+                                colour=lay.colors.HexColor("#455A64"), dash=(1.5, 1.5)))
+        deadline = self._response_line()
+        vlines += deadline
+        fonts = lay.chart_fonts()
+        x_label = fit_text(self.tx.clean(self.L("unc_cdf_x")), fonts.bold, fonts.size, lay.frame_width * 0.8)
+        drawing = line_chart(
+            self._chart_width(), 220, series, fonts,
+            x_label=x_label, y_label=self.tx.clean(self.L("unc_cdf_y")),
+            vlines=vlines, x_range=self._x_range([xs[-1]] + [v.x * 1.04 for v in vlines]), y_range=(0.0, 1.0),
+            x_min_zero=True, x_hours=True, x_exact=True,
+            clipped_note=self.tx.clean(self.L("chart_clipped")),
+            dropped_note=self.tx.clean(self.L("chart_dropped", n="{n}")),
+        )
+        fig = lay.figure_number()
+        caption = self.L("unc_cdf_caption", n=fig, limit=limit_name, samples=n_txt or self.L("not_given"))
+        if ys[-1] < 1.0:
+            caption += " " + self.L("unc_cdf_caption_end", end=_percent(ys[-1]))
+        if deadline:
+            caption += " " + self.L("unc_cdf_caption_response")
+        return [KeepTogether([head, drawing, lay.P(self.esc(caption), "caption")])]
+
     def sec_verdict(self):
         lay = self.lay
         rule = _mapping(self.r.get("rule_set"), "rule_set") or {}
@@ -1524,6 +1946,10 @@ class _Memo:
             cmds.append(("LINEBELOW", (0, 4 + k), (-1, 4 + k), 0.4, lay.colors.HexColor("#999999")))
         t.setStyle(TableStyle(cmds))
         return t
+
+
+#: Inputs drawn in the tornado chart (most influential first); every input is in the table under it.
+_TORNADO_ROWS = 15
 
 
 def _interp(x: float, xs: list[float], ys: list[float]) -> float:

@@ -285,5 +285,220 @@ def recovery_case() -> dict:
     return res
 
 
+# --------------------------------------------------------------------------- uncertainty
+
+
+_Z95 = 1.6448536269514722  # standard normal 95th percentile
+
+
+def _tank_time(limit_K, ua, power, ta, t0, heat_capacity, horizon):
+    """Closed-form time for the constant-power tank to reach ``limit_K``; None if not within the horizon."""
+    if t0 >= limit_K:
+        return 0.0
+    ts = ta + power / ua
+    if ts <= limit_K:
+        return None
+    t = -heat_capacity / ua * math.log((limit_K - ts) / (t0 - ts))
+    return t if t <= horizon else None
+
+
+def _quantile(inp, q):
+    d = inp["distribution"]
+    if d == "uniform":
+        return inp["low"] + q * (inp["high"] - inp["low"])
+    if d == "normal":
+        return inp["mean"] + (_Z95 if q > 0.5 else -_Z95) * inp["sd"] * (abs(q - 0.5) > 0.4499)
+    if d == "triangular":
+        a, c, b = inp["low"], inp["mode"], inp["high"]
+        f = (c - a) / (b - a)
+        return a + math.sqrt(q * (b - a) * (c - a)) if q < f else b - math.sqrt((1 - q) * (b - a) * (b - c))
+    if d == "lognormal":
+        return inp["median"] * inp["gsd"] ** ((_Z95 if q > 0.5 else -_Z95) * (abs(q - 0.5) > 0.4499))
+    raise ValueError(d)
+
+
+def _draw(rng, inp):
+    d = inp["distribution"]
+    if d == "uniform":
+        return rng.uniform(inp["low"], inp["high"])
+    if d == "normal":
+        return rng.gauss(inp["mean"], inp["sd"])
+    if d == "triangular":
+        return rng.triangular(inp["low"], inp["high"], inp["mode"])
+    return inp["median"] * math.exp(rng.gauss(0.0, math.log(inp["gsd"])))
+
+
+def _ranks(values):
+    order = sorted(range(len(values)), key=values.__getitem__)
+    ranks = [0.0] * len(values)
+    i = 0
+    while i < len(order):
+        j = i
+        while j + 1 < len(order) and values[order[j + 1]] == values[order[i]]:
+            j += 1
+        for k in range(i, j + 1):
+            ranks[order[k]] = (i + j) / 2.0
+        i = j + 1
+    return ranks
+
+
+def _spearman(a, b):
+    ra, rb = _ranks(a), _ranks(b)
+    ma, mb = sum(ra) / len(ra), sum(rb) / len(rb)
+    cov = sum((x - ma) * (y - mb) for x, y in zip(ra, rb))
+    va = sum((x - ma) ** 2 for x in ra)
+    vb = sum((y - mb) ** 2 for y in rb)
+    return cov / math.sqrt(va * vb) if va > 0 and vb > 0 else None
+
+
+def _percentile(times, q):
+    """Inverted CDF with not-reached counted as later than any time; None when it falls there."""
+    s = sorted(math.inf if t is None else t for t in times)
+    k = max(0, min(len(s) - 1, math.ceil(q * len(s)) - 1))
+    return None if math.isinf(s[k]) else s[k]
+
+
+def _scan_changes(verdict, lo, hi, points=41):
+    xs = [lo + (hi - lo) * k / (points - 1) for k in range(points)]
+    vs = [verdict(x) for x in xs]
+    changes = []
+    for a, b, va, vb in zip(xs[:-1], xs[1:], vs[:-1], vs[1:]):
+        if va == vb:
+            continue
+        for _ in range(80):
+            if b - a <= 1e-7 * (hi - lo):
+                break
+            mid = 0.5 * (a + b)
+            if verdict(mid) == va:
+                a = mid
+            else:
+                b = mid
+        changes.append({"value": 0.5 * (a + b), "below": va, "above": vb, "bracket": [a, b]})
+    return [{"value": x, "verdict": v} for x, v in zip(xs, vs)], changes
+
+
+def uncertainty_case(samples: int = 4000, seed: int = 11) -> dict:
+    """The storage tank with a 20 h response, a Monte Carlo block and allowable values.
+
+    The Monte Carlo here is a small pure-Python loop over the closed form, made
+    only so that the tables and charts of the memo agree with each other.
+    """
+    import random
+
+    res = closed_form_case()
+    res["id"] = "TK-101-MC"
+    res["title"] = "Solvent storage tank, cooling water restored by tanker within 20 h"
+    response = 20 * 3600.0
+    res["response_time_s"] = response
+    for lim in res["limits"]:
+        lim["margin_s"] = lim["time_s"] - response if lim["time_s"] is not None else None
+    horizon = res["horizon_s"]
+    mass, cp, wall, ua, power, ta, t0 = 9000.0, 2000.0, 1.0e6, 150.0, 6000.0, 298.15, 303.15
+    inputs = [
+        {"input": "heat_loss.ua", "distribution": "normal", "mean": 150.0, "sd": 50.0, "nominal": ua,
+         "unit_si": "W/K"},
+        {"input": "heat_sources.0.power", "distribution": "uniform", "low": 4500.0, "high": 7500.0,
+         "nominal": power, "unit_si": "W"},
+        {"input": "heat_loss.ambient_temperature", "distribution": "normal", "mean": 298.15, "sd": 3.0,
+         "nominal": ta, "unit_si": "K"},
+        {"input": "contents.initial_temperature", "distribution": "normal", "mean": 303.15, "sd": 2.0,
+         "nominal": t0, "unit_si": "K"},
+        {"input": "contents.mass", "distribution": "triangular", "low": 7000.0, "mode": 9000.0, "high": 9500.0,
+         "nominal": mass, "unit_si": "kg"},
+        {"input": "contents.specific_heat_capacity", "distribution": "lognormal", "median": 2000.0, "gsd": 1.1,
+         "nominal": cp, "unit_si": "J/(kg K)"},
+        {"input": "vessel.wall_heat_capacity", "distribution": "normal", "mean": 1.0e6, "sd": 6.5e5,
+         "nominal": wall, "unit_si": "J/K"},
+    ]
+    nominal = [inp["nominal"] for inp in inputs]
+
+    def times_for(v):
+        u, p, a, i0, m, c, w = v
+        return [_tank_time(lim["temperature_K"], u, p, a, i0, m * c + w, horizon) for lim in res["limits"]]
+
+    def possible(k, x):
+        return x > 0  # every input here must be positive (temperatures in K)
+
+    rng = random.Random(seed)
+    drawn, rejected = [], 0
+    for _ in range(samples):
+        v = [_draw(rng, inp) for inp in inputs]
+        if all(possible(k, x) for k, x in enumerate(v)):
+            drawn.append(v)
+        else:
+            rejected += 1
+    n = len(drawn)
+    times = [times_for(v) for v in drawn]
+
+    def se(p):
+        return math.sqrt(p * (1 - p) / n)
+
+    limits = []
+    for j, lim in enumerate(res["limits"]):
+        tj = [t[j] for t in times]
+        within = sum(t is not None for t in tj) / n
+        before = sum(t is not None and t < response for t in tj) / n
+        limits.append({"name": lim["name"], "probability_before_response": before,
+                       "probability_before_response_standard_error": se(before),
+                       "probability_within_horizon": within, "probability_within_horizon_standard_error": se(within),
+                       "p05_time_s": _percentile(tj, 0.05), "p50_time_s": _percentile(tj, 0.50),
+                       "p95_time_s": _percentile(tj, 0.95)})
+    first = min(range(len(res["limits"])), key=lambda j: res["limits"][j]["temperature_K"])
+    first_times = [t[first] for t in times]
+    capped = [1e300 if t is None else t for t in first_times]
+    sensitivity = []
+    for k, inp in enumerate(inputs):
+        lo_v, hi_v = _quantile(inp, 0.05), _quantile(inp, 0.95)
+        ok = possible(k, lo_v) and possible(k, hi_v)
+        ends = []
+        for x in (lo_v, hi_v):
+            v = list(nominal)
+            v[k] = x if possible(k, x) else nominal[k]  # an impossible end is reported, not used
+            ends.append(times_for(v)[first])
+        rho = _spearman([v[k] for v in drawn], capped)
+        swing = abs((horizon if ends[0] is None else ends[0]) - (horizon if ends[1] is None else ends[1]))
+        sensitivity.append({"input": inp["input"], "low_value": lo_v, "high_value": hi_v, "unit_si": inp["unit_si"],
+                            "low_time_s": ends[0], "high_time_s": ends[1], "rank_correlation": rho,
+                            "swing_s": swing, "swing_possible": ok})
+    sensitivity.sort(key=lambda r: (-r["swing_s"], -abs(r["rank_correlation"] or 0.0)))
+    finite = sorted(t for t in first_times if t is not None)
+    m = len(finite)
+    idx = sorted({round(i * (m - 1) / (min(200, m) - 1)) for i in range(min(200, m))}) if m > 1 else list(range(m))
+    res["uncertainty"] = {
+        "samples": samples, "accepted": n, "rejected": rejected, "seed": seed, "sampling": "random",
+        "inputs": inputs, "first_limit": res["limits"][first]["name"], "limits": limits,
+        "sensitivity": sensitivity,
+        "method": f"Monte Carlo over the closed-form engine, random sampling; probabilities have a binomial "
+                  f"standard error sqrt(p (1 - p) / n), n = {n}.",
+    }
+    res["uncertainty_cdf"] = {"time_s": [finite[i] for i in idx], "probability": [(i + 1) / n for i in idx], "n": n}
+
+    # Allowable values with a toy rule set: fail when the flash point is reached within the
+    # horizon, review when the maximum storage temperature is, else pass.
+    def verdict(values):
+        t = times_for(values)
+        return "fail" if t[2] is not None else "review" if t[1] is not None else "pass"
+
+    def vary(k, to_si):
+        return lambda x: verdict([to_si(x) if i == k else nominal[i] for i in range(len(nominal))])
+
+    allowable = []
+    for k, path, unit, to_si, from_si, lo, hi in (
+            (2, "heat_loss.ambient_temperature", "degC", lambda c: c + 273.15, lambda kv: kv - 273.15, -5.0, 55.0),
+            (0, "heat_loss.ua", "W/K", lambda x: x, lambda x: x, 30.0, 750.0),
+            (4, "contents.mass", "t", lambda x: x * 1000.0, lambda x: x / 1000.0, 1.8, 45.0)):
+        scan, changes = _scan_changes(vary(k, to_si), lo, hi)
+        allowable.append({"input": path, "unit": unit, "nominal": from_si(nominal[k]), "range": [lo, hi],
+                          "points": 41, "scan": scan, "changes": changes,
+                          "note": "Scanned at 41 points (even spacing) and each change located by bisection."})
+    allowable.append({"input": "response_time", "unit": "h", "nominal": 20.0, "range": [4.0, 100.0], "points": 41,
+                      "scan": [{"value": 4.0 + 2.4 * i, "verdict": "review"} for i in range(41)], "changes": [],
+                      "note": None})
+    res["allowable_values"] = allowable
+    res["warnings"] = list(res["warnings"]) + [
+        "The response time of 20 h assumes a tanker is available; it is not demonstrated."]
+    return res
+
+
 def all_cases() -> list[dict]:
     return [closed_form_case(), arrhenius_case(), recovery_case()]

@@ -462,3 +462,262 @@ def test_register_failure_leaves_nothing(tmp_path):
     with pytest.raises(MemoInputError):
         write_register_summary([{"id": "x", "limits": 5}], [], tmp_path / "r.pdf")
     assert list(tmp_path.iterdir()) == []
+
+
+# --------------------------------------------------------------------------- uncertainty and allowable values
+
+
+@pytest.fixture(scope="module")
+def mc_rendered():
+    os.environ["SOURCE_DATE_EPOCH"] = EPOCH
+    try:
+        case = fx.uncertainty_case()
+        return case, render_memo(case)
+    finally:
+        del os.environ["SOURCE_DATE_EPOCH"]
+
+
+def test_percent_format():
+    assert mw._percent(0.384, 0.0034) == "38.40 % \u00b1 0.34 %"
+    assert mw._percent(0.9998, 1e-4) == "99.980 % \u00b1 0.010 %"
+    assert mw._percent(0.0, 0.0) == "0 %" and mw._percent(1.0, 0.0) == "100 %"
+    assert mw._percent(0.99996) == "99.996 %"  # never rounded to 100 % when some samples did not
+    assert mw._percent(0.00004) == "0.004 %"
+    assert mw._percent(0.5) == "50.0 %"
+
+
+def test_uncertainty_section_content(mc_rendered):
+    case, data = mc_rendered
+    text = flat(pdf_text(data))
+    u = case["uncertainty"]
+    tpl = load_templates()
+    assert "Uncertainty (Monte Carlo)" in text
+    # the section sits after the results and before the verdict and the warnings
+    assert text.index("4. Results") < text.index("7. Uncertainty (Monte Carlo)") < text.index("8. Verdict")
+    assert text.index("8. Verdict") < text.index("9. Validity warnings")
+    # what the estimate is and is not
+    assert flat(tpl["uncertainty"]["text"])[:60] in text
+    assert "engineering judgement" in text and "standard error" in text
+    assert "does not replace the deterministic margin" in text
+    for item in u["inputs"]:
+        assert item["input"] in text, item["input"]
+        assert item["distribution"] in text
+    assert "mean 150 W/K, sd 50 W/K" in text and "low 4500 W, high 7500 W" in text
+    assert "median 2000 J/(kg K), geometric sd 1.1" in text
+    for lim in u["limits"]:
+        for key in ("probability_before_response", "probability_within_horizon"):
+            p, se = lim[key], lim[key + "_standard_error"]
+            assert flat(mw._percent(p, se)) in text, (lim["name"], key)
+        for key in ("p05_time_s", "p50_time_s", "p95_time_s"):
+            if lim[key] is not None:
+                assert mw._hours_short(lim[key]) in text
+    assert "56.25 % \u00b1 0.81 %" in text  # the first limit, before detection + response
+    assert "not reached" in text
+    # p = 0 with a zero standard error: says how many samples and that it is not certainty
+    assert f"0 % (none of {u['accepted']} samples)" in text
+    assert "does not mean certainty" in text
+    # run line and method
+    assert (f"Samples drawn: 4000; screened: {u['accepted']}; rejected as physically impossible: "
+            f"{u['rejected']}; seed: 11; sampling: random.") in text
+    assert f"n = {u['accepted']}" in text
+    # sensitivity: chart and table, the impossible swing end flagged
+    assert "Sensitivity of the time to the first limit" in text
+    assert "Time to reach High temperature alarm (h)" in text
+    assert "vessel.wall_heat_capacity *" in text and "physically impossible; the case value was used" in text
+    assert "all inputs at case values: 19.7 h" in text
+    assert "\u22120.65" in text  # rank correlation of the power, with a true minus sign
+    # cumulative distribution chart
+    assert "Distribution of the time to the first limit" in text
+    assert "Share of samples that reached the limit" in text
+    assert f"Share of the {u['accepted']} screened samples" in text
+    assert "so it ends at 97.4 %" in text
+    assert "Figure 2." in text and "Figure 3." in text
+    assert "[U+" not in text  # every glyph printed is in the embedded fonts
+    # every warning still printed, caution still at both ends
+    for w in case["warnings"]:
+        assert flat(w) in text
+    assert text.count(tpl["caution"]["heading"]) >= 2
+
+
+def test_allowable_values_content(mc_rendered):
+    case, data = mc_rendered
+    text = flat(pdf_text(data))
+    assert "Allowable values" in text
+    results = text[text.index("4. Results"):text.index("5. Temperature after loss of cooling")]
+    assert "Allowable values" in results  # in the results section
+    for entry in case["allowable_values"]:
+        assert entry["input"] in results.replace("heat_loss. ambient", "heat_loss.ambient")
+    assert "25 °C" in results and "−5 °C to 55 °C" in results
+    assert "at 18.71 °C: PASS below, REVIEW above" in results
+    assert "at 31.342 °C: REVIEW below, FAIL above" in results
+    assert "at 121.14 W/K: FAIL below, REVIEW above" in results
+    assert "at 15.018 t: REVIEW below, PASS above" in results
+    assert "no change within the scanned range; REVIEW throughout" in results
+    assert "not a design or operating limit" in results
+    assert "Scanned at 41 points" in results
+
+
+def test_without_new_keys_renders_as_before(rendered):
+    for case_id, (case, data) in rendered.items():
+        c = copy.deepcopy(case)
+        c["uncertainty"] = None
+        c["uncertainty_cdf"] = None
+        c["allowable_values"] = None
+        assert render_memo(c) == data, case_id
+        text = flat(pdf_text(data))
+        assert "Uncertainty (Monte Carlo)" not in text and "Allowable values" not in text
+    c = copy.deepcopy(rendered["TK-101"][0])
+    c["allowable_values"] = []
+    assert render_memo(c) == rendered["TK-101"][1]
+
+
+def test_uncertainty_memo_reproducible(tmp_path, mc_rendered):
+    case, data = mc_rendered
+    assert render_memo(copy.deepcopy(case)) == data
+    code = ("import sys; sys.path.insert(0, 'tests'); import memo_fixtures as fx; "
+            "from screening.memo_writer import write_memo; "
+            f"write_memo(fx.uncertainty_case(), {str(tmp_path / 'mc.pdf')!r})")
+    env = dict(os.environ, SOURCE_DATE_EPOCH=EPOCH)
+    subprocess.run([sys.executable, "-c", code], cwd=REPO, env=env, check=True, timeout=120)
+    assert (tmp_path / "mc.pdf").read_bytes() == data
+
+
+def test_engine_style_underscored_cdf_accepted(mc_rendered):
+    case, data = mc_rendered
+    c = copy.deepcopy(case)
+    c["_uncertainty_cdf"] = c.pop("uncertainty_cdf")
+    assert render_memo(c) == data
+    c = copy.deepcopy(case)
+    c["uncertainty"]["_cdf"] = c.pop("uncertainty_cdf")
+    assert render_memo(c) == data
+
+
+def test_uncertainty_not_computed_note():
+    case = fx.closed_form_case()
+    case["uncertainty"] = {"samples": 10000, "seed": 20261201, "sampling": "latin-hypercube", "rejected": 0,
+                           "limits": [], "sensitivity": [],
+                           "note": "Not computed: the vectorised integrator does not model boiling credit."}
+    text = flat(pdf_text(render_memo(case)))
+    assert "Uncertainty (Monte Carlo)" in text
+    assert "Note: Not computed: the vectorised integrator does not model boiling credit." in text
+    assert "screened: not given" in text and "sampling: latin-hypercube" in text
+    assert "Figure 2" not in text  # no charts without data
+
+
+def test_uncertainty_edge_values():
+    case = fx.uncertainty_case()
+    u = case["uncertainty"]
+    u["first_limit"] = "Flash point"  # not reached with the case values
+    u["sensitivity"][0]["high_time_s"] = None
+    u["sensitivity"][1]["low_time_s"] = None
+    u["sensitivity"][1]["high_time_s"] = None
+    u["sensitivity"][2]["rank_correlation"] = None
+    u["limits"][0]["probability_before_response"] = None
+    u["limits"][0]["probability_before_response_standard_error"] = None
+    u["limits"][1]["probability_within_horizon"] = 1.0
+    u["limits"][1]["probability_within_horizon_standard_error"] = 0.0
+    u["sensitivity"] += [{"input": f"heat_sources.{i}.power", "low_value": 1.0, "high_value": 2.0, "unit_si": "W",
+                          "low_time_s": 1e5, "high_time_s": 1.1e5, "rank_correlation": 0.0, "swing_s": 1e4,
+                          "swing_possible": True} for i in range(20)]
+    case["uncertainty_cdf"] = {"time_s": [], "probability": [], "n": u["accepted"]}
+    text = flat(pdf_text(render_memo(case)))
+    assert "all inputs at case values: not reached" in text
+    assert "not reached within the horizon (bar drawn to the horizon)" in text
+    assert "n/a (no response time given)" in text
+    assert f"100 % (all {u['accepted']} samples)" in text
+    assert "The chart shows the 15 most influential inputs; all 27 are in the table below." in text
+    assert "heat_sources.19.power" in text  # every input is in the table
+    assert "No sample reaches Flash point within the horizon" in text
+    del case["uncertainty_cdf"]
+    assert "No distribution of times came with this result" in flat(pdf_text(render_memo(case)))
+
+
+def test_hostile_text_in_uncertainty_and_allowable_values():
+    case = fx.uncertainty_case()
+    u = case["uncertainty"]
+    u["inputs"][0]["input"] = "<b>heat</b>.ua&amp;"
+    u["inputs"][0]["distribution"] = "<i>normal</i>"
+    u["sensitivity"][0]["input"] = "<font size=30>power</font>"
+    u["limits"][0]["name"] = "<u>alarm</u> & more"
+    u["method"] = "Monte <br/> Carlo & co"
+    u["note"] = "<para>note</para> & ΔT"
+    case["allowable_values"][0]["input"] = "<strike>ambient</strike>"
+    case["allowable_values"][0]["unit"] = "<sup>m</sup>"
+    case["allowable_values"][0]["changes"][0]["below"] = "<b>odd</b>"
+    text = flat(pdf_text(render_memo(case)))
+    for s in ("<b>heat</b>.ua&amp;", "<i>normal</i>", "<font size=30>power</font>", "<u>alarm</u> & more",
+              "Monte <br/> Carlo & co", "<para>note</para> & [U+0394]T", "<strike>ambient</strike>",
+              "<sup>m</sup>", "<b>odd</b> below"):
+        assert s.replace(" ", "") in text.replace(" ", ""), s  # narrow cells may wrap anywhere
+
+
+@pytest.mark.parametrize("key, value", [
+    ("uncertainty", "not a dict"),
+    ("uncertainty", {"limits": "x"}),
+    ("uncertainty", {"limits": [{"name": "a", "probability_within_horizon": "high"}]}),
+    ("uncertainty", {"sensitivity": [{"input": "a", "low_time_s": [1]}]}),
+    ("uncertainty", {"sensitivity": [{"input": "a", "low_time_s": float("nan")}]}),
+    ("uncertainty_cdf", {"time_s": ["a"], "probability": [0.5]}),
+    ("allowable_values", 5),
+    ("allowable_values", [{"input": "a", "changes": [{"value": "high"}]}]),
+])
+def test_bad_uncertainty_values_raise(key, value):
+    case = fx.closed_form_case()
+    case["uncertainty"] = {"samples": 10}
+    case[key] = value
+    with pytest.raises(MemoInputError):
+        render_memo(case)
+
+
+def test_tornado_labels_do_not_overlap():
+    from reportlab.graphics.shapes import Polygon, String
+    from reportlab.pdfbase.pdfmetrics import stringWidth
+
+    from screening.memo_charts import ChartFonts, TornadoRow, tornado_chart
+
+    mw._register_fonts()
+    fonts = ChartFonts("HSVera", "HSVera-Bold", 7.5)
+    rows = [TornadoRow(f"heat_sources.{i}.a_long_parameter_name_that_needs_wrapping_{i}", 2.0 + i, None if i % 3 == 0
+                       else 30.0 - i, mark=" *" if i == 2 else "") for i in range(8)]
+    rows.append(TornadoRow("heat_loss.ua", None, None))
+    d = tornado_chart(480, rows, fonts, "Time to reach the limit (h)", "time with the input at its low value",
+                      "time with the input at its high value", nominal=12.0, nominal_label="case values: 12.0 h",
+                      x_max=72.0, not_reached_label="not reached within the horizon",
+                      notes=["* one end is physically impossible"])
+    boxes, triangles = [], 0
+    for item in d.contents:
+        if isinstance(item, String):
+            w = stringWidth(item.text, item.fontName, item.fontSize)
+            x = item.x - (w / 2 if item.textAnchor == "middle" else w if item.textAnchor == "end" else 0)
+            boxes.append((x, item.y, x + w, item.y + item.fontSize * 0.9, item.text))
+        elif isinstance(item, Polygon):
+            triangles += 1
+    assert triangles == 3 + 2 + 1  # one per not-reached end (two on the last row) and one in the legend
+    for i, a in enumerate(boxes):
+        assert a[0] >= 0 and a[2] <= 480 + 1e-6 and 0 <= a[1] and a[3] <= d.height, a
+        for b in boxes[i + 1:]:
+            overlap = a[0] < b[2] - 0.01 and b[0] < a[2] - 0.01 and a[1] < b[3] - 0.01 and b[1] < a[3] - 0.01
+            assert not overlap, (a, b)
+    texts = [b[4] for b in boxes]
+    assert any(t.endswith("*") for t in texts)  # footnote mark kept after shortening
+    assert "heat_loss.ua" in texts and "case values: 12.0 h" in texts
+
+
+def test_default_template_text_is_in_the_embedded_fonts():
+    """Every character of the shipped prose and labels has a glyph in all four Vera faces."""
+    covered = mw._Text().covered
+    tpl = load_templates()
+
+    def walk(node, where):
+        if isinstance(node, dict):
+            for k, v in node.items():
+                yield from walk(v, f"{where}.{k}" if where else k)
+        elif isinstance(node, list):
+            for i, v in enumerate(node):
+                yield from walk(v, f"{where}[{i}]")
+        elif isinstance(node, str):
+            yield where, node
+
+    for where, text in walk(tpl, ""):
+        missing = {ch for ch in text if ch not in "\n" and ord(ch) not in covered}
+        assert not missing, (where, missing)
