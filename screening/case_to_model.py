@@ -79,8 +79,12 @@ def _shape(spec: CaseSpec) -> VesselShape | None:
                        val(v.crown_radius), val(v.knuckle_radius))
 
 
-def prepare_case(spec: CaseSpec) -> PreparedCase:
-    """Turn a validated case into SI; raises CaseError for problems only visible here."""
+def prepare_case(spec: CaseSpec, inputs: list[dict] | None = None) -> PreparedCase:
+    """Turn a validated case into SI; raises CaseError for problems only visible here.
+
+    ``inputs`` may pass the case's inputs list when the caller already has it
+    (a register row derived from a validated representative row).
+    """
     warnings: list[str] = []
     problems: list[FieldProblem] = []
     shape = _shape(spec)
@@ -190,7 +194,8 @@ def prepare_case(spec: CaseSpec) -> PreparedCase:
         characteristic_length=char_length, conduction_geometry=cond[0] if cond else None,
         conduction_radius=cond[1] if cond else None, density=c.density.si if c.density else None,
         surface_coefficient=surface_coefficient)
-    prepared = PreparedCase(model, spec, collect_inputs(spec), _display_unit(spec), warnings, geometry,
+    prepared = PreparedCase(model, spec, inputs if inputs is not None else collect_inputs(spec), _display_unit(spec),
+                            warnings, geometry,
                             fill_fraction=fill_fraction, surface_coefficient=surface_coefficient)
     if spec.response_time is not None:
         prepared.response_time = spec.response_time.si

@@ -178,7 +178,7 @@ def check(case: str = typer.Argument(..., help="Case file (YAML, TOML or JSON)."
           rules: Optional[str] = typer.Option(None, "--rules", help="Rule set file (TOML); default: the shipped set.")):
     """Screen one case: time to each limit, peak, steady state, criteria, verdict."""
     from .report_text import format_result
-    from .screening_run import public_result
+    from .screening_run import finite_or_null, public_result
 
     def body():
         result = screen_file(case, rules)
@@ -191,7 +191,8 @@ def check(case: str = typer.Argument(..., help="Case file (YAML, TOML or JSON)."
                 raise CaseError([FieldProblem("--history", f"cannot write {history}: {exc.strerror or exc}; "
                                                            f"expected a path in an existing, writable folder")])
         if json_out:
-            typer.echo(json.dumps(public_result(result), indent=2, ensure_ascii=False, allow_nan=False))
+            typer.echo(json.dumps(finite_or_null(public_result(result)), indent=2, ensure_ascii=False,
+                                  allow_nan=False))
         else:
             typer.echo(format_result(result))
         return _exit_for([result])
@@ -271,9 +272,9 @@ class _Progress:
     def __init__(self):
         self.done = 0
 
-    def advance(self, n: int) -> None:
-        self.done += n
-        sys.stderr.write(f"\rscreened {self.done} rows")
+    def advance(self, done: int, total: int) -> None:
+        self.done = done
+        sys.stderr.write(f"\rscreened {done} of {total} rows")
         sys.stderr.flush()
 
     def close(self) -> None:
@@ -333,6 +334,23 @@ def margin(case: str = typer.Argument(..., help="Case file (YAML, TOML or JSON).
         return EXIT_OK
 
     raise typer.Exit(_guard(body))
+
+
+@app.command()
+def serve(host: str = typer.Option("127.0.0.1", "--host", help="Address to bind (127.0.0.1 keeps it on this machine)."),
+          port: int = typer.Option(8000, "--port", help="TCP port."),
+          db: Optional[str] = typer.Option(None, "--db", metavar="FILE",
+                                           help="Run record: SQLite file (default heatscreen-runs.sqlite) or a "
+                                                "SQLAlchemy URL."),
+          token: Optional[str] = typer.Option(None, "--token", envvar="HEATSCREEN_TOKEN",
+                                              help="Token every endpoint but /health wants.")):
+    """Run the HTTP API and web page (screening estimates only)."""
+    try:
+        from .service.app import serve as run_service
+    except ImportError as exc:
+        typer.echo(f"heatscreen serve needs the service extra: pip install -e '.[service]' ({exc})", err=True)
+        raise typer.Exit(EXIT_INVALID)
+    run_service(host, port, db, token)
 
 
 @app.command()

@@ -404,14 +404,30 @@ def validate_rows(ctx: RowContext, rows: list[list[str]]) -> list[tuple[CaseSpec
                 data, problems = row_mapping(ctx, cells)
                 out[i] = (*_full_validation(data, problems), data)
             else:
-                out[i] = (spec, [], None)
+                out[i] = (spec, [], None, (rep_index, updates))
         _check_limit_names_unique(out, members)
+    return out
+
+
+def _derive_inputs(rep_inputs: list[dict], updates: list) -> list[dict]:
+    """The inputs list of a row built from its representative's, with the row's own quantities."""
+    from .case_schema import Quantity
+
+    changed = {".".join(str(p) for p in path): q for path, q in updates if isinstance(q, Quantity)}
+    out = []
+    for item in rep_inputs:
+        q = changed.get(item["field"])
+        if q is None:
+            out.append(item)
+        else:
+            out.append({"field": item["field"], "text": q.text, "value_si": q.si, "unit_si": q.si_unit,
+                        "source": q.source})
     return out
 
 
 def _check_limit_names_unique(out, members):
     for i in members:
-        spec, problems, data = out[i]
+        spec, problems, data = out[i][:3]
         if spec is None:
             continue
         names = [lim.name for lim in spec.limits]
@@ -419,6 +435,7 @@ def _check_limit_names_unique(out, members):
             dupes = sorted({n for n in names if names.count(n) > 1})
             out[i] = (None, [FieldProblem("(case)", f"limit names must differ: {', '.join(dupes)} given more than once")],
                       data)
+            continue
 
 
 # ------------------------------------------------------------------ screening
@@ -534,13 +551,18 @@ def _screen_chunk(work: ChunkWork) -> ChunkResult:
     from .case_to_model import prepare_case
     from .screening_run import public_result, screen_prepared
 
+    from .case_to_model import collect_inputs
+
     ctx = RowContext(work.columns, work.base, work.register_dir, work.allow_case_file)
     validated = validate_rows(ctx, work.rows)
+    rep_inputs: dict[int, list[dict]] = {}
     rule_set = rules_mod.load_rule_set(work.rules_path)
     outcomes: list[RowOutcome] = []
     closed, closed_idx = [], []
     prepared_all: list = [None] * len(work.rows)
-    for i, (spec, problems, data) in enumerate(validated):
+    for i, item in enumerate(validated):
+        spec, problems, data = item[:3]
+        hint = item[3] if len(item) > 3 else None
         row_no = work.row_numbers[i]
         cells = work.rows[i]
         rid = spec.id if spec is not None else _row_id(work, cells, data)
@@ -555,7 +577,13 @@ def _screen_chunk(work: ChunkWork) -> ChunkResult:
             outcome.problems.append(FieldProblem("(row)", "values in columns without a header; the row is not screened"))
         if spec is not None and not outcome.problems:
             try:
-                prep = prepare_case(spec)
+                inputs = None
+                if hint is not None:
+                    rep_index, updates = hint
+                    if rep_index not in rep_inputs:
+                        rep_inputs[rep_index] = collect_inputs(validated[rep_index][0])
+                    inputs = _derive_inputs(rep_inputs[rep_index], updates)
+                prep = prepare_case(spec, inputs=inputs)
                 prepared_all[i] = (prep, _row_hash(work, cells))
                 if not prep.model.arrhenius_sources:
                     closed.append(prep)
@@ -729,18 +757,23 @@ def _run_into(register: Register, base: dict, tmp: Path, out: Path, rules_path, 
                          base_digest)
 
     outcomes: list[RowOutcome] = []
+    if workers > 1 and len(spans) > 1:
+        import multiprocessing
+
+        if multiprocessing.current_process().daemon:
+            workers = 1  # a daemonic worker (e.g. the service's) cannot start processes of its own
     if workers <= 1 or len(spans) == 1:
         for a, b in spans:
             outcomes.extend(screen_chunk(work(a, b)).outcomes)
             if progress:
-                progress(b - a)
+                progress(b, n)
     else:
         with ProcessPoolExecutor(max_workers=workers) as pool:
             futures = [pool.submit(screen_chunk, work(a, b)) for a, b in spans]
             for (a, b), fut in zip(spans, futures):
                 outcomes.extend(fut.result().outcomes)
                 if progress:
-                    progress(b - a)
+                    progress(b, n)
     results = [o.result for o in outcomes if o.result is not None]
     errors = [{"row": 1, "id": None, "field": p.field, "message": p.message} for p in register.header_problems]
     errors += [{"row": o.row, "id": o.id, "field": p.field, "message": p.message}

@@ -118,14 +118,13 @@ def screen_closed_form(prepared: PreparedCase, values: ClosedFormValues | None =
     unit = prepared.display_temperature_unit
     warnings: list[str] = []
     H = model.horizon
-    balance = balance_of(model)
+    needs_balance = values is None or with_history or model.boiling is not None or prepared.recovery is not None
+    balance = balance_of(model) if needs_balance else None
     if values is None:
         values = closed_form_values(prepared)
-    G = float(balance.conductance)
+    G, steady = _conductance_and_steady(model)
     C = model.heat_capacity
-    tau = C / G if G > 0 else None
-    steady = steady_temperature(balance)
-    steady = None if (steady is None or not np.isfinite(steady)) else float(steady)
+    tau = C / G if G > 0 and math.isfinite(C / G) else None
     T0 = model.initial_temperature
 
     boiling_result = None
@@ -190,6 +189,24 @@ def screen_closed_form(prepared: PreparedCase, values: ClosedFormValues | None =
         result["_history"] = closed_form_history_arrays(model, balance, H, shape, limit_rows,
                                                         t_boil if boil_credit else None)
     return result
+
+
+def _conductance_and_steady(model: ScreeningModel) -> tuple[float, float | None]:
+    """G = UA + sum of media ua (W/K) and the settling temperature (K, or None), in plain floats.
+
+    Same formulas as :func:`screening.closed_form_history.steady_temperature`: Q0 / G with heat loss;
+    T0 + sum P_i a_i / C when adiabatic with no constant drive; None otherwise.
+    """
+    G = model.ua + sum(h.ua for h in model.heating_media)
+    Q0 = (model.ua * model.ambient_temperature + sum(h.ua * h.medium_temperature for h in model.heating_media)
+          + sum(s.power for s in model.constant_sources) + sum(f.power for f in model.fire_sources))
+    if G > 0:
+        steady = Q0 / G
+        return G, steady if math.isfinite(steady) else None
+    if Q0 == 0:
+        return G, model.initial_temperature + sum(s.power * s.time_constant for s in model.decaying_sources) / \
+            model.heat_capacity
+    return G, None
 
 
 def closed_form_history_arrays(model, balance, H, shape, limit_rows, t_boil=None) -> dict:
@@ -415,6 +432,17 @@ def screen_prepared(prepared: PreparedCase, input_hash: str | None = None,
 def public_result(result: dict) -> dict:
     """The JSON object: without the plotting arrays."""
     return {k: v for k, v in result.items() if not k.startswith("_")}
+
+
+def finite_or_null(obj):
+    """A copy with every non-finite float replaced by None (JSON has no inf or NaN)."""
+    if isinstance(obj, float):
+        return obj if math.isfinite(obj) else None
+    if isinstance(obj, dict):
+        return {k: finite_or_null(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [finite_or_null(v) for v in obj]
+    return obj
 
 
 def memo_view(result: dict) -> dict:
