@@ -71,7 +71,7 @@ def history_shape(balance: LinearBalance, horizon: float) -> HistoryShape:
         for k0, k1 in zip(nz[:-1], nz[1:]):
             if sign[k0] != sign[k1]:
                 a, b = grid[k0], grid[k1]
-                tol = max(1e-14 * b, 1e-300)
+                tol = 1e-300  # relative precision only (rtol), so early crossings keep full accuracy
                 tp = _brent(lambda t: float(temperature_rate(balance, t)), a, b,
                             float(rates[k0]), float(rates[k1]), tol)
                 if 0.0 < tp < horizon:
@@ -100,7 +100,7 @@ def first_crossing(balance: LinearBalance, limit_temperature: float, horizon: fl
     temps = temperature(balance, np.array(knots))
     for a, b, ta, tb in zip(knots[:-1], knots[1:], temps[:-1], temps[1:]):
         if max(ta, tb) >= limit_temperature:
-            tol = max(1e-14 * b, 1e-300)
+            tol = 1e-300  # relative precision only (rtol), so early crossings keep full accuracy
             return _brent(lambda t: float(temperature(balance, t)) - limit_temperature, a, b,
                           float(ta - limit_temperature), float(tb - limit_temperature), tol)
     return None  # pragma: no cover - guarded by the peak test above
