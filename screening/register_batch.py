@@ -64,8 +64,9 @@ QUANTITY_NAMES = _quantity_field_names()
 class RowOutcome:
     row: int
     id: str | None
-    result: dict | None = None  # slim: what results.csv and the summary need
+    result: dict | None = None  # slim: what the summary PDF needs
     json: bytes | None = None  # the full result object, serialised
+    csv: tuple | None = None  # formatted results.csv cells
     problems: list[FieldProblem] = field(default_factory=list)
 
 
@@ -526,11 +527,13 @@ class ChunkWork:
     memos_dir: str | None
     templates_dir: str | None
     base_digest: str = ""
+    json_part: str | None = None  # file to write this chunk's results.json items to
 
 
 @dataclass
 class ChunkResult:
     outcomes: list[RowOutcome]
+    json_part: str | None = None
 
 
 def screen_chunk(work: ChunkWork) -> ChunkResult:
@@ -617,7 +620,14 @@ def _screen_chunk(work: ChunkWork) -> ChunkResult:
             outcome.problems.append(FieldProblem("(row)", f"internal error: result not serialisable: {exc}"))
             continue
         outcome.result = _slim(public)
-    return ChunkResult(outcomes)
+        outcome.csv = csv_parts(public)
+    if work.json_part is not None:  # hand back a file, not the bytes: cheaper than pickling them
+        with open(work.json_part, "wb") as fh:
+            fh.write(b",\n".join(o.json for o in outcomes if o.json is not None))
+        for o in outcomes:
+            if o.json is not None:
+                o.json = b""  # written
+    return ChunkResult(outcomes, work.json_part)
 
 
 def _safe_name(text: str) -> str:
@@ -646,30 +656,38 @@ def _kelvin(v):
     return "" if v is None else f"{v:.6g}"
 
 
+CSV_HEAD = ["id", "row", "verdict", "first_limit", "time_to_first_limit_h", "smallest_margin_h"]
+CSV_TAIL = ["peak_temperature_K", "peak_time_h", "steady_temperature_K", "time_constant_h", "tmr_adiabatic_h",
+            "critical_ambient_temperature_K", "ambient_temperature_K", "t_d24_K", "mtsr_K", "criticality_class",
+            "probability_before_response", "p05_time_to_first_limit_h", "warnings", "reasons"]
+
+
+def csv_parts(r: dict) -> tuple[list, dict, list]:
+    """The formatted cells of one results.csv row: (leading cells, time per limit name, trailing cells)."""
+    reached = [l for l in r["limits"] if l["time_s"] is not None]
+    first = min(reached, key=lambda l: l["time_s"]) if reached else None
+    margins = [l["margin_s"] for l in r["limits"] if l.get("margin_s") is not None]
+    head = [r["id"], r.get("register_row", ""), r.get("verdict", ""), first["name"] if first else "",
+            _hours(first["time_s"]) if first else "", _hours(min(margins)) if margins else ""]
+    limits = {l["name"]: _hours(l["time_s"]) for l in r["limits"]}
+    tail = [_kelvin(r.get("peak_temperature_K")), _hours(r.get("peak_time_s")), _kelvin(r.get("steady_temperature_K")),
+            _hours(r.get("time_constant_s")), _hours(r.get("tmr_adiabatic_s")),
+            _kelvin(r.get("critical_ambient_temperature_K")), _kelvin(r.get("ambient_temperature_K")),
+            _kelvin(r.get("t_d24_K")), _kelvin(r.get("mtsr_K")), r.get("criticality_class") or "",
+            *_uncertainty_columns(r.get("uncertainty")),
+            len(r.get("warnings") or []), " | ".join(r.get("reasons") or [])]
+    return head, limits, tail
+
+
 def results_csv(results: list[dict], limit_names: list[str]) -> str:
+    return results_csv_from_parts([csv_parts(r) for r in results], limit_names)
+
+
+def results_csv_from_parts(parts: list, limit_names: list[str]) -> str:
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\n")
-    head = ["id", "row", "verdict", "first_limit", "time_to_first_limit_h", "smallest_margin_h"]
-    head += [f"time_to_limit_h: {n}" for n in limit_names]
-    head += ["peak_temperature_K", "peak_time_h", "steady_temperature_K", "time_constant_h", "tmr_adiabatic_h",
-             "critical_ambient_temperature_K", "ambient_temperature_K", "t_d24_K", "mtsr_K", "criticality_class",
-             "probability_before_response", "p05_time_to_first_limit_h", "warnings", "reasons"]
-    w.writerow(head)
-    for r in results:
-        reached = [l for l in r["limits"] if l["time_s"] is not None]
-        first = min(reached, key=lambda l: l["time_s"]) if reached else None
-        margins = [l["margin_s"] for l in r["limits"] if l.get("margin_s") is not None]
-        by_name = {l["name"]: l["time_s"] for l in r["limits"]}
-        row = [r["id"], r.get("register_row", ""), r.get("verdict", ""), first["name"] if first else "",
-               _hours(first["time_s"]) if first else "", _hours(min(margins)) if margins else ""]
-        row += [_hours(by_name.get(n)) if n in by_name else "" for n in limit_names]
-        row += [_kelvin(r.get("peak_temperature_K")), _hours(r.get("peak_time_s")), _kelvin(r.get("steady_temperature_K")),
-                _hours(r.get("time_constant_s")), _hours(r.get("tmr_adiabatic_s")),
-                _kelvin(r.get("critical_ambient_temperature_K")), _kelvin(r.get("ambient_temperature_K")),
-                _kelvin(r.get("t_d24_K")), _kelvin(r.get("mtsr_K")), r.get("criticality_class") or "",
-                *_uncertainty_columns(r.get("uncertainty")),
-                len(r.get("warnings") or []), " | ".join(r.get("reasons") or [])]
-        w.writerow(row)
+    w.writerow(CSV_HEAD + [f"time_to_limit_h: {n}" for n in limit_names] + CSV_TAIL)
+    w.writerows(head + [limits.get(n, "") for n in limit_names] + tail for head, limits, tail in parts)
     return buf.getvalue()
 
 
@@ -737,6 +755,20 @@ def _chunks(n: int, workers: int) -> list[tuple[int, int]]:
 
 def _run_into(register: Register, base: dict, tmp: Path, out: Path, rules_path, memos, allow_case_file, progress,
               templates_dir, workers) -> BatchSummary:
+    import gc
+
+    enabled = gc.isenabled()
+    gc.disable()  # hundreds of thousands of small objects: the cyclic collector only costs time here
+    try:
+        return _run_into_body(register, base, tmp, out, rules_path, memos, allow_case_file, progress,
+                              templates_dir, workers)
+    finally:
+        if enabled:
+            gc.enable()
+
+
+def _run_into_body(register: Register, base: dict, tmp: Path, out: Path, rules_path, memos, allow_case_file,
+                   progress, templates_dir, workers) -> BatchSummary:
     id_col = next((c.index for c in register.columns if c.path == ("id",)), None)
     memos_dir = None
     if memos:
@@ -750,13 +782,17 @@ def _run_into(register: Register, base: dict, tmp: Path, out: Path, rules_path, 
 
     base_digest = hashlib.sha256(json.dumps(base, sort_keys=True, default=str).encode("utf-8")).hexdigest()
 
+    parts_dir = tmp / ".parts"
+    parts_dir.mkdir()
+
     def work(a, b):
         return ChunkWork(register.columns, base, str(register.path.parent), allow_case_file, rules_path,
                          register.rows[a:b], register.row_numbers[a:b], id_col, register.bad_columns,
                          str(memos_dir) if memos_dir else None, str(templates_dir) if templates_dir else None,
-                         base_digest)
+                         base_digest, str(parts_dir / f"part-{a:09d}.json"))
 
     outcomes: list[RowOutcome] = []
+    parts: list[str] = []
     if workers > 1 and len(spans) > 1:
         import multiprocessing
 
@@ -764,14 +800,18 @@ def _run_into(register: Register, base: dict, tmp: Path, out: Path, rules_path, 
             workers = 1  # a daemonic worker (e.g. the service's) cannot start processes of its own
     if workers <= 1 or len(spans) == 1:
         for a, b in spans:
-            outcomes.extend(screen_chunk(work(a, b)).outcomes)
+            chunk = screen_chunk(work(a, b))
+            outcomes.extend(chunk.outcomes)
+            parts.append(chunk.json_part)
             if progress:
                 progress(b, n)
     else:
         with ProcessPoolExecutor(max_workers=workers) as pool:
             futures = [pool.submit(screen_chunk, work(a, b)) for a, b in spans]
             for (a, b), fut in zip(spans, futures):
-                outcomes.extend(fut.result().outcomes)
+                chunk = fut.result()
+                outcomes.extend(chunk.outcomes)
+                parts.append(chunk.json_part)
                 if progress:
                     progress(b, n)
     results = [o.result for o in outcomes if o.result is not None]
@@ -779,22 +819,29 @@ def _run_into(register: Register, base: dict, tmp: Path, out: Path, rules_path, 
     errors += [{"row": o.row, "id": o.id, "field": p.field, "message": p.message}
                for o in outcomes for p in o.problems]
     limit_names: list[str] = []
-    for r in results:
-        for lim in r["limits"]:
-            if lim["name"] not in limit_names:
-                limit_names.append(lim["name"])
+    seen_names: set = set()
+    for o in outcomes:
+        if o.csv is not None:
+            for name in o.csv[1]:
+                if name not in seen_names:
+                    seen_names.add(name)
+                    limit_names.append(name)
     with open(tmp / "results.json", "wb") as fh:
         fh.write(b"[")
         first = True
-        for o in outcomes:
-            if o.json is None:
+        for part in parts:
+            with open(part, "rb") as src:
+                data = src.read()
+            if not data:
                 continue
             if not first:
                 fh.write(b",\n")
-            fh.write(o.json)
+            fh.write(data)
             first = False
         fh.write(b"]\n")
-    (tmp / "results.csv").write_text(results_csv(results, limit_names), encoding="utf-8", newline="")
+    shutil.rmtree(parts_dir, ignore_errors=True)
+    (tmp / "results.csv").write_text(results_csv_from_parts([o.csv for o in outcomes if o.csv is not None],
+                                                            limit_names), encoding="utf-8", newline="")
     (tmp / "errors.csv").write_text(errors_csv(errors), encoding="utf-8", newline="")
     from .memo_writer import write_register_summary
 
