@@ -66,6 +66,11 @@ def collect_inputs(obj, prefix: str = "", out: list | None = None) -> list[dict]
 def _display_unit(spec: CaseSpec) -> str:
     texts = [spec.contents.initial_temperature.text, spec.heat_loss.ambient_temperature.text]
     texts += [lim.temperature.text for lim in spec.limits]
+    return _display_unit_from_texts(texts)
+
+
+def _display_unit_from_texts(texts) -> str:
+    """The temperature unit most used among the initial, ambient and limit temperatures."""
     units = [u for u in (temperature_unit_of(t) for t in texts) if u]
     return Counter(units).most_common(1)[0][0] if units else "K"
 

@@ -335,8 +335,12 @@ def _full_validation(data: dict, base_problems: list[FieldProblem]):
         return None, exc.problems
 
 
-def validate_rows(ctx: RowContext, rows: list[list[str]]) -> list[tuple[CaseSpec | None, list[FieldProblem], dict | None]]:
-    """Validate every row; returns (spec or None, problems, mapping) per row, in order."""
+def validate_rows(ctx: RowContext, rows: list[list[str]], build_specs: bool = True) -> list[tuple]:
+    """Validate every row; returns (spec or None, problems, mapping[, (representative index, updates)]) per row.
+
+    With ``build_specs=False`` a row validated through its representative gets spec None and the
+    caller builds it (or not) from the representative and the updates.
+    """
     roles = [_column_role(c) for c in ctx.columns]
     groups: dict[tuple, list[int]] = {}
     for i, cells in enumerate(rows):
@@ -400,7 +404,7 @@ def validate_rows(ctx: RowContext, rows: list[list[str]]) -> list[tuple[CaseSpec
                         break
                 updates.append((col.path, value))
             if ok:
-                spec = _apply_updates(rep_spec, updates)
+                spec = _apply_updates(rep_spec, updates) if build_specs else None
             if not ok:
                 data, problems = row_mapping(ctx, cells)
                 out[i] = (*_full_validation(data, problems), data)
@@ -430,7 +434,7 @@ def _check_limit_names_unique(out, members):
     for i in members:
         spec, problems, data = out[i][:3]
         if spec is None:
-            continue
+            continue  # rows built from a representative share its (checked) limit names
         names = [lim.name for lim in spec.limits]
         if len(set(names)) != len(names):
             dupes = sorted({n for n in names if names.count(n) > 1})
@@ -557,8 +561,9 @@ def _screen_chunk(work: ChunkWork) -> ChunkResult:
     from .case_to_model import collect_inputs
 
     ctx = RowContext(work.columns, work.base, work.register_dir, work.allow_case_file)
-    validated = validate_rows(ctx, work.rows)
+    validated = validate_rows(ctx, work.rows, build_specs=False)
     rep_inputs: dict[int, list[dict]] = {}
+    rep_prepared: dict[int, object] = {}
     rule_set = rules_mod.load_rule_set(work.rules_path)
     outcomes: list[RowOutcome] = []
     closed, closed_idx = [], []
@@ -568,6 +573,20 @@ def _screen_chunk(work: ChunkWork) -> ChunkResult:
         hint = item[3] if len(item) > 3 else None
         row_no = work.row_numbers[i]
         cells = work.rows[i]
+        direct = None
+        if hint is not None:
+            rep_index, updates = hint
+            if rep_index not in rep_prepared:
+                try:
+                    rep_prepared[rep_index] = prepare_case(validated[rep_index][0])
+                except CaseError:
+                    rep_prepared[rep_index] = None
+            if rep_prepared[rep_index] is not None:
+                direct = direct_prepared(rep_prepared[rep_index], updates)
+            if direct is None:
+                spec = _apply_updates(validated[rep_index][0], updates)
+            else:
+                spec = direct.spec
         rid = spec.id if spec is not None else _row_id(work, cells, data)
         outcome = RowOutcome(row_no, rid)
         outcome.problems = list(problems)
@@ -578,7 +597,12 @@ def _screen_chunk(work: ChunkWork) -> ChunkResult:
         width = max([c.index for c in work.columns] + list(work.bad_columns) + [-1]) + 1
         if len(cells) > width and any(c.strip() for c in cells[width:]):
             outcome.problems.append(FieldProblem("(row)", "values in columns without a header; the row is not screened"))
-        if spec is not None and not outcome.problems:
+        if direct is not None and not outcome.problems:
+            prepared_all[i] = (direct, _row_hash(work, cells))
+            if not direct.model.arrhenius_sources:
+                closed.append(direct)
+                closed_idx.append(i)
+        elif spec is not None and not outcome.problems:
             try:
                 inputs = None
                 if hint is not None:
@@ -853,3 +877,128 @@ def _run_into_body(register: Register, base: dict, tmp: Path, out: Path, rules_p
     code = 2 if (invalid or register.header_problems) else (1 if counts["review"] or counts["fail"] else 0)
     return BatchSummary(rows=n, valid=len(results), invalid=invalid, verdict_counts=counts, exit_code=code,
                         out_dir=str(out))
+
+
+# ------------------------------------------------------------------ direct path for simple registers
+#
+# Rows of a group whose representative has no vessel geometry, loses heat through a given UA and has
+# no fire source only change SI numbers of the model; for the quantity paths below the model can be
+# updated directly instead of building and preparing a new case.  Any other path takes the general route.
+
+
+def _direct_updater(rep, path: tuple):
+    """A function (fields dict, Quantity) -> None for one quantity path, or None if not direct."""
+    spec = rep.spec
+    if spec.vessel is not None or spec.heat_loss.ua is None or rep.model.fire_sources \
+            or rep.uncertainty_plan is not None:
+        return None
+    if path == ("contents", "mass"):
+        return lambda f, q: f.__setitem__("contents_mass", q.si)
+    if path == ("contents", "specific_heat"):
+        return lambda f, q: f.__setitem__("contents_specific_heat", q.si)
+    if path == ("contents", "initial_temperature"):
+        return lambda f, q: f.__setitem__("initial_temperature", q.si)
+    if path == ("heat_loss", "ambient_temperature"):
+        return lambda f, q: f.__setitem__("ambient_temperature", q.si)
+    if path == ("heat_loss", "ua"):
+        return lambda f, q: f.__setitem__("ua", q.si)
+    if path == ("horizon",):
+        return lambda f, q: f.__setitem__("horizon", q.si)
+    from .model import ConstantSource, DecayingSource, Limit
+
+    if len(path) == 3 and path[0] == "limits" and path[2] == "temperature":
+        j = path[1]
+
+        def set_limit(f, q):
+            f["limits"][j] = Limit(f["limits"][j].name, q.si)
+
+        return set_limit
+    if len(path) == 3 and path[0] == "heat_sources":
+        from .case_schema import ConstantSpec, DecayingSpec
+
+        src = spec.heat_sources[path[1]]
+        same_kind = [i for i, s in enumerate(spec.heat_sources) if type(s) is type(src)]
+        j = same_kind.index(path[1])
+        if isinstance(src, ConstantSpec) and path[2] == "power":
+            return lambda f, q: f["constant_sources"].__setitem__(j, ConstantSource(q.si))
+        if isinstance(src, DecayingSpec) and path[2] in ("power", "time_constant", "half_life"):
+            name = path[2]
+
+            def set_decaying(f, q):
+                old = f["decaying_sources"][j]
+                if name == "power":
+                    f["decaying_sources"][j] = DecayingSource(q.si, old.time_constant)
+                else:
+                    a = q.si if name == "time_constant" else q.si / math.log(2.0)
+                    f["decaying_sources"][j] = DecayingSource(old.power, a)
+
+            return set_decaying
+    return None
+
+
+_UNIT_CACHE: dict = {}
+
+
+def replace_dc(obj, **changes):
+    from dataclasses import replace
+
+    return replace(obj, **changes)
+
+
+def direct_prepared(rep, updates: list):
+    """The PreparedCase of a row from its representative's, or None when a path is not direct."""
+    from dataclasses import replace
+
+    from .case_to_model import _display_unit_from_texts
+
+    fields = None
+    text_updates = {}
+    for path, value in updates:
+        if isinstance(value, str):  # free text: id, title, limit names ...
+            text_updates[path] = value
+            continue
+        if path == ("response_time",):
+            continue  # set on the prepared case below
+        cache = rep.__dict__.setdefault("_direct_updaters", {})  # per representative, lives with it
+        fn = cache.get(path, cache)
+        if fn is cache:
+            fn = cache[path] = _direct_updater(rep, path)
+        if fn is None:
+            return None
+        if fields is None:
+            m = rep.model
+            fields = {"contents_mass": m.contents_mass, "contents_specific_heat": m.contents_specific_heat,
+                      "initial_temperature": m.initial_temperature, "ambient_temperature": m.ambient_temperature,
+                      "ua": m.ua, "horizon": m.horizon, "limits": list(m.limits),
+                      "constant_sources": list(m.constant_sources), "decaying_sources": list(m.decaying_sources)}
+        fn(fields, value)
+    for path in text_updates:
+        if path not in (("id",), ("title",)):
+            return None
+    spec = rep.spec
+    if text_updates:
+        spec = spec.model_copy(update={p[0]: v for p, v in text_updates.items()})
+    if fields is None:
+        model = rep.model
+    else:
+        fields["limits"] = tuple(fields["limits"])
+        fields["constant_sources"] = tuple(fields["constant_sources"])
+        fields["decaying_sources"] = tuple(fields["decaying_sources"])
+        model = replace(rep.model, **fields)
+    inputs = _derive_inputs(rep.inputs, updates)
+    texts = tuple(i["text"].split(None, 1)[-1] for i in inputs
+                  if i["unit_si"] == "K" and _is_absolute_temperature(i["field"]))
+    unit = _UNIT_CACHE.get(texts)
+    if unit is None:
+        unit = _UNIT_CACHE[texts] = _display_unit_from_texts(["0 " + t for t in texts])
+    out = replace(rep, model=model, spec=spec, inputs=inputs, warnings=list(rep.warnings),
+                  display_temperature_unit=unit)
+    for path, value in updates:
+        if path == ("response_time",):
+            out.response_time = value.si
+    return out
+
+
+def _is_absolute_temperature(field: str) -> bool:
+    return field in ("contents.initial_temperature", "heat_loss.ambient_temperature") or \
+        (field.startswith("limits.") and field.endswith(".temperature"))
