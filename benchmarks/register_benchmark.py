@@ -52,7 +52,7 @@ UNCERTAINTY = """uncertainty:
   samples: 10000
   seed: 1
   inputs:
-    heat_loss.ua: {distribution: uniform, low: 50 %, high: 150 %}
+    heat_loss.ua: {distribution: uniform, half_width: 50 %}
     heat_sources.1.power: {distribution: normal, sd: 15 %}
     contents.initial_temperature: {distribution: normal, sd: 2 K}
 """

@@ -382,11 +382,11 @@ def test_creeping_near_semenov_criticality_matches_quadrature(eps, hours):
 
 
 @pytest.mark.parametrize("kind, N, seed, J, kd, km, horizon", [
-    ("fast", 8, 21, 1, 0, 0, 500 * HOUR),  # runaway in seconds
-    ("critical", 8, 22, 1, 0, 0, 500 * HOUR),  # creeping near criticality
+    ("fast", 10, 21, 1, 0, 0, 500 * HOUR),  # runaway in seconds
+    ("critical", 12, 22, 1, 0, 0, 500 * HOUR),  # creeping near criticality
     ("stable", 6, 23, 1, 0, 0, 500 * HOUR),  # never running away
-    ("mixed", 8, 24, 1, 1, 1, 500 * HOUR),  # with a decaying source and a heating medium
-    ("mixed", 6, 25, 2, 2, 1, 200 * HOUR),  # two reactions, two decaying sources
+    ("mixed", 12, 24, 1, 1, 1, 500 * HOUR),  # with a decaying source and a heating medium
+    ("mixed", 8, 25, 2, 2, 1, 200 * HOUR),  # two reactions, two decaying sources
     ("fast", 4, 26, 2, 1, 0, 100 * HOUR),
 ])
 def test_random_cases_match_solve_ivp(kind, N, seed, J, kd, km, horizon):
@@ -407,11 +407,13 @@ def test_looser_tolerance_still_within_requirement_on_mixed_cases():
 def test_start_at_or_above_limits_and_stop():
     p = ArrheniusSamples([1e6, 1e6, 1e6], 500.0, 10.0, 300.0, [350.0, 600.0, 2500.0], specific_power=[[1e-3]],
                          reference_temperature=[[350.0]], activation_energy=[[80e3]])
-    res = screen(p, [340.0, 350.0, 650.0], HOUR)
+    res = screen(p, [340.0, 350.0, 650.0], HOUR, stop_temperature=2000.0)
     assert res.times[0, 0] == 0.0 and res.times[0, 1] == 0.0  # T0 at or above the limit: reached at t = 0
     assert res.times[1, 0] == 0.0 and res.times[1, 1] == 0.0
     assert res.times[2].tolist() == [0.0, 0.0, 0.0] and res.status[2] == STATUS_STOP  # T0 above the stop
-    assert res.peak_temperature[2] == 2500.0 and res.peak_time[2] == 0.0
+    assert res.peak_temperature[2] == 2500.0 and res.peak_time[2] == 0.0 and res.steps[2] == 0
+    # by default the stop is at least 100 K above the start (as in the single-case engine)
+    assert screen(p, [340.0, 350.0, 650.0], HOUR).peak_temperature[2] == 2600.0
     assert res.status[1] == STATUS_STOP  # 600 K with E = 80 kJ/mol and no cooling runs away
     assert 0 < res.times[1, 2] < HOUR
 
@@ -545,16 +547,44 @@ def test_models_are_stacked_and_boiling_credit_is_rejected():
         samples_from_models([model(), model(limits=(Limit("A", 360.0),))])
 
 
+def test_same_answers_as_the_single_case_engine():
+    # screening.numeric_history.integrate_history (Radau in stretched time, refined events) is the
+    # project's engine for one vessel; both must agree within the accuracy asked of each
+    from screening.numeric_history import integrate_history
+
+    models = [
+        model(arrhenius_sources=(ArrheniusSource(2e-3, 340.0, 100e3, order=1.0, specific_heat_of_reaction=3e5),)),
+        model(ua=0.0, arrhenius_sources=(ArrheniusSource(5e-3, 340.0, 120e3),),
+              limits=(Limit("A", 360.0), Limit("B", 700.0))),  # unbounded runaway to the ceiling
+        model(ua=200.0, initial_temperature=330.0, decaying_sources=(DecayingSource(4e4, 1800.0),),
+              heating_media=(HeatingMedium(335.0, 50.0),),
+              arrhenius_sources=(ArrheniusSource(1e-3, 340.0, 90e3, order=0.5, specific_heat_of_reaction=4e5,
+                                                 accumulated_fraction=0.7),
+                                 ArrheniusSource(1e-4, 350.0, 140e3, order=2.0, specific_heat_of_reaction=2e5))),
+    ]
+    params, lims, hor = samples_from_models(models)
+    res = screen(params, lims, hor)
+    for i, md in enumerate(models):
+        h = integrate_history(md)
+        for l, lim in enumerate(h.limits):
+            if lim.time is None:
+                assert np.isnan(res.times[i, l])
+            else:
+                assert res.times[i, l] == pytest.approx(lim.time, rel=REL)
+        assert res.peak_is_stop[i] == h.peak_is_ceiling
+        assert res.peak_temperature[i] == pytest.approx(h.peak_temperature, rel=1e-7)
+
+
 # --------------------------------------------------------------------------- robustness
 
 
-@settings(max_examples=25, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
+@settings(max_examples=12, deadline=None, derandomize=True, suppress_health_check=[HealthCheck.too_slow])
 @given(seed=st.integers(0, 2 ** 31 - 1), lo_E=st.floats(0.0, 3e5), log_q=st.floats(-8.0, 6.0),
        dT0=st.floats(-100.0, 400.0), log_ua=st.floats(-3.0, 6.0), log_h=st.floats(0.0, 9.0))
 def test_no_floating_point_warnings_and_consistent_results(seed, lo_E, log_q, dT0, log_ua, log_h):
     # wide random inputs: every numpy overflow / divide / invalid is raised; results must be consistent
     rng = np.random.default_rng(seed)
-    N, J = 12, 2
+    N, J = 10, 2
     T0 = np.clip(300.0 + dT0 + rng.uniform(-20, 20, N), 150.0, 1500.0)
     p = ArrheniusSamples(
         heat_capacity=10 ** rng.uniform(3, 9, N), contents_mass=10 ** rng.uniform(0, 5, N),
