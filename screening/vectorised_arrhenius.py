@@ -89,8 +89,10 @@ decaying sources, heating media, two reactions) and with
 ``scipy.integrate.quad`` where the time is an integral over temperature or
 conversion; ``benchmarks/arrhenius_benchmark.py`` prints throughput, a sampled
 accuracy check and peak memory.  With the default rtol = 1e-9 the largest
-relative error of a time measured so far is about 6e-8; times near a grazing
-crossing (the peak just at a limit) or at the horizon are ill-conditioned.
+relative error of a time measured on 900 random cases was 7.6e-8 (near
+criticality; 1.6e-8 on typical cases), of a peak temperature 1.4e-7; times
+near a grazing crossing (the peak just at a limit) or at the horizon are
+ill-conditioned, and so is the time of a flat maximum.
 
 References
 ----------
@@ -573,7 +575,7 @@ def _flux(P: _Coef, Z, jac=False):
     net = P.p0 - P.g * Te  # W, all but the Arrhenius sources
     dnet_dt = None
     if P.pd.shape[0]:
-        e = P.pd * np.exp(np.minimum(np.maximum(Z[-1] * P.nia, -700.0), 700.0))
+        e = P.pd * np.exp(np.minimum(np.maximum(Z[-1] * P.nia, -700.0), 0.0))  # t < 0 only in a stage
         net += e.sum(axis=0)
         if jac:
             dnet_dt = (e * P.nia).sum(axis=0)
@@ -596,13 +598,15 @@ def _flux(P: _Coef, Z, jac=False):
                 kl = np.where(P.umode & (V <= 0.0), 0.0, k)
             else:
                 kl = k
+            # states lie in [0, 1]; a stage of a step about to be rejected may not, and is held
+            # within [0, 4] so that no power overflows
             if P.pw_zero:
                 qs = kl
             elif P.pw_one:
-                base = np.maximum(V, 0.0)
+                base = np.minimum(np.maximum(V, 0.0), 4.0)
                 qs = kl * base
             else:
-                base = np.maximum(V, 0.0)
+                base = np.minimum(np.maximum(V, 0.0), 4.0)
                 qs = kl * np.power(base, P.pw)
             rate = -(P.cu * kl + P.cw * qs)
             F[1:1 + K] = rate if P.all_tracked else rate[P.cols]
@@ -1253,8 +1257,9 @@ def first_crossing_times_arrhenius(params: ArrheniusSamples, limits, horizon, *,
         runaway above it; the peak is then only known to exceed it.
     rtol : float, default 1e-9
         Relative tolerance of the local error per step, within [1e-14, 1e-3].
-        The accuracy of the times it gives is measured, not implied: about
-        6e-8 relative at worst with the default on the tests' random cases.
+        The accuracy of the times it gives is measured, not implied: below
+        1e-7 relative with the default on 900 random cases (see the module
+        notes).
     chunk_size : int, default 8192
         Samples integrated together in one working set.
     workers : int, optional
