@@ -102,6 +102,30 @@ def linear_balance(heat_capacity, ua, ambient_temperature, initial_temperature, 
                          np.asarray(initial_temperature, dtype=float), p, b)
 
 
+def _broadcast(balance: LinearBalance, t: np.ndarray):
+    """Vessel coefficients reshaped against t, and each decaying source as (P_i, b_i) reshaped likewise.
+
+    Returns (lam, C, T0, Q0, G, sources), every array broadcastable with ``t``: the vessel axes
+    of the balance come first, any further axes of ``t`` are time axes.
+    """
+    C = np.asarray(balance.heat_capacity, dtype=float)
+    G = np.asarray(balance.conductance, dtype=float)
+    lam = G / C
+    T0 = np.asarray(balance.initial_temperature, dtype=float)
+    Q0 = np.asarray(balance.drive, dtype=float)
+    shape = lam.shape + (1,) * (t.ndim - lam.ndim)  # trailing time axes beyond the vessel axes
+    lam_, C_, T0_, Q0_, G_ = (np.reshape(v, shape) for v in np.broadcast_arrays(lam, C, T0, Q0, G))
+    sources = []
+    P = np.asarray(balance.decaying_power, dtype=float)
+    if P.size:
+        b = np.asarray(balance.decay_rate, dtype=float)
+        n_src = P.shape[-1]
+        Pb = np.broadcast_to(P, lam.shape + (n_src,))
+        bb = np.broadcast_to(b, lam.shape + (n_src,))
+        sources = [(np.reshape(Pb[..., i], shape), np.reshape(bb[..., i], shape)) for i in range(n_src)]
+    return lam_, C_, T0_, Q0_, G_, sources
+
+
 def temperature(balance: LinearBalance, t):
     r"""Temperature T(t) of the contents, K.
 
@@ -122,24 +146,10 @@ def temperature(balance: LinearBalance, t):
     See the module docstring for the closed form.
     """
     t = np.asarray(t, dtype=float)
-    C = np.asarray(balance.heat_capacity, dtype=float)
-    lam = np.asarray(balance.conductance, dtype=float) / C
-    T0 = np.asarray(balance.initial_temperature, dtype=float)
-    Q0 = np.asarray(balance.drive, dtype=float)
-    extra = t.ndim - lam.ndim  # trailing time axes beyond the vessel axes
-    shape = lam.shape + (1,) * extra
-    lam_, C_, T0_, Q0_ = (np.reshape(v, shape) for v in np.broadcast_arrays(lam, C, T0, Q0))
+    lam_, C_, T0_, Q0_, _, sources = _broadcast(balance, t)
     out = T0_ * np.exp(-lam_ * t) + (Q0_ / C_) * t * relaxation(lam_ * t)
-    P = np.asarray(balance.decaying_power, dtype=float)
-    if P.size:
-        b = np.asarray(balance.decay_rate, dtype=float)
-        n_src = P.shape[-1]
-        Pb = np.broadcast_to(P, lam.shape + (n_src,))
-        bb = np.broadcast_to(b, lam.shape + (n_src,))
-        for i in range(n_src):
-            Pi = np.reshape(Pb[..., i], shape)
-            bi = np.reshape(bb[..., i], shape)
-            out = out + (Pi / C_) * np.exp(-np.minimum(bi, lam_) * t) * t * relaxation(np.abs(lam_ - bi) * t)
+    for Pi, bi in sources:
+        out = out + (Pi / C_) * np.exp(-np.minimum(bi, lam_) * t) * t * relaxation(np.abs(lam_ - bi) * t)
     return out
 
 
@@ -161,47 +171,21 @@ def temperature_rate(balance: LinearBalance, t, temp=None):
     t = np.asarray(t, dtype=float)
     if temp is None:
         return _closed_form_rate(balance, t)
-    C = np.asarray(balance.heat_capacity, dtype=float)
-    G = np.asarray(balance.conductance, dtype=float)
-    Q0 = np.asarray(balance.drive, dtype=float)
-    extra = t.ndim - np.ndim(G)
-    shape = np.shape(G) + (1,) * extra
-    G_, C_, Q0_ = (np.reshape(v, shape) for v in np.broadcast_arrays(G, C, Q0))
+    _, C_, _, Q0_, G_, sources = _broadcast(balance, t)
     rate = Q0_ - G_ * temp
-    P = np.asarray(balance.decaying_power, dtype=float)
-    if P.size:
-        b = np.asarray(balance.decay_rate, dtype=float)
-        n_src = P.shape[-1]
-        Pb = np.broadcast_to(P, np.shape(G) + (n_src,))
-        bb = np.broadcast_to(b, np.shape(G) + (n_src,))
-        for i in range(n_src):
-            rate = rate + np.reshape(Pb[..., i], shape) * np.exp(-np.reshape(bb[..., i], shape) * t)
+    for Pi, bi in sources:
+        rate = rate + Pi * np.exp(-bi * t)
     return rate / C_
 
 
 def _closed_form_rate(balance: LinearBalance, t):
     """Time derivative of :func:`temperature` (same broadcasting rules)."""
-    C = np.asarray(balance.heat_capacity, dtype=float)
-    G = np.asarray(balance.conductance, dtype=float)
-    lam = G / C
-    T0 = np.asarray(balance.initial_temperature, dtype=float)
-    Q0 = np.asarray(balance.drive, dtype=float)
-    extra = t.ndim - lam.ndim
-    shape = lam.shape + (1,) * extra
-    lam_, C_, T0_, Q0_, G_ = (np.reshape(v, shape) for v in np.broadcast_arrays(lam, C, T0, Q0, G))
+    lam_, C_, T0_, Q0_, G_, sources = _broadcast(balance, t)
     out = (Q0_ - G_ * T0_) / C_ * np.exp(-lam_ * t)
-    P = np.asarray(balance.decaying_power, dtype=float)
-    if P.size:
-        b = np.asarray(balance.decay_rate, dtype=float)
-        n_src = P.shape[-1]
-        Pb = np.broadcast_to(P, lam.shape + (n_src,))
-        bb = np.broadcast_to(b, lam.shape + (n_src,))
-        for i in range(n_src):
-            Pi = np.reshape(Pb[..., i], shape)
-            bi = np.reshape(bb[..., i], shape)
-            m = np.minimum(bi, lam_)
-            d = np.abs(lam_ - bi)
-            out = out + (Pi / C_) * np.exp(-m * t) * (np.exp(-d * t) - m * t * relaxation(d * t))
+    for Pi, bi in sources:
+        m = np.minimum(bi, lam_)
+        d = np.abs(lam_ - bi)
+        out = out + (Pi / C_) * np.exp(-m * t) * (np.exp(-d * t) - m * t * relaxation(d * t))
     return out
 
 
