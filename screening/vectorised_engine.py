@@ -154,6 +154,23 @@ class RegisterScreen(NamedTuple):
 # input handling
 # ---------------------------------------------------------------------------
 
+def within_engine_range(C, G, Q0, T0, P, b, horizon):
+    """Which vessels the engine accepts (bool array, shape (N,)); inputs as for :func:`first_crossing_times`,
+    already broadcast to (N,) and (N, k).
+
+    Accepted: all finite, 1e-30 <= C <= 1e30, 0 <= G, b, horizon <= 1e30 and |Q0|, |T0|, |P| <= 1e30.
+    Callers with vessels outside it (absurd but valid inputs) use the scalar engine for those.
+    """
+    big = _MAX_MAGNITUDE
+    with np.errstate(invalid="ignore"):
+        finite = (np.isfinite(C) & np.isfinite(G) & np.isfinite(Q0) & np.isfinite(T0) & np.isfinite(horizon)
+                  & np.isfinite(P).all(axis=1) & np.isfinite(b).all(axis=1))
+        bad = (~finite | (C < 1.0 / big) | (C > big) | (G < 0) | (G > big) | (np.abs(Q0) > big) | (np.abs(T0) > big)
+               | (horizon < 0) | (horizon > big) | (np.abs(P) > big).any(axis=1) | (b < 0).any(axis=1)
+               | (b > big).any(axis=1))
+    return ~bad
+
+
 def _prepare(C, G, Q0, T0, P, b, horizon, limits=None):
     """Broadcast and check inputs; returns float64 arrays (N,), (N,k) and limits (N,L)."""
     C, G, Q0, T0, horizon = (np.asarray(v, dtype=float) for v in (C, G, Q0, T0, horizon))
@@ -184,12 +201,7 @@ def _prepare(C, G, Q0, T0, P, b, horizon, limits=None):
     k = P2.shape[1]
     P2 = np.ascontiguousarray(np.broadcast_to(P2, (n, k)))
     b2 = np.ascontiguousarray(np.broadcast_to(b2, (n, k)))
-    finite = (np.isfinite(C) & np.isfinite(G) & np.isfinite(Q0) & np.isfinite(T0) & np.isfinite(horizon)
-              & np.isfinite(P2).all(axis=1) & np.isfinite(b2).all(axis=1))
-    big = _MAX_MAGNITUDE
-    bad = (~finite | (C < 1.0 / big) | (C > big) | (G < 0) | (G > big) | (np.abs(Q0) > big) | (np.abs(T0) > big)
-           | (horizon < 0) | (horizon > big) | (np.abs(P2) > big).any(axis=1) | (b2 < 0).any(axis=1)
-           | (b2 > big).any(axis=1))
+    bad = ~within_engine_range(C, G, Q0, T0, P2, b2, horizon)
     if bad.any():
         first = int(np.argmax(bad))
         raise ValueError(f"{int(bad.sum())} vessel(s) out of range (first: index {first}); need finite inputs with "

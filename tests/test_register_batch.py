@@ -167,6 +167,20 @@ def test_bad_cells_reported_by_row_and_field_and_others_screened(tmp_path):
     assert accounted == set(range(2, 2 + len(rows)))
 
 
+def test_row_outside_the_vectorised_engine_range_is_screened_by_the_scalar_engine(tmp_path):
+    """An absurd but valid row (heat capacity 3e31 J/K, over the vectorised engine's 1e30) must not stop
+    the run: it is screened like `check` screens the same case, and the other rows as usual."""
+    rows = [["HUGE", "1e28", "", "180", "", "", "60"], ["OK", "9000", "", "180", "", "", "60"]]
+    summary, results, errors, _ = run(tmp_path, HEADER, rows)
+    assert errors == [] and summary["valid"] == 2
+    by_id = {r["id"]: r for r in results}
+    for rid, row in zip(("HUGE", "OK"), rows):
+        single, problems = screen_case_dict(row_case(dict(zip(HEADER, row))))
+        assert problems == []
+        assert_same_result(by_id[rid], single)
+    assert by_id["HUGE"]["heat_capacity_J_per_K"] == pytest.approx(3e31, rel=1e-12)
+
+
 def test_missing_column_reported_for_every_row(tmp_path):
     base = {k: v for k, v in BASE.items() if k != "limits"}
     summary, results, errors, _ = run(tmp_path, ["id", "contents.mass [kg]"], [["A", "100"], ["B", "200"]], base=base)
