@@ -335,11 +335,13 @@ def _full_validation(data: dict, base_problems: list[FieldProblem]):
         return None, exc.problems
 
 
-def validate_rows(ctx: RowContext, rows: list[list[str]], build_specs: bool = True) -> list[tuple]:
+def validate_rows(ctx: RowContext, rows: list[list[str]], build_specs: bool = True, take_group=None) -> list:
     """Validate every row; returns (spec or None, problems, mapping[, (representative index, updates)]) per row.
 
     With ``build_specs=False`` a row validated through its representative gets spec None and the
-    caller builds it (or not) from the representative and the updates.
+    caller builds it (or not) from the representative and the updates.  ``take_group(rep_index,
+    rep_spec, fast_cols, members)``, when given, may take rows of a group for screening of its own
+    (see :mod:`screening.register_columns`); it returns the members it leaves, and a taken row's entry is None.
     """
     roles = [_column_role(c) for c in ctx.columns]
     groups: dict[tuple, list[int]] = {}
@@ -377,7 +379,9 @@ def validate_rows(ctx: RowContext, rows: list[list[str]], build_specs: bool = Tr
             if role == "quantity" and marker is None:
                 fast_cols = None
                 break
-            fast_cols.append((col, role, _fast_quantity(col, marker) if marker else None, name))
+            fast_cols.append((col, role, _fast_quantity(col, marker) if marker else None, name, marker))
+        if take_group is not None and fast_cols is not None and remaining:
+            remaining = take_group(rep_index, rep_spec, fast_cols, remaining)
         for i in remaining:
             cells = rows[i]
             if fast_cols is None:
@@ -386,7 +390,7 @@ def validate_rows(ctx: RowContext, rows: list[list[str]], build_specs: bool = Tr
                 continue
             ok = True
             updates = []
-            for col, role, parse, name in fast_cols:
+            for col, role, parse, name, _marker in fast_cols:
                 cell = cells[col.index]
                 if role == "quantity":
                     try:
@@ -432,6 +436,8 @@ def _derive_inputs(rep_inputs: list[dict], updates: list) -> list[dict]:
 
 def _check_limit_names_unique(out, members):
     for i in members:
+        if out[i] is None:
+            continue  # taken by a uniform group
         spec, problems, data = out[i][:3]
         if spec is None:
             continue  # rows built from a representative share its (checked) limit names
@@ -582,50 +588,86 @@ def screen_chunk(work: ChunkWork) -> ChunkResult:
             gc.enable()
 
 
+def _structural_problems(work: ChunkWork, cells: list[str]) -> list[FieldProblem]:
+    """Problems of a row that no schema sees: values under bad headers or under no header."""
+    problems = []
+    for index, header in work.bad_columns.items():
+        if index < len(cells) and cells[index].strip():
+            problems.append(FieldProblem(f"(column {index + 1})", f"a value under the header '{header}', "
+                                         f"which is not a valid field path; the row is not screened"))
+    width = max([c.index for c in work.columns] + list(work.bad_columns) + [-1]) + 1
+    if len(cells) > width and any(c.strip() for c in cells[width:]):
+        problems.append(FieldProblem("(row)", "values in columns without a header; the row is not screened"))
+    return problems
+
+
 def _screen_chunk(work: ChunkWork) -> ChunkResult:
     from . import rules as rules_mod
-    from .case_to_model import prepare_case
+    from .case_to_model import collect_inputs, prepare_case
+    from .register_columns import VARYING_KEYS, plan_group, screen_group
     from .screening_run import public_result, screen_prepared
 
-    from .case_to_model import collect_inputs
-
     ctx = RowContext(work.columns, work.base, work.register_dir, work.allow_case_file)
-    validated = validate_rows(ctx, work.rows, build_specs=False)
     rep_inputs: dict[int, list[dict]] = {}
     rep_prepared: dict[int, object] = {}
     rule_set = rules_mod.load_rule_set(work.rules_path)
+    columnar: dict[int, dict] = {}  # row index -> result, from uniform groups
+
+    def prepared_rep(rep_index, rep_spec):
+        if rep_index not in rep_prepared:
+            try:
+                rep_prepared[rep_index] = prepare_case(rep_spec)
+            except CaseError:
+                rep_prepared[rep_index] = None
+        return rep_prepared[rep_index]
+
+    def take_group(rep_index, rep_spec, fast_cols, members):
+        if work.memos_dir is not None:
+            return members  # memos need each row's history: the general path
+        rep = prepared_rep(rep_index, rep_spec)
+        plan = plan_group(rep, fast_cols) if rep is not None else None
+        if plan is None:
+            return members
+        clean, others = [], []
+        for i in members:
+            (others if _structural_problems(work, work.rows[i]) else clean).append(i)
+
+        def rep_result(values):
+            return public_result(screen_prepared(rep, None, values=values, with_history=False))
+
+        group = screen_group(rep, rep_index, work.rows, clean, plan, lambda cells: _row_hash(work, cells), rep_result)
+        if group.results:
+            known = rules_mod.constant_quantities(group.template, VARYING_KEYS)
+            for i, result in group.results.items():
+                columnar[i] = (result, known)
+        return sorted(group.left + others)
+
+    validated = validate_rows(ctx, work.rows, build_specs=False, take_group=take_group)
     outcomes: list[RowOutcome] = []
     closed, closed_idx = [], []
     prepared_all: list = [None] * len(work.rows)
     for i, item in enumerate(validated):
-        spec, problems, data = item[:3]
-        hint = item[3] if len(item) > 3 else None
         row_no = work.row_numbers[i]
         cells = work.rows[i]
+        if item is None:  # screened with its uniform group
+            outcomes.append(RowOutcome(row_no, columnar[i][0]["id"]))
+            prepared_all[i] = (None, columnar[i])
+            continue
+        spec, problems, data = item[:3]
+        hint = item[3] if len(item) > 3 else None
         direct = None
         if hint is not None:
             rep_index, updates = hint
-            if rep_index not in rep_prepared:
-                try:
-                    rep_prepared[rep_index] = prepare_case(validated[rep_index][0])
-                except CaseError:
-                    rep_prepared[rep_index] = None
-            if rep_prepared[rep_index] is not None:
-                direct = direct_prepared(rep_prepared[rep_index], updates)
+            rep = prepared_rep(rep_index, validated[rep_index][0])
+            if rep is not None:
+                direct = direct_prepared(rep, updates)
             if direct is None:
                 spec = _apply_updates(validated[rep_index][0], updates)
             else:
                 spec = direct.spec
         rid = spec.id if spec is not None else _row_id(work, cells, data)
         outcome = RowOutcome(row_no, rid)
-        outcome.problems = list(problems)
-        for index, header in work.bad_columns.items():
-            if index < len(cells) and cells[index].strip():
-                outcome.problems.append(FieldProblem(f"(column {index + 1})", f"a value under the header '{header}', "
-                                                     f"which is not a valid field path; the row is not screened"))
-        width = max([c.index for c in work.columns] + list(work.bad_columns) + [-1]) + 1
-        if len(cells) > width and any(c.strip() for c in cells[width:]):
-            outcome.problems.append(FieldProblem("(row)", "values in columns without a header; the row is not screened"))
+        outcome.problems = list(problems) + _structural_problems(work, cells)
         if direct is not None and not outcome.problems:
             prepared_all[i] = (direct, _row_hash(work, cells))
             if not direct.model.arrhenius_sources:
@@ -652,13 +694,18 @@ def _screen_chunk(work: ChunkWork) -> ChunkResult:
         if prepared_all[i] is None or outcome.problems:
             continue
         prep, case_hash = prepared_all[i]
-        try:
-            result = screen_prepared(prep, case_hash, values=values.get(i), with_history=work.memos_dir is not None)
-        except Exception as exc:  # noqa: BLE001 - one bad row must not lose the others
-            outcome.problems.append(FieldProblem("(row)", f"internal error while screening this row: "
-                                                          f"{type(exc).__name__}: {exc}"))
-            continue
-        rules_mod.apply_verdict(result, rules_mod.evaluate(rule_set, result))
+        known = None
+        if prep is None:
+            result, known = case_hash  # a uniform group's result object and its group's known quantities
+        else:
+            try:
+                result = screen_prepared(prep, case_hash, values=values.get(i),
+                                         with_history=work.memos_dir is not None)
+            except Exception as exc:  # noqa: BLE001 - one bad row must not lose the others
+                outcome.problems.append(FieldProblem("(row)", f"internal error while screening this row: "
+                                                              f"{type(exc).__name__}: {exc}"))
+                continue
+        rules_mod.apply_verdict(result, rules_mod.evaluate(rule_set, result, known))
         result["register_row"] = outcome.row
         if work.memos_dir is not None:
             from .memo_writer import write_memo
@@ -666,7 +713,7 @@ def _screen_chunk(work: ChunkWork) -> ChunkResult:
 
             write_memo(memo_view(result), Path(work.memos_dir) / f"{_safe_name(result['id'])}-row{outcome.row}.pdf",
                        templates_dir=work.templates_dir)
-        public = public_result(result)
+        public = public_result(result) if prep is not None else result
         try:
             outcome.json = dumps(public)
         except (TypeError, ValueError) as exc:

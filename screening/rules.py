@@ -108,6 +108,7 @@ import re
 import tomllib
 import typing
 from dataclasses import dataclass, field
+import functools
 from functools import lru_cache
 from pathlib import Path
 from typing import Any, Callable
@@ -848,14 +849,117 @@ class _OnMissing:
     template: tuple
 
 
+class _KeyTrace(dict):
+    """A result dict that records which top-level keys are read (``"*"``: all of them)."""
+
+    def __init__(self, data: dict):
+        super().__init__(data)
+        self.seen: set = set()
+
+    def get(self, key, default=None):
+        self.seen.add(key)
+        return dict.get(self, key, default)
+
+    def __getitem__(self, key):
+        self.seen.add(key)
+        return dict.__getitem__(self, key)
+
+    def __contains__(self, key):
+        self.seen.add(key)
+        return dict.__contains__(self, key)
+
+    def _read_all(self):
+        self.seen.add("*")
+
+    def keys(self):
+        self._read_all()
+        return dict.keys(self)
+
+    def items(self):
+        self._read_all()
+        return dict.items(self)
+
+    def values(self):
+        self._read_all()
+        return dict.values(self)
+
+    def copy(self):
+        self._read_all()
+        return dict(dict.items(self))
+
+    def __iter__(self):
+        self._read_all()
+        return dict.__iter__(self)
+
+    def __len__(self):
+        self._read_all()
+        return dict.__len__(self)
+
+    def __eq__(self, other):
+        self._read_all()
+        return dict.__eq__(self, other)
+
+    __hash__ = None
+
+
+@dataclass
+class KnownQuantities:
+    """Quantity values shared by a family of results, and the rule outcomes that follow from them alone.
+
+    ``values``: quantity name -> value (as a quantity's extractor returns it).  ``outcomes`` fills as
+    :func:`evaluate` runs: (item position, display unit) -> the item's outcome, for items that read
+    only known quantities (one rule set per KnownQuantities).
+    """
+
+    values: dict
+    outcomes: dict = field(default_factory=dict)
+
+
+def constant_quantities(template: dict, varying_keys) -> KnownQuantities:
+    """The quantities shared by every result that equals ``template`` outside ``varying_keys``.
+
+    A quantity is a pure function of the result; one that reads (on ``template``) no key of
+    ``varying_keys`` follows the same path and gives the same value on every such result.  Pass the
+    returned object to :func:`evaluate` as ``known`` for each of those results (a register's uniform
+    row group, for instance): those quantities are not derived again, and a rule that reads only them
+    is applied once per display unit.
+    """
+    varying = set(varying_keys)
+    values = {}
+    for name, quantity in QUANTITIES.items():
+        traced = _KeyTrace(template)
+        value = quantity.extract(traced)
+        if "*" not in traced.seen and not (traced.seen & varying):
+            values[name] = value
+    return KnownQuantities(values)
+
+
+def _item_reads(item) -> frozenset:
+    """The quantities a rule item (threshold rule or matrix) reads, its texts' placeholders included."""
+    names = set()
+    templates = []
+    if isinstance(item, _Matrix):
+        names.update((item.rows.quantity, item.columns.quantity))
+        templates.extend(item.templates.values())
+    else:
+        names.add(item.quantity)
+        if item.rel_of is not None:
+            names.add(item.rel_of)
+        templates.append(item.template)
+    templates.extend(m.template for m in (item.if_unknown, item.if_not_applicable) if m is not None)
+    for template in templates:
+        names.update(part[0] for part in template if not isinstance(part, str))
+    return frozenset(n for n in names if n in QUANTITIES)
+
+
 class _Eval:
     """Per-result cache of quantity values."""
 
     __slots__ = ("result", "cache", "unit")
 
-    def __init__(self, result: dict):
+    def __init__(self, result: dict, known: dict | None = None):
         self.result = result
-        self.cache: dict[str, Any] = {}
+        self.cache: dict[str, Any] = dict(known) if known else {}
         units = result.get("units")
         unit = units.get("temperature") if isinstance(units, dict) else None
         self.unit = unit if unit in ("K", "degC", "degF", "degR") else "degC"
@@ -1010,6 +1114,11 @@ class RuleSet:
     def rule_ids(self) -> list[str]:
         return [x.id for x in self.items]
 
+    @functools.cached_property
+    def reads(self) -> tuple[frozenset, ...]:
+        """The quantities each item reads, in item order."""
+        return tuple(_item_reads(x) for x in self.items)
+
 
 @dataclass
 class Verdict:
@@ -1032,16 +1141,26 @@ class Verdict:
         }
 
 
-def evaluate(rule_set: RuleSet, result: dict) -> Verdict:
-    """Apply every rule of ``rule_set`` to one screening result."""
-    ev = _Eval(result)
+def evaluate(rule_set: RuleSet, result: dict, known: KnownQuantities | None = None) -> Verdict:
+    """Apply every rule of ``rule_set`` to one screening result.
+
+    ``known``: quantities already established for this result (see :func:`constant_quantities`).
+    """
+    ev = _Eval(result, known.values if known is not None else None)
     fired: list[Finding] = []
     clear: list[str] = []
     not_applicable: list[str] = []
     not_applied: list[tuple[str, str]] = []
     superseded: list[tuple[Finding, tuple[str, ...]]] = []
-    for item in rule_set.items:
-        status, finding, missing = item.check(ev)
+    for position, (item, reads) in enumerate(zip(rule_set.items, rule_set.reads)):
+        if known is not None and reads <= known.values.keys():
+            key = (position, ev.unit)
+            outcome = known.outcomes.get(key)
+            if outcome is None:
+                outcome = known.outcomes[key] = item.check(ev)
+            status, finding, missing = outcome
+        else:
+            status, finding, missing = item.check(ev)
         if finding is not None:
             if item.superseded_by:
                 superseded.append((finding, item.superseded_by))

@@ -69,6 +69,31 @@ def _hours(s: float) -> str:
     return f"{s / 3600:.3g} h"
 
 
+# Warnings of a closed-form result (also used by the columnar register path, which decides per row
+# when each applies by the same conditions as screen_closed_form and detection_and_recovery).
+ADIABATIC_WARNING = "No heat loss and no heating medium (UA = 0): the vessel is treated as adiabatic."
+
+
+def limit_at_start_warning(name: str, temperature: float, initial_temperature: float, unit: str) -> str:
+    return (f"Limit '{name}' ({_fmt_temp(temperature, unit)}) is already reached at the start: "
+            f"the initial temperature is {_fmt_temp(initial_temperature, unit)}.")
+
+
+def short_horizon_warning(horizon: float, tau: float) -> str:
+    return (f"The horizon ({_hours(horizon)}) is shorter than the vessel's time constant ({_hours(tau)}): the "
+            f"temperature is still far from where it settles. Extend the horizon to see the whole response.")
+
+
+def still_rising_warning(end_temperature: float, end_rate: float, steady: float | None, unit: str) -> str:
+    where = f"; it settles at {_fmt_temp(steady, unit)}" if steady is not None else "; it has no steady state"
+    return (f"The temperature is still rising at the end of the horizon ({_fmt_temp(end_temperature, unit)}, "
+            f"{end_rate * 3600:.3g} K/h){where}. A limit not reached within the horizon may be reached later.")
+
+
+def response_beyond_horizon_warning(horizon: float) -> str:
+    return f"The horizon ({_hours(horizon)}) ends before detection plus response time: extend it."
+
+
 @dataclass
 class ClosedFormValues:
     """What the time-to-limit solver gives for one closed-form case (from either engine).
@@ -137,8 +162,7 @@ def screen_closed_form(prepared: PreparedCase, values: ClosedFormValues | None =
             t = None  # held at the boiling point while liquid remains
         limit_rows.append({"name": lim.name, "temperature_K": lim.temperature, "time_s": t, "reached": t is not None})
         if t == 0.0:
-            warnings.append(f"Limit '{lim.name}' ({_fmt_temp(lim.temperature, unit)}) is already reached at the start: "
-                            f"the initial temperature is {_fmt_temp(T0, unit)}.")
+            warnings.append(limit_at_start_warning(lim.name, lim.temperature, T0, unit))
     peak_T, peak_t = values.peak
     end_rate = values.end_rate
     if boil is not None:
@@ -163,14 +187,11 @@ def screen_closed_form(prepared: PreparedCase, values: ClosedFormValues | None =
     }
 
     if tau is not None and H < tau:
-        warnings.append(f"The horizon ({_hours(H)}) is shorter than the vessel's time constant ({_hours(tau)}): the "
-                        f"temperature is still far from where it settles. Extend the horizon to see the whole response.")
+        warnings.append(short_horizon_warning(H, tau))
     if end_rate > 0 and any(not r["reached"] for r in limit_rows):
-        where = f"; it settles at {_fmt_temp(steady, unit)}" if steady is not None else "; it has no steady state"
-        warnings.append(f"The temperature is still rising at the end of the horizon ({_fmt_temp(values.end_temperature, unit)}, "
-                        f"{end_rate * 3600:.3g} K/h){where}. A limit not reached within the horizon may be reached later.")
+        warnings.append(still_rising_warning(values.end_temperature, end_rate, steady, unit))
     if G == 0:
-        warnings.append("No heat loss and no heating medium (UA = 0): the vessel is treated as adiabatic.")
+        warnings.append(ADIABATIC_WARNING)
 
     result = {
         "time_constant_s": tau,
@@ -300,7 +321,7 @@ def detection_and_recovery(prepared: PreparedCase, result: dict, balance=None, a
         else:
             row["margin_s"] = None
     if prepared.response_time is not None and model.horizon < prepared.response_time + (detection or 0.0):
-        result["warnings"].append(f"The horizon ({_hours(H)}) ends before detection plus response time: extend it.")
+        result["warnings"].append(response_beyond_horizon_warning(H))
     result["recovery"] = None
     if prepared.recovery is None or prepared.response_time is None or detection is None or balance is None:
         return

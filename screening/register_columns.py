@@ -1,0 +1,375 @@
+"""Columnar screening of a uniform group of register rows.
+
+Most registers are many rows of one shape: the same filled columns over the
+same base case, differing only in numbers.  When such a group's representative
+row (validated and screened in full) is a simple closed-form case, namely
+
+* no vessel geometry, heat loss as a given UA, no fire, heating medium,
+  boiling data, Arrhenius source, cooling recovery, alarm or uncertainty block,
+
+and every column that varies in the group is one of the quantities listed in
+:data:`VARYING_PATHS` (or the id or title), the other rows need not be built
+one by one.  Their cells are parsed a column at a time with the column's unit
+looked up once, the SI model numbers are assembled as arrays, the vectorised
+engine runs once for the group, and each row's result object is the
+representative's with the row's numbers written in.
+
+The result is the same object ``check --json`` prints for the equivalent case:
+the same formulas (in the same floating-point order) and the same warning texts
+(:mod:`screening.screening_run` provides them).  Each group checks itself: the
+representative is also rebuilt this way and compared with its result from the
+general path; on any difference the group goes the general way, row by row.
+A row whose cells the column parser does not accept (a unit in a cell where the
+header gives one, a value out of range, an empty id) also goes the general
+way, where it gets exactly the errors a case file would.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from .register_reading import Column
+
+#: Quantity paths a uniform group may vary per row (list indices are filled in by the plan).
+VARYING_PATHS = ("contents.mass", "contents.specific_heat", "contents.initial_temperature",
+                 "heat_loss.ambient_temperature", "heat_loss.ua", "horizon", "response_time",
+                 "limits.N.temperature", "heat_sources.N.power", "heat_sources.N.time_constant",
+                 "heat_sources.N.half_life")
+
+#: The keys of a result object a row of a uniform group may hold differently from its representative.
+VARYING_KEYS = frozenset({
+    "id", "title", "time_constant_s", "peak_temperature_K", "peak_time_s", "steady_temperature_K", "limits",
+    "adiabatic", "warnings", "detection_time_s", "response_time_s", "initial_temperature_K", "ambient_temperature_K",
+    "horizon_s", "heat_capacity_J_per_K", "ua_W_per_K", "limit_exceeded_at_start", "assumptions", "inputs", "units",
+    "input_hash"})
+
+#: Raise instead of falling back when a group's self-check fails (the tests set this).
+STRICT_SELF_CHECK = False
+
+_SCALAR_FIELDS = {("contents", "mass"): "mass", ("contents", "specific_heat"): "cp",
+                  ("contents", "initial_temperature"): "T0", ("heat_loss", "ambient_temperature"): "Ta",
+                  ("heat_loss", "ua"): "ua", ("horizon",): "H", ("response_time",): "response"}
+
+
+class SelfCheckError(AssertionError):
+    """The columnar result of a representative differs from its general-path result."""
+
+
+@dataclass
+class _Varying:
+    col: Column
+    kind: str  # "mass", "cp", "T0", "Ta", "ua", "H", "response", "limit", "const", "dpower", "dtau", "dhalf",
+    #            "id", "title"
+    slot: int  # index among limits / constant sources / decaying sources (0 otherwise)
+    marker: object  # QuantityField of a quantity column, None for id / title
+    field: str  # dotted path, as in the inputs list
+
+
+def plan_group(rep, fast_cols) -> list[_Varying] | None:
+    """The varying columns of a group whose representative ``rep`` (a PreparedCase) qualifies, else None.
+
+    ``fast_cols`` are the group's non-structure columns as ``validate_rows`` finds them:
+    (column, role, parser, field name, marker).
+    """
+    from .case_schema import ConstantSpec, DecayingSpec
+
+    spec, model = rep.spec, rep.model
+    if (spec.vessel is not None or spec.heat_loss.ua is None or spec.contents.mass is None
+            or model.arrhenius_sources or model.fire_sources or model.heating_media or model.boiling is not None
+            or rep.recovery is not None or rep.detection_alarm is not None or rep.uncertainty_plan is not None
+            or model.wall_heat_capacity != 0.0):
+        return None
+    out = []
+    for col, role, _parse, name, marker in fast_cols:
+        path = col.path
+        if role == "text":
+            if path not in (("id",), ("title",)):
+                return None
+            out.append(_Varying(col, path[0], 0, None, path[0]))
+            continue
+        kind, slot = _SCALAR_FIELDS.get(path), 0
+        if kind is None and len(path) == 3 and path[0] == "limits" and path[2] == "temperature":
+            kind, slot = "limit", path[1]
+        elif kind is None and len(path) == 3 and path[0] == "heat_sources":
+            src = spec.heat_sources[path[1]]
+            slot = [i for i, s in enumerate(spec.heat_sources) if type(s) is type(src)].index(path[1])
+            if isinstance(src, ConstantSpec) and path[2] == "power":
+                kind = "const"
+            elif isinstance(src, DecayingSpec):
+                kind = {"power": "dpower", "time_constant": "dtau", "half_life": "dhalf"}.get(path[2])
+        if kind is None or marker is None:
+            return None
+        out.append(_Varying(col, kind, slot, marker, ".".join(str(p) for p in path)))
+    return out
+
+
+def _parse_column(v: _Varying, cells: list[str]):
+    """(SI values, texts, sources, ok flags) of one quantity column, as the schema's validator reads them."""
+    from .register_batch import _NUMBER_ONLY, _cell_value
+    from .units import UnitError, unit_factor
+
+    n = len(cells)
+    si = [0.0] * n
+    texts = [""] * n
+    sources = None
+    ok = [True] * n
+    marker, col = v.marker, v.col
+    check = marker.check
+    validator = None
+    scale = offset = None
+    if col.unit:
+        try:
+            scale, offset = unit_factor(col.unit, marker.dimension)
+        except UnitError:
+            return si, texts, None, [False] * n
+    for i, cell in enumerate(cells):
+        if scale is not None and _NUMBER_ONLY.match(cell):
+            value = float(cell) * scale + offset
+            if not math.isfinite(value) or (check in ("positive", "absolute") and not value > 0) \
+                    or (check == "nonnegative" and value < 0):
+                ok[i] = False
+                continue
+            si[i] = value
+            texts[i] = f"{cell.strip()} {col.unit}"
+            continue
+        if col.unit:  # a cell the number-only parse does not take: the general path decides
+            ok[i] = False
+            continue
+        if validator is None:
+            validator = marker.validator()
+        try:
+            q = validator(_cell_value(col, cell))
+        except ValueError:
+            ok[i] = False
+            continue
+        si[i], texts[i] = q.si, q.text
+        if q.source is not None:
+            if sources is None:
+                sources = [None] * n
+            sources[i] = q.source
+    return si, texts, sources, ok
+
+
+@dataclass
+class GroupResults:
+    """Results of the rows a uniform group screened: row index -> public result (without a verdict)."""
+
+    results: dict
+    left: list  # row indices for the general path
+    template: dict | None = None  # the representative's result: the rows differ from it only in VARYING_KEYS
+
+
+def screen_group(rep, rep_index: int, rows: list[list[str]], members: list[int], plan: list[_Varying],
+                 row_hash, rep_result_of) -> GroupResults:
+    """Screen ``members`` (row indices into ``rows``) of a uniform group at once.
+
+    ``rep`` is the representative's PreparedCase (row ``rep_index``); ``row_hash(cells)`` gives a row's
+    input hash and ``rep_result_of(values)`` the representative's public result from the general path
+    for the given ClosedFormValues (the self-check).
+    """
+    from .screening_run import ClosedFormValues
+
+    idx = [rep_index] + list(members)  # the representative first: it is rebuilt for the self-check
+    n = len(idx)
+    ok = np.ones(n, dtype=bool)
+    parsed = {}
+    for v in plan:
+        cells = [rows[i][v.col.index] for i in idx]
+        if v.marker is None:
+            good = [bool(c.strip()) if v.kind == "id" else True for c in cells]
+            parsed[id(v)] = (cells, None, None)
+        else:
+            si, texts, sources, good = _parse_column(v, cells)
+            parsed[id(v)] = (si, texts, sources)
+        ok &= np.asarray(good, dtype=bool)
+    if not ok[0]:
+        return GroupResults({}, list(members))
+    cols = _model_columns(rep, plan, parsed, n)
+    from .register_batch import run_engine
+
+    m = rep.model
+    nl = len(m.limits)
+    k = max(len(m.decaying_sources), 1)
+    P = np.zeros((n, k))
+    b = np.zeros((n, k))
+    for j in range(len(m.decaying_sources)):
+        P[:, j] = cols["dpower"][j]
+        b[:, j] = 1.0 / cols["dtau"][j]
+    L = np.full((n, nl + 2), np.nan)  # + boiling point + alarm, unused here (as in vectorised_values)
+    for j in range(nl):
+        L[:, j] = cols["limit"][j]
+    C = cols["mass"] * cols["cp"] + m.wall_heat_capacity
+    G = cols["ua"] + 0.0
+    p0 = np.zeros(n)
+    for arr in cols["const"]:
+        p0 = p0 + arr
+    Q0 = cols["ua"] * cols["Ta"] + 0.0 + p0
+    engine_ok, times, summary, ad_times = run_engine(C, G, Q0, np.zeros(n), p0 + 0.0, cols["T0"], P, b, L,
+                                                     cols["H"], nl)
+    ok &= engine_ok
+    if not ok[0]:
+        return GroupResults({}, list(members))
+    # per-row numbers, as screen_closed_form computes them
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        tau = C / G
+        steady_lossy = Q0 / G
+        pa = np.zeros(n)
+        for j in range(len(m.decaying_sources)):
+            pa = pa + cols["dpower"][j] * cols["dtau"][j]
+        steady_adiabatic = cols["T0"] + pa / C
+        rise = pa / C
+    tau_ok = (G > 0) & np.isfinite(tau)
+    steady = np.where(G > 0, np.where(np.isfinite(steady_lossy), steady_lossy, np.nan),
+                      np.where(Q0 == 0, steady_adiabatic, np.nan))
+    lists = {name: arr.tolist() for name, arr in (("tau", tau), ("steady", steady), ("C", C), ("rise", rise),
+                                                   ("peak_T", summary.peak_temperature), ("peak_t", summary.peak_time),
+                                                   ("end_T", summary.end_temperature),
+                                                   ("end_rate", summary.end_rate))}
+    tau_ok_l = tau_ok.tolist()
+    t_list = times[:, :nl].tolist()
+    ad_list = ad_times.tolist()
+    scalars = {key: cols[key].tolist() for key in ("T0", "Ta", "ua", "H")}
+    limit_temps = [arr.tolist() for arr in cols["limit"]]
+    response = cols["response"]
+    response_l = response.tolist() if isinstance(response, np.ndarray) else None
+    names = [lim.name for lim in m.limits]
+
+    ok_l = ok.tolist()
+
+    def values_of(r: int) -> ClosedFormValues:
+        conv = lambda v: None if v != v else v  # noqa: E731  (NaN: not reached)
+        return ClosedFormValues([conv(t) for t in t_list[r]], None, None, (lists["peak_T"][r], lists["peak_t"][r]),
+                                lists["end_T"][r], lists["end_rate"][r], [conv(t) for t in ad_list[r]])
+
+    def build(r: int, cells) -> dict:
+        resp = response_l[r] if response_l is not None else rep.response_time
+        v = values_of(r)
+        return builder.result(r, cells, row_hash(cells), v, names, [lt[r] for lt in limit_temps],
+                              lists["tau"][r] if tau_ok_l[r] else None,
+                              None if lists["steady"][r] != lists["steady"][r] else lists["steady"][r],
+                              lists["C"][r], lists["rise"][r], resp,
+                              *(scalars[key][r] for key in ("T0", "Ta", "ua", "H")))
+
+    reference = rep_result_of(values_of(0))
+    builder = _RowBuilder(rep, plan, parsed, dict(reference))
+    mine = build(0, rows[rep_index])
+    reference["input_hash"] = mine["input_hash"]
+    if mine != reference:
+        if STRICT_SELF_CHECK:
+            diff = sorted(k for k in set(mine) | set(reference) if mine.get(k) != reference.get(k))
+            raise SelfCheckError(f"columnar and general results of the representative differ in {diff}")
+        return GroupResults({}, list(members))
+    results, left = {}, []
+    for r in range(1, n):
+        i = idx[r]
+        if ok_l[r]:
+            results[i] = build(r, rows[i])
+        else:
+            left.append(i)
+    return GroupResults(results, left, builder.template)
+
+
+def _model_columns(rep, plan: list[_Varying], parsed: dict, n: int) -> dict:
+    """SI arrays of the model numbers (the representative's value where no column varies it)."""
+    m = rep.model
+    full = lambda value: np.full(n, value, dtype=float)  # noqa: E731
+    cols = {"mass": full(m.contents_mass), "cp": full(m.contents_specific_heat), "T0": full(m.initial_temperature),
+            "Ta": full(m.ambient_temperature), "ua": full(m.ua), "H": full(m.horizon),
+            "response": None if rep.response_time is None else full(rep.response_time),
+            "limit": [full(lim.temperature) for lim in m.limits],
+            "const": [full(s.power) for s in m.constant_sources],
+            "dpower": [full(s.power) for s in m.decaying_sources],
+            "dtau": [full(s.time_constant) for s in m.decaying_sources]}
+    for v in plan:
+        if v.marker is None:
+            continue
+        si = np.asarray(parsed[id(v)][0], dtype=float)
+        if v.kind in _SCALAR_FIELDS.values():
+            cols[v.kind] = si
+        elif v.kind == "limit":
+            cols["limit"][v.slot] = si
+        elif v.kind in ("const", "dpower", "dtau"):
+            cols[v.kind][v.slot] = si
+        elif v.kind == "dhalf":
+            cols["dtau"][v.slot] = si / math.log(2.0)
+    return cols
+
+
+class _RowBuilder:
+    """Writes one row's numbers into a copy of the representative's result object."""
+
+    def __init__(self, rep, plan: list[_Varying], parsed: dict, template: dict):
+        from .case_to_model import _display_unit_from_texts
+        from .register_batch import _is_absolute_temperature
+        from .screening_run import biot_and_validity
+
+        self.rep = rep
+        self.plan = plan
+        self.parsed = parsed
+        self.display_unit = _display_unit_from_texts
+        self.unit_cache: dict = {}
+        extra = {"warnings": []}
+        biot_and_validity(rep, extra)  # depends on nothing a row varies here
+        self.tail_warnings = extra["warnings"]
+        self.assumptions = extra["assumptions"]
+        positions = {item["field"]: p for p, item in enumerate(rep.inputs)}
+        self.input_slots = []  # (position in inputs, varying column)
+        for v in plan:
+            if v.marker is not None and v.field in positions:
+                self.input_slots.append((positions[v.field], v))
+        self.abs_temperature = [p for p, item in enumerate(rep.inputs)
+                                if item["unit_si"] == "K" and _is_absolute_temperature(item["field"])]
+        self.text_of = {v.kind: v for v in plan if v.marker is None}
+        self.template = template
+
+    def result(self, r, cells, input_hash, values, names, limit_temps, tau, steady, C, rise, response,
+               T0, Ta, ua, H) -> dict:
+        from .screening_run import (ADIABATIC_WARNING, limit_at_start_warning, response_beyond_horizon_warning,
+                                    short_horizon_warning, still_rising_warning)
+
+        rep = self.rep
+        inputs = list(rep.inputs)
+        for pos, v in self.input_slots:
+            si, texts, sources = self.parsed[id(v)]
+            item = inputs[pos]
+            inputs[pos] = {"field": item["field"], "text": texts[r], "value_si": si[r], "unit_si": item["unit_si"],
+                           "source": sources[r] if sources is not None else None}
+        key = tuple(inputs[p]["text"].split(None, 1)[-1] for p in self.abs_temperature)
+        unit = self.unit_cache.get(key)
+        if unit is None:
+            unit = self.unit_cache[key] = self.display_unit(["0 " + t for t in key])
+        detection = rep.detection_delay if rep.detection_delay is not None else 0.0
+        warnings = list(rep.warnings)
+        limit_rows, ad_rows = [], []
+        for name, lt, t, ta in zip(names, limit_temps, values.limit_times, values.adiabatic_limit_times):
+            margin = t - (detection + response) if t is not None and response is not None else None
+            limit_rows.append({"name": name, "temperature_K": lt, "time_s": t, "reached": t is not None,
+                               "margin_s": margin})
+            ad_rows.append({"name": name, "time_s": ta})
+            if t == 0.0:
+                warnings.append(limit_at_start_warning(name, lt, T0, unit))
+        if tau is not None and H < tau:
+            warnings.append(short_horizon_warning(H, tau))
+        if values.end_rate > 0 and any(not row["reached"] for row in limit_rows):
+            warnings.append(still_rising_warning(values.end_temperature, values.end_rate, steady, unit))
+        if ua + 0.0 == 0:
+            warnings.append(ADIABATIC_WARNING)
+        if response is not None and H < response + (detection or 0.0):
+            warnings.append(response_beyond_horizon_warning(H))
+        warnings.extend(self.tail_warnings)
+        out = dict(self.template)
+        for kind in ("id", "title"):
+            v = self.text_of.get(kind)
+            if v is not None:
+                out[kind] = self.parsed[id(v)][0][r]
+        out.update(time_constant_s=tau, peak_temperature_K=values.peak[0], peak_time_s=values.peak[1],
+                   steady_temperature_K=steady, limits=limit_rows,
+                   adiabatic={"limits": ad_rows, "temperature_rise_K": rise}, warnings=warnings,
+                   detection_time_s=detection, response_time_s=response, initial_temperature_K=T0,
+                   ambient_temperature_K=Ta, horizon_s=H, heat_capacity_J_per_K=C, ua_W_per_K=ua,
+                   limit_exceeded_at_start=any(row["time_s"] == 0.0 for row in limit_rows),
+                   assumptions=list(self.assumptions), inputs=inputs, units={"temperature": unit},
+                   input_hash=input_hash)
+        return out
