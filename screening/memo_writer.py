@@ -9,8 +9,10 @@ Public API
 ----------
 ``render_memo(result, templates_dir=None) -> bytes``
 ``write_memo(result, path, templates_dir=None) -> None``  (atomic)
-``render_register_summary(results, errors, templates_dir=None) -> bytes``
-``write_register_summary(results, errors, path, templates_dir=None) -> None``  (atomic)
+``render_register_summary(results, errors, templates_dir=None, summarised=False) -> bytes``
+``write_register_summary(results, errors, path, templates_dir=None, summarised=False) -> None``  (atomic)
+``summarise_register_results(results, templates_dir=None, start=0) -> list[dict]``  (the summary's
+per-vessel rows, for callers that screen in parts and pass ``summarised=True``)
 ``load_templates(templates_dir=None) -> dict``
 ``template_hashes(templates_dir=None) -> dict[str, str]``
 ``default_templates_dir() -> Path``
@@ -53,6 +55,7 @@ __all__ = [
     "load_templates",
     "render_memo",
     "render_register_summary",
+    "summarise_register_results",
     "template_hashes",
     "write_memo",
     "write_register_summary",
@@ -592,9 +595,9 @@ def write_memo(result: Mapping, path: str | os.PathLike, templates_dir: str | os
 
 
 def write_register_summary(results: Sequence[Mapping], errors: Sequence, path: str | os.PathLike,
-                           templates_dir: str | os.PathLike | None = None) -> None:
+                           templates_dir: str | os.PathLike | None = None, summarised: bool = False) -> None:
     """Render the register summary and write it atomically to ``path``."""
-    _atomic_write(lambda: render_register_summary(results, errors, templates_dir), path)
+    _atomic_write(lambda: render_register_summary(results, errors, templates_dir, summarised), path)
 
 
 # --------------------------------------------------------------------------- reportlab layer
@@ -1981,43 +1984,59 @@ def render_memo(result: Mapping, templates_dir: str | os.PathLike | None = None)
 _HIST_EDGES_H = (0.0, 1.0, 2.0, 4.0, 8.0, 24.0, 48.0, 168.0)
 
 
+def _summary_rows(results, at_start_label: str, start: int = 0) -> list[dict]:
+    rows = []
+    for i, res in enumerate(_seq(results, "results"), start=start):
+        if not isinstance(res, Mapping):
+            raise MemoInputError(f"results[{i}]: expected a dict, got {type(res).__name__}")
+        rows.append(_summarise(i, res, at_start_label))
+    return rows
+
+
+def summarise_register_results(results: Sequence[Mapping], templates_dir: str | os.PathLike | None = None,
+                               start: int = 0) -> list[dict]:
+    """The register summary's row for each result (numbered from ``start`` in messages).
+
+    Rows of several parts, concatenated in order, can be passed to :func:`render_register_summary`
+    with ``summarised=True``: the PDF is the same as from all the results at once.
+    """
+    return _summary_rows(results, load_templates(templates_dir)["labels"]["register_at_start"], start)
+
+
+def _summarise(i: int, res: Mapping, at_start_label: str) -> dict:
+    where = f"results[{i}]"
+    times, margins = [], []
+    for j, item in enumerate(_seq(res.get("limits"), f"{where}.limits")):
+        m = _mapping(item, f"{where}.limits[{j}]") or {}
+        t = _num(m.get("time_s"), f"{where}.limits[{j}].time_s")
+        reached = m.get("reached")
+        if t is not None and (reached is None or reached):
+            times.append((t, _str(m.get("name"), f"{where}.limits[{j}].name") or f"limit {j + 1}"))
+        mg = _num(m.get("margin_s"), f"{where}.limits[{j}].margin_s")
+        if mg is not None:
+            margins.append(mg)
+    first = min(times) if times else None
+    if res.get("limit_exceeded_at_start") and (first is None or first[0] > 0):
+        first = (0.0, at_start_label)
+    return {
+        "id": _str(res.get("id"), f"{where}.id") or f"#{i + 1}",
+        "title": _str(res.get("title"), f"{where}.title") or "",
+        "verdict": _str(res.get("verdict"), f"{where}.verdict"),
+        "first": first,
+        "margin": min(margins) if margins else None,
+        "warnings": len(_seq(res.get("warnings"), f"{where}.warnings")),
+        "has_limits": bool(_seq(res.get("limits"), f"{where}.limits")),
+    }
+
+
 class _Register:
-    def __init__(self, results, errors, tpl: dict):
+    def __init__(self, results, errors, tpl: dict, summarised: bool = False):
         self.lay = _Layout(tpl)
         self.tx = self.lay.tx
-        self.rows = []
-        for i, res in enumerate(_seq(results, "results")):
-            if not isinstance(res, Mapping):
-                raise MemoInputError(f"results[{i}]: expected a dict, got {type(res).__name__}")
-            self.rows.append(self._summarise(i, res))
+        self.rows = list(results) if summarised else _summary_rows(results, self.L("register_at_start"))
         self.errors = []
         for i, err in enumerate(_seq(errors, "errors")):
             self.errors.append(self._error(i, err))
-
-    def _summarise(self, i: int, res: Mapping) -> dict:
-        where = f"results[{i}]"
-        times, margins = [], []
-        for j, item in enumerate(_seq(res.get("limits"), f"{where}.limits")):
-            m = _mapping(item, f"{where}.limits[{j}]") or {}
-            t = _num(m.get("time_s"), f"{where}.limits[{j}].time_s")
-            reached = m.get("reached")
-            if t is not None and (reached is None or reached):
-                times.append((t, _str(m.get("name"), f"{where}.limits[{j}].name") or f"limit {j + 1}"))
-            mg = _num(m.get("margin_s"), f"{where}.limits[{j}].margin_s")
-            if mg is not None:
-                margins.append(mg)
-        first = min(times) if times else None
-        if res.get("limit_exceeded_at_start") and (first is None or first[0] > 0):
-            first = (0.0, self.L("register_at_start"))
-        return {
-            "id": _str(res.get("id"), f"{where}.id") or f"#{i + 1}",
-            "title": _str(res.get("title"), f"{where}.title") or "",
-            "verdict": _str(res.get("verdict"), f"{where}.verdict"),
-            "first": first,
-            "margin": min(margins) if margins else None,
-            "warnings": len(_seq(res.get("warnings"), f"{where}.warnings")),
-            "has_limits": bool(_seq(res.get("limits"), f"{where}.limits")),
-        }
 
     @staticmethod
     def _error(i: int, err) -> tuple[str, str]:
@@ -2084,10 +2103,13 @@ class _Register:
         # Vessels ordered by smallest margin.
         story += head("register_table", True)
         if self.rows:
+            import heapq
+
             inf = float("inf")
-            ordered = sorted(self.rows, key=lambda r: (r["margin"] is None, r["margin"] if r["margin"] is not None
-                                                       else inf, r["first"] is None,
-                                                       r["first"][0] if r["first"] else inf, r["id"]))
+            # the first rows of the sorted order (heapq.nsmallest equals sorted(...)[:n], ties in input order)
+            ordered = heapq.nsmallest(REGISTER_TABLE_ROWS, self.rows, key=lambda r: (
+                r["margin"] is None, r["margin"] if r["margin"] is not None else inf, r["first"] is None,
+                r["first"][0] if r["first"] else inf, r["id"]))
             header = [lay.P(self.esc(self.L(k)), "head") for k in
                       ("register_rank", "case_id", "title", "verdict", "first_limit", "register_time_first",
                        "register_smallest_margin", "register_warnings")]
@@ -2114,9 +2136,9 @@ class _Register:
             fr = (0.05, 0.12, 0.2, 0.09, 0.16, 0.13, 0.13, 0.12)
             story.append(lay.table(rows, [w * f for f in fr]))
             story.append(lay.P(self.esc(self.L("register_order_note")), "small"))
-            if len(ordered) > REGISTER_TABLE_ROWS:
+            if len(self.rows) > REGISTER_TABLE_ROWS:
                 story.append(lay.P(self.esc(self.L("register_table_truncated", shown=REGISTER_TABLE_ROWS,
-                                                   rest=len(ordered) - REGISTER_TABLE_ROWS)), "small"))
+                                                   rest=len(self.rows) - REGISTER_TABLE_ROWS)), "small"))
         else:
             story.append(lay.P(f"<i>{self.esc(self.L('register_no_results'))}</i>"))
 
@@ -2179,8 +2201,11 @@ REGISTER_TABLE_ROWS = 250
 
 
 def render_register_summary(results: Sequence[Mapping], errors: Sequence = (),
-                            templates_dir: str | os.PathLike | None = None) -> bytes:
+                            templates_dir: str | os.PathLike | None = None, summarised: bool = False) -> bytes:
     """A summary PDF for many screened vessels: verdict counts, vessels by smallest
-    margin, a histogram of time to first limit and the cases that failed to run."""
+    margin, a histogram of time to first limit and the cases that failed to run.
+
+    With ``summarised=True``, ``results`` are rows from :func:`summarise_register_results`.
+    """
     tpl = load_templates(templates_dir)
-    return _Register(results, errors, tpl).build()
+    return _Register(results, errors, tpl, summarised).build()

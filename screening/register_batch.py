@@ -64,9 +64,8 @@ QUANTITY_NAMES = _quantity_field_names()
 class RowOutcome:
     row: int
     id: str | None
-    result: dict | None = None  # slim: what the summary PDF needs
+    result: dict | None = None  # the register summary's row for this vessel (None: not screened)
     json: bytes | None = None  # the full result object, serialised
-    csv: tuple | None = None  # formatted results.csv cells
     problems: list[FieldProblem] = field(default_factory=list)
 
 
@@ -77,17 +76,6 @@ def dumps(obj) -> bytes:
     except ImportError:  # pragma: no cover
         return json.dumps(obj, ensure_ascii=False, allow_nan=False).encode("utf-8")
     return orjson.dumps(obj)
-
-
-SLIM_KEYS = ("id", "title", "verdict", "reasons", "register_row", "limits", "peak_temperature_K", "peak_time_s",
-             "steady_temperature_K", "time_constant_s", "tmr_adiabatic_s", "critical_ambient_temperature_K",
-             "ambient_temperature_K", "t_d24_K", "mtsr_K", "criticality_class", "units", "uncertainty")
-
-
-def _slim(result: dict) -> dict:
-    out = {k: result.get(k) for k in SLIM_KEYS}
-    out["warnings"] = list(result.get("warnings") or [])
-    return out
 
 
 @dataclass
@@ -454,12 +442,13 @@ def _check_limit_names_unique(out, members):
 
 def _row_hash(work: "ChunkWork", cells: list[str]) -> str:
     """sha256 of what defines the row: the base case, the headers and the row's cells."""
-    h = hashlib.sha256(work.base_digest.encode("ascii"))
-    for col in work.columns:
-        cell = cells[col.index] if col.index < len(cells) else ""
-        if cell:
-            h.update(b"\x1f" + col.header.encode("utf-8") + b"\x1e" + cell.encode("utf-8"))
-    return h.hexdigest()
+    prefixes = work.__dict__.get("_hash_prefixes")
+    if prefixes is None:
+        prefixes = work.__dict__["_hash_prefixes"] = [(col.index, b"\x1f" + col.header.encode("utf-8") + b"\x1e")
+                                                      for col in work.columns]
+    n = len(cells)
+    return hashlib.sha256(work.base_digest.encode("ascii") + b"".join(
+        prefix + cells[index].encode("utf-8") for index, prefix in prefixes if index < n and cells[index])).hexdigest()
 
 
 def vectorised_values(prepared_list: list) -> list:
@@ -566,13 +555,15 @@ class ChunkWork:
     memos_dir: str | None
     templates_dir: str | None
     base_digest: str = ""
-    json_part: str | None = None  # file to write this chunk's results.json items to
+    part_stem: str | None = None  # this chunk writes <stem>.json (results.json items) and <stem>.csv (rows)
 
 
 @dataclass
 class ChunkResult:
     outcomes: list[RowOutcome]
     json_part: str | None = None
+    csv_part: str | None = None
+    limit_names: list[str] = field(default_factory=list)  # the results.csv limit columns of csv_part, in order
 
 
 def screen_chunk(work: ChunkWork) -> ChunkResult:
@@ -644,6 +635,7 @@ def _screen_chunk(work: ChunkWork) -> ChunkResult:
 
     validated = validate_rows(ctx, work.rows, build_specs=False, take_group=take_group)
     outcomes: list[RowOutcome] = []
+    screened: list[tuple[RowOutcome, dict]] = []  # rows with a result, and their result objects
     closed, closed_idx = [], []
     prepared_all: list = [None] * len(work.rows)
     for i, item in enumerate(validated):
@@ -719,15 +711,40 @@ def _screen_chunk(work: ChunkWork) -> ChunkResult:
         except (TypeError, ValueError) as exc:
             outcome.problems.append(FieldProblem("(row)", f"internal error: result not serialisable: {exc}"))
             continue
-        outcome.result = _slim(public)
-        outcome.csv = csv_parts(public)
-    if work.json_part is not None:  # hand back a file, not the bytes: cheaper than pickling them
-        with open(work.json_part, "wb") as fh:
-            fh.write(b",\n".join(o.json for o in outcomes if o.json is not None))
-        for o in outcomes:
-            if o.json is not None:
-                o.json = b""  # written
-    return ChunkResult(outcomes, work.json_part)
+        screened.append((outcome, public))
+    return _chunk_outputs(work, outcomes, screened)
+
+
+def _chunk_outputs(work: ChunkWork, outcomes: list[RowOutcome], screened: list) -> ChunkResult:
+    """The chunk's summary rows, and its results.json items and results.csv rows written to part files
+    (handing back files, not bytes, is cheaper than pickling them)."""
+    from .memo_writer import summarise_register_results
+
+    publics = [public for _, public in screened]
+    for (outcome, _), row in zip(screened, summarise_register_results(publics, work.templates_dir)):
+        outcome.result = row
+    parts = [csv_parts(public) for public in publics]
+    names = _limit_names(parts)
+    out = ChunkResult(outcomes, limit_names=names)
+    if work.part_stem is None:
+        return out
+    out.json_part, out.csv_part = work.part_stem + ".json", work.part_stem + ".csv"
+    with open(out.json_part, "wb") as fh:
+        fh.write(b",\n".join(o.json for o in outcomes if o.json is not None))
+    for o in outcomes:
+        o.json = None  # written
+    with open(out.csv_part, "w", encoding="utf-8", newline="") as fh:
+        fh.write(results_csv_from_parts(parts, names, header=False))
+    return out
+
+
+def _limit_names(parts: list) -> list[str]:
+    """Limit names in order of first appearance."""
+    names: dict[str, None] = {}
+    for _, limits, _ in parts:
+        for name in limits:
+            names.setdefault(name)
+    return list(names)
 
 
 def _safe_name(text: str) -> str:
@@ -779,14 +796,15 @@ def csv_parts(r: dict) -> tuple[list, dict, list]:
     return head, limits, tail
 
 
-def results_csv(results: list[dict], limit_names: list[str]) -> str:
-    return results_csv_from_parts([csv_parts(r) for r in results], limit_names)
+def results_csv_header(limit_names: list[str]) -> list[str]:
+    return CSV_HEAD + [f"time_to_limit_h: {n}" for n in limit_names] + CSV_TAIL
 
 
-def results_csv_from_parts(parts: list, limit_names: list[str]) -> str:
+def results_csv_from_parts(parts: list, limit_names: list[str], header: bool = True) -> str:
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\n")
-    w.writerow(CSV_HEAD + [f"time_to_limit_h: {n}" for n in limit_names] + CSV_TAIL)
+    if header:
+        w.writerow(results_csv_header(limit_names))
     w.writerows(head + [limits.get(n, "") for n in limit_names] + tail for head, limits, tail in parts)
     return buf.getvalue()
 
@@ -806,6 +824,61 @@ def errors_csv(errors: list[dict]) -> str:
     for e in errors:
         w.writerow([e["row"], e["id"] or "", e["field"], e["message"]])
     return buf.getvalue()
+
+
+def _append_file(dst, src_path: str) -> None:
+    """Append a file's bytes to the open binary file ``dst`` (in the kernel where the OS can)."""
+    dst.flush()
+    with open(src_path, "rb") as src:
+        size = os.fstat(src.fileno()).st_size
+        copy_range = getattr(os, "copy_file_range", None)
+        done = 0
+        if copy_range is not None:
+            try:
+                while done < size:
+                    step = copy_range(src.fileno(), dst.fileno(), size - done)
+                    if step == 0:
+                        break
+                    done += step
+            except OSError:
+                pass  # not supported between these files: copy the rest below
+        if done < size:
+            src.seek(done)
+            dst.seek(0, os.SEEK_END)
+            shutil.copyfileobj(src, dst, 1 << 20)
+    dst.seek(0, os.SEEK_END)
+
+
+def _write_results_csv(path: Path, chunks: list[ChunkResult]) -> None:
+    """results.csv from the chunks' row files: a column per limit name found in the whole register.
+
+    When a chunk's limit columns are not the register's (names differ between rows), its rows are
+    re-laid under the register's columns.
+    """
+    names: dict[str, None] = {}
+    for chunk in chunks:
+        for name in chunk.limit_names:
+            names.setdefault(name)
+    limit_names = list(names)
+
+    def csv_text(rows) -> bytes:
+        buf = io.StringIO()
+        csv.writer(buf, lineterminator="\n").writerows(rows)
+        return buf.getvalue().encode("utf-8")
+
+    with open(path, "wb") as fh:
+        fh.write(csv_text([results_csv_header(limit_names)]))
+        for chunk in chunks:
+            if chunk.csv_part is None:
+                continue
+            if chunk.limit_names == limit_names:
+                _append_file(fh, chunk.csv_part)
+                continue
+            head, width = len(CSV_HEAD), len(chunk.limit_names)
+            where = {name: head + j for j, name in enumerate(chunk.limit_names)}
+            with open(chunk.csv_part, encoding="utf-8", newline="") as src:
+                fh.write(csv_text(row[:head] + [row[where[nm]] if nm in where else "" for nm in limit_names]
+                                  + row[head + width:] for row in csv.reader(src)))
 
 
 def _swap_in(tmp: Path, out: Path) -> None:
@@ -889,63 +962,51 @@ def _run_into_body(register: Register, base: dict, tmp: Path, out: Path, rules_p
         return ChunkWork(register.columns, base, str(register.path.parent), allow_case_file, rules_path,
                          register.rows[a:b], register.row_numbers[a:b], id_col, register.bad_columns,
                          str(memos_dir) if memos_dir else None, str(templates_dir) if templates_dir else None,
-                         base_digest, str(parts_dir / f"part-{a:09d}.json"))
+                         base_digest, str(parts_dir / f"part-{a:09d}"))
 
     outcomes: list[RowOutcome] = []
-    parts: list[str] = []
-    if workers > 1 and len(spans) > 1:
-        import multiprocessing
+    chunks: list[ChunkResult] = []
+    json_out = open(tmp / "results.json", "wb")
+    json_out.write(b"[")
 
-        if multiprocessing.current_process().daemon:
-            workers = 1  # a daemonic worker (e.g. the service's) cannot start processes of its own
-    if workers <= 1 or len(spans) == 1:
-        for a, b in spans:
-            chunk = screen_chunk(work(a, b))
-            outcomes.extend(chunk.outcomes)
-            parts.append(chunk.json_part)
-            if progress:
-                progress(b, n)
-    else:
-        with ProcessPoolExecutor(max_workers=workers) as pool:
-            futures = [pool.submit(screen_chunk, work(a, b)) for a, b in spans]
-            for (a, b), fut in zip(spans, futures):
-                chunk = fut.result()
-                outcomes.extend(chunk.outcomes)
-                parts.append(chunk.json_part)
-                if progress:
-                    progress(b, n)
+    def take(chunk: ChunkResult, done: int) -> None:
+        """Collect a finished chunk, in order; its results.json items are appended at once."""
+        outcomes.extend(chunk.outcomes)
+        chunks.append(chunk)
+        if chunk.json_part is not None and os.path.getsize(chunk.json_part):
+            if json_out.tell() > 1:
+                json_out.write(b",\n")
+            _append_file(json_out, chunk.json_part)
+        if progress:
+            progress(done, n)
+
+    try:
+        if workers > 1 and len(spans) > 1:
+            import multiprocessing
+
+            if multiprocessing.current_process().daemon:
+                workers = 1  # a daemonic worker (e.g. the service's) cannot start processes of its own
+        if workers <= 1 or len(spans) == 1:
+            for a, b in spans:
+                take(screen_chunk(work(a, b)), b)
+        else:
+            with ProcessPoolExecutor(max_workers=workers) as pool:
+                futures = [pool.submit(screen_chunk, work(a, b)) for a, b in spans]
+                for (a, b), fut in zip(spans, futures):
+                    take(fut.result(), b)
+        json_out.write(b"]\n")
+    finally:
+        json_out.close()
     results = [o.result for o in outcomes if o.result is not None]
     errors = [{"row": 1, "id": None, "field": p.field, "message": p.message} for p in register.header_problems]
     errors += [{"row": o.row, "id": o.id, "field": p.field, "message": p.message}
                for o in outcomes for p in o.problems]
-    limit_names: list[str] = []
-    seen_names: set = set()
-    for o in outcomes:
-        if o.csv is not None:
-            for name in o.csv[1]:
-                if name not in seen_names:
-                    seen_names.add(name)
-                    limit_names.append(name)
-    with open(tmp / "results.json", "wb") as fh:
-        fh.write(b"[")
-        first = True
-        for part in parts:
-            with open(part, "rb") as src:
-                data = src.read()
-            if not data:
-                continue
-            if not first:
-                fh.write(b",\n")
-            fh.write(data)
-            first = False
-        fh.write(b"]\n")
+    _write_results_csv(tmp / "results.csv", chunks)
     shutil.rmtree(parts_dir, ignore_errors=True)
-    (tmp / "results.csv").write_text(results_csv_from_parts([o.csv for o in outcomes if o.csv is not None],
-                                                            limit_names), encoding="utf-8", newline="")
     (tmp / "errors.csv").write_text(errors_csv(errors), encoding="utf-8", newline="")
     from .memo_writer import write_register_summary
 
-    write_register_summary(results, errors, tmp / "summary.pdf", templates_dir=templates_dir)
+    write_register_summary(results, errors, tmp / "summary.pdf", templates_dir=templates_dir, summarised=True)
     counts = {"pass": 0, "review": 0, "fail": 0}
     for r in results:
         counts[r.get("verdict", "review")] = counts.get(r.get("verdict", "review"), 0) + 1

@@ -907,12 +907,22 @@ class KnownQuantities:
     """Quantity values shared by a family of results, and the rule outcomes that follow from them alone.
 
     ``values``: quantity name -> value (as a quantity's extractor returns it).  ``outcomes`` fills as
-    :func:`evaluate` runs: (item position, display unit) -> the item's outcome, for items that read
-    only known quantities (one rule set per KnownQuantities).
+    :func:`evaluate` runs: (rule set, display unit) -> the outcome of each item that reads only known
+    quantities.
     """
 
     values: dict
     outcomes: dict = field(default_factory=dict)
+
+    def fixed_outcomes(self, rule_set: "RuleSet", ev: "_Eval") -> list:
+        """Per item of ``rule_set``: its outcome when it reads only known quantities, else None."""
+        key = (id(rule_set), ev.unit)
+        out = self.outcomes.get(key)
+        if out is None:
+            known = self.values.keys()
+            out = self.outcomes[key] = [item.check(ev) if reads <= known else None
+                                        for item, reads in zip(rule_set.items, rule_set.reads)]
+        return out
 
 
 def constant_quantities(template: dict, varying_keys) -> KnownQuantities:
@@ -1152,15 +1162,9 @@ def evaluate(rule_set: RuleSet, result: dict, known: KnownQuantities | None = No
     not_applicable: list[str] = []
     not_applied: list[tuple[str, str]] = []
     superseded: list[tuple[Finding, tuple[str, ...]]] = []
-    for position, (item, reads) in enumerate(zip(rule_set.items, rule_set.reads)):
-        if known is not None and reads <= known.values.keys():
-            key = (position, ev.unit)
-            outcome = known.outcomes.get(key)
-            if outcome is None:
-                outcome = known.outcomes[key] = item.check(ev)
-            status, finding, missing = outcome
-        else:
-            status, finding, missing = item.check(ev)
+    fixed = known.fixed_outcomes(rule_set, ev) if known is not None else [None] * len(rule_set.items)
+    for item, outcome in zip(rule_set.items, fixed):
+        status, finding, missing = outcome if outcome is not None else item.check(ev)
         if finding is not None:
             if item.superseded_by:
                 superseded.append((finding, item.superseded_by))
