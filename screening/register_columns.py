@@ -194,9 +194,10 @@ def screen_group(rep, rep_index: int, rows: list[list[str]], members: list[int],
     k = max(len(m.decaying_sources), 1)
     P = np.zeros((n, k))
     b = np.zeros((n, k))
-    for j in range(len(m.decaying_sources)):
-        P[:, j] = cols["dpower"][j]
-        b[:, j] = 1.0 / cols["dtau"][j]
+    with np.errstate(divide="ignore"):  # a zero only where a cell was refused (that row goes the general way)
+        for j in range(len(m.decaying_sources)):
+            P[:, j] = cols["dpower"][j]
+            b[:, j] = 1.0 / cols["dtau"][j]
     L = np.full((n, nl + 2), np.nan)  # + boiling point + alarm, unused here (as in vectorised_values)
     for j in range(nl):
         L[:, j] = cols["limit"][j]

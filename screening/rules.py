@@ -919,10 +919,27 @@ class KnownQuantities:
         key = (id(rule_set), ev.unit)
         out = self.outcomes.get(key)
         if out is None:
-            known = self.values.keys()
-            out = self.outcomes[key] = [item.check(ev) if reads <= known else None
+            out = self.outcomes[key] = [item.check(ev) if self._fixed(item, reads) else None
                                         for item, reads in zip(rule_set.items, rule_set.reads)]
         return out
+
+    def _fixed(self, item, reads: frozenset) -> bool:
+        """Whether an item's outcome follows from known quantities alone."""
+        known = self.values
+        if reads <= known.keys():
+            return True
+        # an item whose quantity is known to be missing gives its missing-data outcome, which reads
+        # only that quantity and the placeholders of the missing-data text
+        primary = (item.rows.quantity, item.columns.quantity) if isinstance(item, _Matrix) else (item.quantity,)
+        if not all(q in known for q in primary):
+            return False
+        missing = [known[q] for q in primary if isinstance(known[q], _Missing)]
+        if not missing:
+            return False
+        chosen = next((m for m in missing if m.kind == UNKNOWN), missing[0])
+        spec = item.if_unknown if chosen.kind == UNKNOWN else item.if_not_applicable
+        placeholders = {part[0] for part in (spec.template if spec is not None else ()) if not isinstance(part, str)}
+        return all(q in known for q in placeholders if q in QUANTITIES)
 
 
 def constant_quantities(template: dict, varying_keys) -> KnownQuantities:
