@@ -159,3 +159,33 @@ def test_key_trace_sees_every_read():
     assert traced.seen == {"a", "b", "z"}
     list(traced.items())
     assert "*" in traced.seen
+
+
+def test_results_csv_columns_when_limit_names_differ_between_chunks(tmp_path, monkeypatch):
+    """Chunks with other limit names than the register's are re-laid under the register's columns."""
+    from screening.register_batch import csv_parts, results_csv_from_parts
+
+    header = ["id", "contents.mass [t]", "limits.1.name", "limits.1.temperature [degC]"]
+    rows = [[f"T-{i}", f"{1 + i}", "", ""] for i in range(6)] + [["T-6", "2", "rupture", "140"],
+                                                                 ["T-7", "3", "rupture", "150"]]
+    base = dict(BASE, limits=[BASE["limits"][0]])
+    _, results, errors, text = _run(tmp_path, header, rows, base, False, monkeypatch)
+    assert errors.splitlines() == ["row,id,field,message"]
+    expected = results_csv_from_parts([csv_parts(r) for r in results], ["onset", "rupture"])
+    assert text == expected
+    assert text.splitlines()[0].count("time_to_limit_h") == 2
+
+
+def test_summary_from_rows_in_parts_equals_summary_from_results(monkeypatch):
+    """The register summary built from per-part rows is the PDF built from all the results at once."""
+    from screening.memo_writer import render_register_summary, summarise_register_results
+
+    monkeypatch.setenv("SOURCE_DATE_EPOCH", "1767225600")
+    from memo_fixtures import all_cases
+
+    # more vessels than the summary's table shows (250), so the table is the first of an ordering
+    results = [dict(c, id=f"V-{i:03d}") for i, c in enumerate(all_cases() * 90)]
+    whole = render_register_summary(results)
+    k = len(results) // 2
+    rows = summarise_register_results(results[:k]) + summarise_register_results(results[k:], start=k)
+    assert render_register_summary(rows, summarised=True) == whole
