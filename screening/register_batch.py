@@ -444,11 +444,11 @@ def _row_hash(work: "ChunkWork", cells: list[str]) -> str:
     """sha256 of what defines the row: the base case, the headers and the row's cells."""
     prefixes = work.__dict__.get("_hash_prefixes")
     if prefixes is None:
-        prefixes = work.__dict__["_hash_prefixes"] = [(col.index, b"\x1f" + col.header.encode("utf-8") + b"\x1e")
+        prefixes = work.__dict__["_hash_prefixes"] = [(col.index, "\x1f" + col.header + "\x1e")
                                                       for col in work.columns]
     n = len(cells)
-    return hashlib.sha256(work.base_digest.encode("ascii") + b"".join(
-        prefix + cells[index].encode("utf-8") for index, prefix in prefixes if index < n and cells[index])).hexdigest()
+    text = work.base_digest + "".join(prefix + cells[index] for index, prefix in prefixes if index < n and cells[index])
+    return hashlib.sha256(text.encode("utf-8")).hexdigest()
 
 
 def vectorised_values(prepared_list: list) -> list:
@@ -805,8 +805,29 @@ def results_csv_from_parts(parts: list, limit_names: list[str], header: bool = T
     w = csv.writer(buf, lineterminator="\n")
     if header:
         w.writerow(results_csv_header(limit_names))
-    w.writerows(head + [limits.get(n, "") for n in limit_names] + tail for head, limits, tail in parts)
+    # The last cell (the reasons) is long and mostly one of a few texts: it is quoted once per text,
+    # by the same writer, and the rest of each row goes through the writer as usual.
+    lines: list[str] = []
+    rows = csv.writer(_Lines(lines), lineterminator="\n")
+    single = csv.writer(_Lines(quoted := []), lineterminator="\n")
+    escaped: dict[str, str] = {}
+    for head, limits, tail in parts:
+        rows.writerow(head + [limits.get(n, "") for n in limit_names] + tail[:-1])
+        last = tail[-1]
+        cell = escaped.get(last)
+        if cell is None:
+            single.writerow([last])
+            cell = escaped[last] = quoted.pop()[:-1] if last != "" else ""  # a lone "" is written '""'
+        lines[-1] = f"{lines[-1][:-1]},{cell}\n"
+    buf.write("".join(lines))
     return buf.getvalue()
+
+
+class _Lines:
+    """A file-like sink that keeps each write (one CSV line) as a list item."""
+
+    def __init__(self, lines: list):
+        self.write = lines.append
 
 
 def _uncertainty_columns(unc) -> list[str]:

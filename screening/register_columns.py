@@ -26,6 +26,7 @@ way, where it gets exactly the errors a case file would.
 from __future__ import annotations
 
 import math
+import re
 from dataclasses import dataclass
 
 import numpy as np
@@ -124,6 +125,16 @@ def _parse_column(v: _Varying, cells: list[str]):
             scale, offset = unit_factor(col.unit, marker.dimension)
         except UnitError:
             return si, texts, None, [False] * n
+    if scale is not None and _all_plain_numbers(cells):  # the usual case: the whole column at once
+        with np.errstate(over="ignore", invalid="ignore"):
+            values = np.array(list(map(float, cells)), dtype=float) * scale + offset
+            good = np.isfinite(values)
+            if check in ("positive", "absolute"):
+                good &= values > 0
+            elif check == "nonnegative":
+                good &= values >= 0
+        suffix = " " + col.unit
+        return values.tolist(), [cell.strip() + suffix for cell in cells], None, good.tolist()
     for i, cell in enumerate(cells):
         if scale is not None and _NUMBER_ONLY.match(cell):
             value = float(cell) * scale + offset
@@ -152,6 +163,18 @@ def _parse_column(v: _Varying, cells: list[str]):
     return si, texts, sources, ok
 
 
+_SEPARATOR = "\x1f"
+_PLAIN_NUMBERS = re.compile(r"[ \t]*[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?[ \t]*"
+                            r"(?:\x1f[ \t]*[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?[ \t]*)*")
+
+
+def _all_plain_numbers(cells: list[str]) -> bool:
+    """Whether every cell is a plain number (a stricter test than the per-cell one: False sends the
+    column to the per-cell parse, never a wrong value through)."""
+    joined = _SEPARATOR.join(cells)
+    return joined.count(_SEPARATOR) == len(cells) - 1 and _PLAIN_NUMBERS.fullmatch(joined) is not None
+
+
 @dataclass
 class GroupResults:
     """Results of the rows a uniform group screened: row index -> public result (without a verdict)."""
@@ -169,8 +192,6 @@ def screen_group(rep, rep_index: int, rows: list[list[str]], members: list[int],
     input hash and ``rep_result_of(values)`` the representative's public result from the general path
     for the given ClosedFormValues (the self-check).
     """
-    from .screening_run import ClosedFormValues
-
     idx = [rep_index] + list(members)  # the representative first: it is rebuilt for the self-check
     n = len(idx)
     ok = np.ones(n, dtype=bool)
@@ -212,50 +233,10 @@ def screen_group(rep, rep_index: int, rows: list[list[str]], members: list[int],
     ok &= engine_ok
     if not ok[0]:
         return GroupResults({}, list(members))
-    # per-row numbers, as screen_closed_form computes them
-    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        tau = C / G
-        steady_lossy = Q0 / G
-        pa = np.zeros(n)
-        for j in range(len(m.decaying_sources)):
-            pa = pa + cols["dpower"][j] * cols["dtau"][j]
-        steady_adiabatic = cols["T0"] + pa / C
-        rise = pa / C
-    tau_ok = (G > 0) & np.isfinite(tau)
-    steady = np.where(G > 0, np.where(np.isfinite(steady_lossy), steady_lossy, np.nan),
-                      np.where(Q0 == 0, steady_adiabatic, np.nan))
-    lists = {name: arr.tolist() for name, arr in (("tau", tau), ("steady", steady), ("C", C), ("rise", rise),
-                                                   ("peak_T", summary.peak_temperature), ("peak_t", summary.peak_time),
-                                                   ("end_T", summary.end_temperature),
-                                                   ("end_rate", summary.end_rate))}
-    tau_ok_l = tau_ok.tolist()
-    t_list = times[:, :nl].tolist()
-    ad_list = ad_times.tolist()
-    scalars = {key: cols[key].tolist() for key in ("T0", "Ta", "ua", "H")}
-    limit_temps = [arr.tolist() for arr in cols["limit"]]
-    response = cols["response"]
-    response_l = response.tolist() if isinstance(response, np.ndarray) else None
-    names = [lim.name for lim in m.limits]
-
-    ok_l = ok.tolist()
-
-    def values_of(r: int) -> ClosedFormValues:
-        conv = lambda v: None if v != v else v  # noqa: E731  (NaN: not reached)
-        return ClosedFormValues([conv(t) for t in t_list[r]], None, None, (lists["peak_T"][r], lists["peak_t"][r]),
-                                lists["end_T"][r], lists["end_rate"][r], [conv(t) for t in ad_list[r]])
-
-    def build(r: int, cells) -> dict:
-        resp = response_l[r] if response_l is not None else rep.response_time
-        v = values_of(r)
-        return builder.result(r, cells, row_hash(cells), v, names, [lt[r] for lt in limit_temps],
-                              lists["tau"][r] if tau_ok_l[r] else None,
-                              None if lists["steady"][r] != lists["steady"][r] else lists["steady"][r],
-                              lists["C"][r], lists["rise"][r], resp,
-                              *(scalars[key][r] for key in ("T0", "Ta", "ua", "H")))
-
-    reference = rep_result_of(values_of(0))
-    builder = _RowBuilder(rep, plan, parsed, dict(reference))
-    mine = build(0, rows[rep_index])
+    numbers = _GroupNumbers(rep, cols, C, G, Q0, times[:, :nl], summary, ad_times)
+    reference = rep_result_of(numbers.values_of(0))
+    builder = _RowBuilder(rep, plan, parsed, numbers, dict(reference))
+    mine = builder.result(0, row_hash(rows[rep_index]))
     reference["input_hash"] = mine["input_hash"]
     if mine != reference:
         if STRICT_SELF_CHECK:
@@ -263,13 +244,64 @@ def screen_group(rep, rep_index: int, rows: list[list[str]], members: list[int],
             raise SelfCheckError(f"columnar and general results of the representative differ in {diff}")
         return GroupResults({}, list(members))
     results, left = {}, []
-    for r in range(1, n):
+    for r, good in enumerate(ok.tolist()):
+        if r == 0:
+            continue
         i = idx[r]
-        if ok_l[r]:
-            results[i] = build(r, rows[i])
+        if good:
+            results[i] = builder.result(r, row_hash(rows[i]))
         else:
             left.append(i)
     return GroupResults(results, left, builder.template)
+
+
+def _nullable(a: np.ndarray) -> list:
+    """Python floats, None where NaN (not reached / not defined)."""
+    out = a.astype(object)
+    out[np.isnan(a)] = None
+    return out.tolist()
+
+
+class _GroupNumbers:
+    """Per-row numbers of a group as Python lists, computed as screen_closed_form computes them."""
+
+    def __init__(self, rep, cols: dict, C, G, Q0, times, summary, ad_times):
+        m = rep.model
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            tau = C / G
+            steady_lossy = Q0 / G
+            pa = np.zeros(len(C))
+            for j in range(len(m.decaying_sources)):
+                pa = pa + cols["dpower"][j] * cols["dtau"][j]
+            steady_adiabatic = cols["T0"] + pa / C
+            rise = pa / C
+        tau = np.where((G > 0) & np.isfinite(tau), tau, np.nan)
+        steady = np.where(G > 0, np.where(np.isfinite(steady_lossy), steady_lossy, np.nan),
+                          np.where(Q0 == 0, steady_adiabatic, np.nan))
+        self.tau, self.steady = _nullable(tau), _nullable(steady)
+        self.C, self.rise = C.tolist(), rise.tolist()
+        self.T0, self.Ta, self.ua, self.H = (cols[k].tolist() for k in ("T0", "Ta", "ua", "H"))
+        self.peak_T, self.peak_t = summary.peak_temperature.tolist(), summary.peak_time.tolist()
+        self.end_T, self.end_rate = summary.end_temperature.tolist(), summary.end_rate.tolist()
+        self.times, self.ad_times = _nullable(times), _nullable(ad_times)
+        self.limit_T = np.stack(cols["limit"], axis=1).tolist() if cols["limit"] else [[]] * len(C)
+        self.response = cols["response"].tolist() if cols["response"] is not None else [None] * len(C)
+        detection = rep.detection_delay if rep.detection_delay is not None else 0.0
+        self.detection = detection
+        # rows that need a warning text (the same conditions as screen_closed_form / detection_and_recovery)
+        with np.errstate(invalid="ignore"):
+            flags = (np.isnan(tau) | ~(cols["H"] < tau)) & ~(summary.end_rate > 0) & ~(G == 0) \
+                & ~(times == 0.0).any(axis=1)
+            if cols["response"] is not None:
+                flags &= ~(cols["H"] < cols["response"] + (detection or 0.0))
+        self.plain = flags.tolist()  # True: no closed-form warning for this row (the rising check needs a
+        #                               limit not reached, so end_rate > 0 alone sends a row to the full test)
+
+    def values_of(self, r: int):
+        from .screening_run import ClosedFormValues
+
+        return ClosedFormValues(self.times[r], None, None, (self.peak_T[r], self.peak_t[r]), self.end_T[r],
+                                self.end_rate[r], self.ad_times[r])
 
 
 def _model_columns(rep, plan: list[_Varying], parsed: dict, n: int) -> dict:
@@ -301,76 +333,88 @@ def _model_columns(rep, plan: list[_Varying], parsed: dict, n: int) -> dict:
 class _RowBuilder:
     """Writes one row's numbers into a copy of the representative's result object."""
 
-    def __init__(self, rep, plan: list[_Varying], parsed: dict, template: dict):
+    def __init__(self, rep, plan: list[_Varying], parsed: dict, numbers: _GroupNumbers, template: dict):
         from .case_to_model import _display_unit_from_texts
         from .register_batch import _is_absolute_temperature
         from .screening_run import biot_and_validity
 
         self.rep = rep
-        self.plan = plan
-        self.parsed = parsed
-        self.display_unit = _display_unit_from_texts
-        self.unit_cache: dict = {}
+        self.numbers = numbers
+        self.names = [lim.name for lim in rep.model.limits]
         extra = {"warnings": []}
         biot_and_validity(rep, extra)  # depends on nothing a row varies here
         self.tail_warnings = extra["warnings"]
         self.assumptions = extra["assumptions"]
         positions = {item["field"]: p for p, item in enumerate(rep.inputs)}
-        self.input_slots = []  # (position in inputs, varying column)
+        self.input_slots = []  # (position, field, SI unit, SI values, texts, sources) of each varying input
         for v in plan:
             if v.marker is not None and v.field in positions:
-                self.input_slots.append((positions[v.field], v))
-        self.abs_temperature = [p for p, item in enumerate(rep.inputs)
-                                if item["unit_si"] == "K" and _is_absolute_temperature(item["field"])]
-        self.text_of = {v.kind: v for v in plan if v.marker is None}
+                pos = positions[v.field]
+                si, texts, sources = parsed[id(v)]
+                self.input_slots.append((pos, v.field, rep.inputs[pos]["unit_si"], si, texts, sources))
+        abs_positions = [p for p, item in enumerate(rep.inputs)
+                         if item["unit_si"] == "K" and _is_absolute_temperature(item["field"])]
+        varying_texts = {pos: texts for pos, _, _, _, texts, _ in self.input_slots}
+        # the display unit: from the unit words of the absolute temperatures (fixed unless a cell gives its own)
+        self.unit_words = [(varying_texts.get(p), rep.inputs[p]["text"].split(None, 1)[-1]) for p in abs_positions]
+        self.display_unit = _display_unit_from_texts
+        self.unit_cache: dict = {}
+        self.texts = [(kind, parsed[id(v)][0]) for kind in ("id", "title") for v in plan
+                      if v.marker is None and v.kind == kind]
         self.template = template
 
-    def result(self, r, cells, input_hash, values, names, limit_temps, tau, steady, C, rise, response,
-               T0, Ta, ua, H) -> dict:
-        from .screening_run import (ADIABATIC_WARNING, limit_at_start_warning, response_beyond_horizon_warning,
-                                    short_horizon_warning, still_rising_warning)
-
-        rep = self.rep
-        inputs = list(rep.inputs)
-        for pos, v in self.input_slots:
-            si, texts, sources = self.parsed[id(v)]
-            item = inputs[pos]
-            inputs[pos] = {"field": item["field"], "text": texts[r], "value_si": si[r], "unit_si": item["unit_si"],
-                           "source": sources[r] if sources is not None else None}
-        key = tuple(inputs[p]["text"].split(None, 1)[-1] for p in self.abs_temperature)
+    def _unit(self, r: int) -> str:
+        key = tuple(fixed if texts is None else texts[r].split(None, 1)[-1] for texts, fixed in self.unit_words)
         unit = self.unit_cache.get(key)
         if unit is None:
             unit = self.unit_cache[key] = self.display_unit(["0 " + t for t in key])
-        detection = rep.detection_delay if rep.detection_delay is not None else 0.0
+        return unit
+
+    def result(self, r: int, input_hash: str) -> dict:
+        rep, g = self.rep, self.numbers
+        inputs = list(rep.inputs)
+        for pos, field, unit_si, si, texts, sources in self.input_slots:
+            inputs[pos] = {"field": field, "text": texts[r], "value_si": si[r], "unit_si": unit_si,
+                           "source": sources[r] if sources is not None else None}
+        unit = self._unit(r)
+        response, detection = g.response[r], g.detection
+        times = g.times[r]
+        limit_rows = [{"name": name, "temperature_K": lt, "time_s": t, "reached": t is not None,
+                       "margin_s": t - (detection + response) if t is not None and response is not None else None}
+                      for name, lt, t in zip(self.names, g.limit_T[r], times)]
         warnings = list(rep.warnings)
-        limit_rows, ad_rows = [], []
-        for name, lt, t, ta in zip(names, limit_temps, values.limit_times, values.adiabatic_limit_times):
-            margin = t - (detection + response) if t is not None and response is not None else None
-            limit_rows.append({"name": name, "temperature_K": lt, "time_s": t, "reached": t is not None,
-                               "margin_s": margin})
-            ad_rows.append({"name": name, "time_s": ta})
-            if t == 0.0:
-                warnings.append(limit_at_start_warning(name, lt, T0, unit))
-        if tau is not None and H < tau:
-            warnings.append(short_horizon_warning(H, tau))
-        if values.end_rate > 0 and any(not row["reached"] for row in limit_rows):
-            warnings.append(still_rising_warning(values.end_temperature, values.end_rate, steady, unit))
-        if ua + 0.0 == 0:
-            warnings.append(ADIABATIC_WARNING)
-        if response is not None and H < response + (detection or 0.0):
-            warnings.append(response_beyond_horizon_warning(H))
-        warnings.extend(self.tail_warnings)
+        if not g.plain[r]:
+            warnings += self._warnings(r, limit_rows, unit)
+        warnings += self.tail_warnings
         out = dict(self.template)
-        for kind in ("id", "title"):
-            v = self.text_of.get(kind)
-            if v is not None:
-                out[kind] = self.parsed[id(v)][0][r]
-        out.update(time_constant_s=tau, peak_temperature_K=values.peak[0], peak_time_s=values.peak[1],
-                   steady_temperature_K=steady, limits=limit_rows,
-                   adiabatic={"limits": ad_rows, "temperature_rise_K": rise}, warnings=warnings,
-                   detection_time_s=detection, response_time_s=response, initial_temperature_K=T0,
-                   ambient_temperature_K=Ta, horizon_s=H, heat_capacity_J_per_K=C, ua_W_per_K=ua,
-                   limit_exceeded_at_start=any(row["time_s"] == 0.0 for row in limit_rows),
+        for kind, values in self.texts:
+            out[kind] = values[r]
+        out.update(time_constant_s=g.tau[r], peak_temperature_K=g.peak_T[r], peak_time_s=g.peak_t[r],
+                   steady_temperature_K=g.steady[r], limits=limit_rows,
+                   adiabatic={"limits": [{"name": name, "time_s": t} for name, t in zip(self.names, g.ad_times[r])],
+                              "temperature_rise_K": g.rise[r]},
+                   warnings=warnings, detection_time_s=detection, response_time_s=response,
+                   initial_temperature_K=g.T0[r], ambient_temperature_K=g.Ta[r], horizon_s=g.H[r],
+                   heat_capacity_J_per_K=g.C[r], ua_W_per_K=g.ua[r], limit_exceeded_at_start=0.0 in times,
                    assumptions=list(self.assumptions), inputs=inputs, units={"temperature": unit},
                    input_hash=input_hash)
+        return out
+
+    def _warnings(self, r: int, limit_rows: list, unit: str) -> list[str]:
+        """The closed-form warnings of one row, in screen_closed_form's order and with its texts."""
+        from .screening_run import (ADIABATIC_WARNING, limit_at_start_warning, response_beyond_horizon_warning,
+                                    short_horizon_warning, still_rising_warning)
+
+        g = self.numbers
+        H, tau, response = g.H[r], g.tau[r], g.response[r]
+        out = [limit_at_start_warning(row["name"], row["temperature_K"], g.T0[r], unit)
+               for row in limit_rows if row["time_s"] == 0.0]
+        if tau is not None and H < tau:
+            out.append(short_horizon_warning(H, tau))
+        if g.end_rate[r] > 0 and any(not row["reached"] for row in limit_rows):
+            out.append(still_rising_warning(g.end_T[r], g.end_rate[r], g.steady[r], unit))
+        if g.ua[r] + 0.0 == 0:
+            out.append(ADIABATIC_WARNING)
+        if response is not None and H < response + (g.detection or 0.0):
+            out.append(response_beyond_horizon_warning(H))
         return out
