@@ -940,10 +940,13 @@ def run_batch(register_path, out_dir, base_path=None, rules_path=None, memos=Fal
     return summary.as_dict()
 
 
+CHUNK_ROWS = 5000  # at most this many rows per chunk: smaller chunks keep a worker's data in cache
+
+
 def _chunks(n: int, workers: int) -> list[tuple[int, int]]:
     if n == 0:
         return [(0, 0)]
-    size = max(1, math.ceil(n / max(1, workers * 4)))
+    size = max(1, min(CHUNK_ROWS, math.ceil(n / max(1, workers * 4))))
     return [(a, min(n, a + size)) for a in range(0, n, size)]
 
 

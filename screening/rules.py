@@ -108,6 +108,7 @@ import re
 import tomllib
 import typing
 from dataclasses import dataclass, field
+import contextvars
 import functools
 from functools import lru_cache
 from pathlib import Path
@@ -238,6 +239,30 @@ def _safe(fn: Callable[[dict], Any]) -> Callable[[dict], Any]:
     return wrapped
 
 
+_MEMO: contextvars.ContextVar = contextvars.ContextVar("rule_evaluation_memo", default=None)
+
+
+def _per_evaluation(fn):
+    """A pure helper several quantities call: computed once per result while :func:`evaluate` runs."""
+    name = fn.__name__
+
+    def wrapped(r):
+        memo = _MEMO.get()
+        if memo is None:
+            return fn(r)
+        key = (name, id(r))
+        try:
+            return memo[key]
+        except KeyError:
+            value = memo[key] = fn(r)
+            return value
+
+    wrapped.__name__ = name
+    wrapped.__doc__ = fn.__doc__
+    return wrapped
+
+
+@_per_evaluation
 def _limits(r: dict) -> list[dict]:
     return [lim for lim in (r.get("limits") or []) if isinstance(lim, dict)]
 
@@ -259,6 +284,7 @@ _NO_RESPONSE = "response time not given"
 _NO_ALARM = "the alarm does not sound within the horizon"
 
 
+@_per_evaluation
 def _reached_times(r: dict) -> list[tuple[float, dict]]:
     out = []
     for lim in _limits(r):
@@ -296,6 +322,7 @@ def _q_detection_time(r):
     return _Missing(UNKNOWN, _NO_ALARM) if v is None else (v, None)
 
 
+@_per_evaluation
 def _deadline(r) -> float | _Missing:
     resp = _num(r, "response_time_s")
     if resp is None:
@@ -1173,6 +1200,14 @@ def evaluate(rule_set: RuleSet, result: dict, known: KnownQuantities | None = No
 
     ``known``: quantities already established for this result (see :func:`constant_quantities`).
     """
+    token = _MEMO.set({})
+    try:
+        return _evaluate(rule_set, result, known)
+    finally:
+        _MEMO.reset(token)
+
+
+def _evaluate(rule_set: RuleSet, result: dict, known: KnownQuantities | None) -> Verdict:
     ev = _Eval(result, known.values if known is not None else None)
     fired: list[Finding] = []
     clear: list[str] = []
