@@ -75,6 +75,10 @@ async def _burst(url: str, bodies: list[bytes], registers: list[bytes], base: by
         results = await asyncio.gather(*checks, *jobs)
         wall = time.perf_counter() - t0
         answers, job_ids = results[:len(bodies)], results[len(bodies):]
+    # Poll with a client of its own: the burst's pooled connections may sit idle past the server's
+    # keep-alive timeout (5 s) on a slow machine, and a request sent on one just as the server closes
+    # it fails without an answer (ordinary HTTP keep-alive behaviour, not a lost request).
+    async with httpx.AsyncClient(base_url=url, timeout=httpx.Timeout(180.0)) as client:
         states = {}
         deadline = time.monotonic() + 180
         while len(states) < len(job_ids):
