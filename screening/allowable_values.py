@@ -7,7 +7,6 @@ bisection on the full screening (engine and rule set), to a relative width of
 """
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, replace
 
 from .case_schema import CaseError, CaseSpec, FieldProblem, Quantity

@@ -241,8 +241,6 @@ def batch(register: Path = typer.Argument(..., help="Register of vessels (.csv o
         progress = None
         bar = None
         if sys.stderr.isatty():
-            from .register_reading import read_register  # noqa: F401 - cheap
-
             bar = _Progress()
             progress = bar.advance
         try:

@@ -6,7 +6,7 @@ into a :class:`ScreeningModel`; the physics functions never see units objects.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 GAS_CONSTANT = 8.314462618  # J/(mol K), CODATA 2018
 

@@ -31,9 +31,9 @@ from typing import Any
 
 import numpy as np
 
-from .case_schema import (ArrheniusSpec, CaseError, CaseSpec, FieldProblem, QuantityField, quantity_field,
+from .case_schema import (CaseError, CaseSpec, FieldProblem, QuantityField, quantity_field,
                           validate_case_data)
-from .register_reading import CASE_FILE_COLUMN, Column, Register, RegisterError, read_register
+from .register_reading import CASE_FILE_COLUMN, Column, Register, read_register
 
 PARALLEL_THRESHOLD = 4000  # rows; below this a single process is faster than starting workers
 FREE_TEXT_FIELDS = {"id", "title", "label", "name", "prepared_by", "prepared_for", "revision", "notes", "date"}
@@ -1098,12 +1098,6 @@ def _direct_updater(rep, path: tuple):
 
 
 _UNIT_CACHE: dict = {}
-
-
-def replace_dc(obj, **changes):
-    from dataclasses import replace
-
-    return replace(obj, **changes)
 
 
 def direct_prepared(rep, updates: list):

@@ -110,7 +110,6 @@ import typing
 from dataclasses import dataclass, field
 import contextvars
 import functools
-from functools import lru_cache
 from pathlib import Path
 from typing import Any, Callable
 

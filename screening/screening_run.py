@@ -12,7 +12,7 @@ import numpy as np
 
 from . import __version__
 from .case_to_model import PreparedCase
-from .closed_form_history import LinearBalance, linear_balance, steady_temperature, temperature, temperature_rate
+from .closed_form_history import LinearBalance, linear_balance, temperature
 from .model import ScreeningModel
 from .time_to_limit import first_crossing, history_shape
 from .units import kelvin_to
@@ -341,7 +341,6 @@ def detection_and_recovery(prepared: PreparedCase, result: dict, balance=None, a
             reached.append(lim.name)
         elif first_crossing(rec, lim.temperature, H - start, rshape) is not None:
             reached.append(lim.name)
-    pre_peak_T = max(float(temperature(balance, 0.0)), T_start)
     peak_T, peak_t = (rshape.peak_temperature, start + rshape.peak_time)
     pre = history_shape(balance, start)
     if pre.peak_temperature > peak_T:
@@ -356,7 +355,6 @@ def detection_and_recovery(prepared: PreparedCase, result: dict, balance=None, a
 
 def biot_and_validity(prepared: PreparedCase, result: dict) -> None:
     model = prepared.model
-    unit = prepared.display_temperature_unit
     result["mixing"] = model.mixing
     result["biot_number"] = None
     result.setdefault("assumptions", [])

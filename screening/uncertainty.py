@@ -16,7 +16,7 @@ vectorised Rosenbrock integrator for Arrhenius sources
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
