@@ -117,7 +117,7 @@ def main(argv=None) -> int:
 
     print(f"heatscreen register benchmark on {os.cpu_count()} cores, Python {sys.version.split()[0]}")
     print(f"machine speed now: {python_loop_seconds():.2f} s for a plain Python loop of 10 million additions "
-          f"(a shared virtual machine runs it anywhere from about 0.65 s, quiet, to 1.3 s, busy)")
+          f"(lower is faster; on the project's shared virtual machine it has taken from 0.35 s to 1.3 s)")
     print()
     # --- baseline: per-case solve_ivp loop with an event, on a sample
     data = eb.synthetic_register(max(args.sample, 1000), seed=7)
