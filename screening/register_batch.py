@@ -586,7 +586,9 @@ def _structural_problems(work: ChunkWork, cells: list[str]) -> list[FieldProblem
         if index < len(cells) and cells[index].strip():
             problems.append(FieldProblem(f"(column {index + 1})", f"a value under the header '{header}', "
                                          f"which is not a valid field path; the row is not screened"))
-    width = max([c.index for c in work.columns] + list(work.bad_columns) + [-1]) + 1
+    width = work.__dict__.get("_width")
+    if width is None:
+        width = work.__dict__["_width"] = max([c.index for c in work.columns] + list(work.bad_columns) + [-1]) + 1
     if len(cells) > width and any(c.strip() for c in cells[width:]):
         problems.append(FieldProblem("(row)", "values in columns without a header; the row is not screened"))
     return problems
@@ -602,7 +604,7 @@ def _screen_chunk(work: ChunkWork) -> ChunkResult:
     rep_inputs: dict[int, list[dict]] = {}
     rep_prepared: dict[int, object] = {}
     rule_set = rules_mod.load_rule_set(work.rules_path)
-    columnar: dict[int, dict] = {}  # row index -> result, from uniform groups
+    columnar: dict[int, tuple] = {}  # row index -> (result object, its group's known rule quantities)
 
     def prepared_rep(rep_index, rep_spec):
         if rep_index not in rep_prepared:
@@ -643,7 +645,6 @@ def _screen_chunk(work: ChunkWork) -> ChunkResult:
         cells = work.rows[i]
         if item is None:  # screened with its uniform group
             outcomes.append(RowOutcome(row_no, columnar[i][0]["id"]))
-            prepared_all[i] = (None, columnar[i])
             continue
         spec, problems, data = item[:3]
         hint = item[3] if len(item) > 3 else None
@@ -683,13 +684,14 @@ def _screen_chunk(work: ChunkWork) -> ChunkResult:
         outcomes.append(outcome)
     values = dict(zip(closed_idx, vectorised_values(closed)))
     for i, outcome in enumerate(outcomes):
-        if prepared_all[i] is None or outcome.problems:
+        if i in columnar:
+            result, known = columnar[i]
+            prep = None
+        elif prepared_all[i] is None or outcome.problems:
             continue
-        prep, case_hash = prepared_all[i]
-        known = None
-        if prep is None:
-            result, known = case_hash  # a uniform group's result object and its group's known quantities
         else:
+            prep, case_hash = prepared_all[i]
+            known = None
             try:
                 result = screen_prepared(prep, case_hash, values=values.get(i),
                                          with_history=work.memos_dir is not None)

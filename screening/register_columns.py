@@ -112,10 +112,6 @@ def _parse_column(v: _Varying, cells: list[str]):
     from .units import UnitError, unit_factor
 
     n = len(cells)
-    si = [0.0] * n
-    texts = [""] * n
-    sources = None
-    ok = [True] * n
     marker, col = v.marker, v.col
     check = marker.check
     validator = None
@@ -124,7 +120,7 @@ def _parse_column(v: _Varying, cells: list[str]):
         try:
             scale, offset = unit_factor(col.unit, marker.dimension)
         except UnitError:
-            return si, texts, None, [False] * n
+            return [0.0] * n, [""] * n, None, [False] * n
     if scale is not None and _all_plain_numbers(cells):  # the usual case: the whole column at once
         with np.errstate(over="ignore", invalid="ignore"):
             values = np.array(list(map(float, cells)), dtype=float) * scale + offset
@@ -135,6 +131,7 @@ def _parse_column(v: _Varying, cells: list[str]):
                 good &= values >= 0
         suffix = " " + col.unit
         return values.tolist(), [cell.strip() + suffix for cell in cells], None, good.tolist()
+    si, texts, sources, ok = [0.0] * n, [""] * n, None, [True] * n
     for i, cell in enumerate(cells):
         if scale is not None and _NUMBER_ONLY.match(cell):
             value = float(cell) * scale + offset
