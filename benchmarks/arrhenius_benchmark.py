@@ -1,4 +1,4 @@
-"""Throughput, accuracy and memory of screening.vectorised_arrhenius in one run.
+"""Throughput, accuracy and memory of screening.core.arrhenius_history_batch in one run.
 
     python benchmarks/arrhenius_benchmark.py                # 100,000 samples per mix
     python benchmarks/arrhenius_benchmark.py --n 20000 --check 60
@@ -29,8 +29,8 @@ from scipy.integrate import solve_ivp
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from screening.model import GAS_CONSTANT  # noqa: E402
-from screening.vectorised_arrhenius import ArrheniusSamples, first_crossing_times_arrhenius  # noqa: E402
+from screening.core.model import GAS_CONSTANT
+from screening.core.arrhenius_history_batch import ArrheniusSamples, first_crossing_times_arrhenius
 
 R = GAS_CONSTANT
 HOUR = 3600.0

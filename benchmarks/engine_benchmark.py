@@ -29,9 +29,9 @@ import numpy as np
 
 sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), ".."))
 
-from screening.closed_form_history import LinearBalance  # noqa: E402
-from screening.time_to_limit import first_crossing, history_shape  # noqa: E402
-from screening.vectorised_engine import first_crossing_times  # noqa: E402
+from screening.core.closed_form_history import LinearBalance
+from screening.core.time_to_limit import first_crossing, history_shape
+from screening.core.time_to_limit_batch import first_crossing_times
 
 HOUR = 3600.0
 

@@ -39,7 +39,7 @@ sys.path.insert(0, str(ROOT))
 sys.path.insert(0, str(ROOT / "benchmarks"))
 
 import engine_benchmark as eb  # noqa: E402
-from screening.vectorised_engine import first_crossing_times  # noqa: E402
+from screening.core.time_to_limit_batch import first_crossing_times
 
 BASE = """id: BASE
 contents: {specific_heat: 3 kJ/(kg*K), initial_temperature: 25 degC}

@@ -15,6 +15,8 @@ from typing import Optional
 
 import typer
 
+from screening.resources import demo_cases
+
 app = typer.Typer(add_completion=False, no_args_is_help=True, pretty_exceptions_enable=False,
                   help="Loss-of-cooling and runaway screening for vessels. Screening estimates only: not a design "
                        "or relief-sizing calculation; defer to codes, test data and qualified review.")
@@ -41,56 +43,6 @@ def _fail_internal(exc: BaseException) -> None:
     raise typer.Exit(EXIT_INTERNAL)
 
 
-def screen_file(path: str, rules_path: str | None = None):
-    """Load, validate and screen one case file; returns the full result dict."""
-    from .case_files import load_case_file
-    from .case_to_model import prepare_case
-    from .screening_run import screen_prepared
-
-    loaded = load_case_file(path)
-    prepared = prepare_case(loaded.spec)
-    result = screen_prepared(prepared, loaded.input_hash)
-    apply_rules(result, rules_path)
-    result["allowable_values"] = allowable_for_uncertain_inputs(prepared, rules_path)
-    return result
-
-
-def allowable_for_uncertain_inputs(prepared, rules_path):
-    """Allowable values of each uncertain input over its 0.5-99.5 % range (closed-form cases only)."""
-    plan = prepared.uncertainty_plan
-    if plan is None:
-        return None
-    if prepared.model.arrhenius_sources:
-        return [{"input": inp.path, "unit": "", "nominal": None, "range": None, "changes": [], "scan": [],
-                 "note": "not computed for cases with Arrhenius sources (each point needs a stiff integration); "
-                         "run heatscreen margin CASE --vary " + inp.path} for inp in plan.inputs]
-    from .allowable_values import find_allowable_values
-    from .uncertainty import physically_possible, quantile
-
-    out = []
-    for inp in plan.inputs:
-        lo, hi = quantile(inp, 0.005), quantile(inp, 0.995)
-        import numpy as np
-
-        if not physically_possible(inp, np.array([lo]))[0]:
-            lo = inp.nominal * 1e-3 if inp.nominal > 0 else lo
-        report = find_allowable_values(prepared, inp.path, lo, hi, 21, rules_path)
-        report.pop("scan", None)
-        report["note"] += (" The verdict at each point is that of the case's own values with this one input "
-                           "changed; the Monte Carlo probabilities are not re-run.")
-        out.append(report)
-    return out
-
-
-def apply_rules(result: dict, rules_path: str | None) -> None:
-    try:
-        from . import rules
-    except ImportError:  # pragma: no cover - rules not available
-        return
-    rule_set = rules.load_rule_set(rules_path)
-    rules.apply_verdict(result, rules.evaluate(rule_set, result))
-
-
 def _exit_for(results: list[dict]) -> int:
     return EXIT_REVIEW if any(r.get("verdict") in ("review", "fail") for r in results) else EXIT_OK
 
@@ -113,7 +65,7 @@ def write_atomic_text(path: Path, text: str) -> None:
 def history_csv(result: dict) -> str:
     from io import StringIO
 
-    from .units import kelvin_to
+    from screening.case.units import kelvin_to
 
     unit = result["units"]["temperature"]
     h = result["_history"]
@@ -127,7 +79,7 @@ def history_csv(result: dict) -> str:
 
 def _guard(fn):
     """Run a command body: input problems -> exit 2, anything unexpected -> exit 3."""
-    from .case_schema import CaseError
+    from screening.case.schema import CaseError
 
     try:
         return fn()
@@ -150,11 +102,11 @@ def _guard(fn):
 
 def _rule_error(exc):
     try:
-        from .rules import RuleSetError
+        from screening.verdict.rule_file import RuleSetError
     except ImportError:  # pragma: no cover
         return None
     if isinstance(exc, RuleSetError):
-        from .case_schema import FieldProblem
+        from screening.case.schema import FieldProblem
 
         return [FieldProblem(f, m) for f, m in exc.problems]
     return None
@@ -177,16 +129,18 @@ def check(case: str = typer.Argument(..., help="Case file (YAML, TOML or JSON)."
           history: Optional[Path] = typer.Option(None, "--history", help="Write the temperature history to a CSV file."),
           rules: Optional[str] = typer.Option(None, "--rules", help="Rule set file (TOML); default: the shipped set.")):
     """Screen one case: time to each limit, peak, steady state, criteria, verdict."""
-    from .report_text import format_result
-    from .screening_run import finite_or_null, public_result
+    from screening.report.text import format_result
+    from screening.result import finite_or_null, public_result
 
     def body():
+        from screening.run.pipeline import screen_file
+
         result = screen_file(case, rules)
         if history is not None:
             try:
                 write_atomic_text(history, history_csv(result))
             except OSError as exc:
-                from .case_schema import CaseError, FieldProblem
+                from screening.case.schema import CaseError, FieldProblem
 
                 raise CaseError([FieldProblem("--history", f"cannot write {history}: {exc.strerror or exc}; "
                                                            f"expected a path in an existing, writable folder")])
@@ -208,14 +162,16 @@ def memo(case: str = typer.Argument(..., help="Case file (YAML, TOML or JSON).")
     """Write a PDF review memo for one case."""
 
     def body():
+        from screening.run.pipeline import screen_file
+
         result = screen_file(case, rules)
-        from .memo_writer import write_memo
-        from .screening_run import memo_view
+        from screening.report.memo import write_memo
+        from screening.result import memo_view
 
         try:
             write_memo(memo_view(result), output, templates_dir=templates)
         except OSError as exc:
-            from .case_schema import CaseError, FieldProblem
+            from screening.case.schema import CaseError, FieldProblem
 
             raise CaseError([FieldProblem("--output", f"cannot write {output}: {exc.strerror or exc}; expected a "
                                                       f"path in an existing, writable folder")]) from None
@@ -235,8 +191,8 @@ def batch(register: Path = typer.Argument(..., help="Register of vessels (.csv o
     """Screen every row of a register; bad rows are reported by row and field, good rows still screened."""
 
     def body():
-        from .register_batch import run_batch
-        from .register_reading import RegisterError
+        from screening.register.batch import run_batch
+        from screening.register.reading import RegisterError
 
         progress = None
         bar = None
@@ -289,7 +245,7 @@ def diff(old: Path = typer.Argument(..., help="Output folder of the earlier batc
     """List vessels whose verdict, margin or inputs changed between two batch runs."""
 
     def body():
-        from .register_diff import diff_runs, format_table, to_csv
+        from screening.register.diff import diff_runs, format_table, to_csv
 
         changes = diff_runs(old, new, margin_tolerance_s=margin_tolerance * 3600.0)
         typer.echo(format_table(changes))
@@ -314,14 +270,19 @@ def margin(case: str = typer.Argument(..., help="Case file (YAML, TOML or JSON).
     """Allowable values: where one input's value changes the case's overall verdict."""
 
     def body():
-        from .allowable_values import _locate, find_allowable_values, format_allowable, parse_bound
-        from .case_files import load_case_file
-        from .case_to_model import prepare_case
+        from screening.case.files import load_case_file
+        from screening.case.prepare import prepare_case
+        from screening.run.allowable_values import (
+            find_allowable_values,
+            format_allowable,
+            locate_input,
+            parse_bound,
+        )
 
         loaded = load_case_file(case)
         spec = loaded.spec.model_copy(update={"uncertainty": None})
         prepared = prepare_case(spec)
-        _, q, _ = _locate(prepared.spec, vary)
+        _, q, _ = locate_input(prepared.spec, vary)
         lo = parse_bound(low, q) if low is not None else None
         hi = parse_bound(high, q) if high is not None else None
         report = find_allowable_values(prepared, vary, lo, hi, points, rules)
@@ -344,7 +305,7 @@ def serve(host: str = typer.Option("127.0.0.1", "--host", help="Address to bind 
                                               help="Token every endpoint but /health wants.")):
     """Run the HTTP API and web page (screening estimates only)."""
     try:
-        from .service.app import serve as run_service
+        from screening.service.app import serve as run_service
     except ImportError as exc:
         typer.echo(f"heatscreen serve needs the service extra: pip install -e '.[service]' ({exc})", err=True)
         raise typer.Exit(EXIT_INVALID)
@@ -354,9 +315,7 @@ def serve(host: str = typer.Option("127.0.0.1", "--host", help="Address to bind 
 @app.command()
 def example(output: Optional[Path] = typer.Argument(None, help="Where to write it (default: print).")):
     """Write an annotated example case to start from."""
-    from importlib.resources import files
-
-    text = files("screening").joinpath("demo_cases/example_case.yaml").read_text(encoding="utf-8")
+    text = demo_cases().joinpath("example_case.yaml").read_text(encoding="utf-8")
     if output is None:
         typer.echo(text, nl=False)
     else:
@@ -367,7 +326,7 @@ def example(output: Optional[Path] = typer.Argument(None, help="Where to write i
 @app.command()
 def schema():
     """Print the JSON Schema of the case-file format."""
-    from .case_schema import case_json_schema
+    from screening.case.schema import case_json_schema
 
     typer.echo(json.dumps(case_json_schema(), indent=2))
 
@@ -376,13 +335,12 @@ def schema():
 def demo(out: Path = typer.Option(Path("heatscreen-demo"), "--out", help="Folder for the demo memos."),
          memos: bool = typer.Option(True, "--memos/--no-memos", help="Write a memo for each demo case.")):
     """Screen the bundled demo cases (an invented site) and print the results."""
-    from importlib.resources import files
-
-    from .report_text import format_result
+    from screening.report.text import format_result
+    from screening.run.pipeline import screen_file
 
     def body():
         out.mkdir(parents=True, exist_ok=True)
-        folder = files("screening").joinpath("demo_cases")
+        folder = demo_cases()
         names = sorted(p.name for p in folder.iterdir() if p.name.endswith(".yaml") and p.name != "example_case.yaml")
         results = []
         for name in names:
@@ -393,18 +351,18 @@ def demo(out: Path = typer.Option(Path("heatscreen-demo"), "--out", help="Folder
             typer.echo("")
         if memos:
             try:
-                from .memo_writer import write_memo
+                from screening.report.memo import write_memo
             except ImportError:
                 write_memo = None
             if write_memo is not None:
-                from .screening_run import memo_view
+                from screening.result import memo_view
 
                 demo_templates = Path(str(folder.joinpath("templates")))
                 for r in results:
                     target = out / f"{r['id']}.pdf"
                     write_memo(memo_view(r), target, templates_dir=demo_templates)
                 typer.echo(f"wrote {len(results)} memos to {out}/")
-        from .register_batch import run_batch
+        from screening.register.batch import run_batch
 
         registers = folder.joinpath("registers")
         reg_out = out / "register"
@@ -419,7 +377,7 @@ def demo(out: Path = typer.Option(Path("heatscreen-demo"), "--out", help="Folder
         typer.echo("Summary of the demo cases:")
         for r in results:
             first = min((l["time_s"] for l in r["limits"] if l["time_s"] is not None), default=None)
-            from .report_text import duration
+            from screening.case.display import duration
 
             typer.echo(f"  {r['id']:<12} {str(r.get('verdict', '')).upper():<7} first limit "
                        f"{duration(first) if first is not None else 'not reached'}")

@@ -21,9 +21,9 @@ def data_dir() -> Path:
 @pytest.fixture
 def screen_text():
     """Screen a case given as text: load_case_bytes -> prepare_case -> screen_prepared -> result dict."""
-    from screening.case_files import load_case_bytes
-    from screening.case_to_model import prepare_case
-    from screening.screening_run import screen_prepared
+    from screening.case.files import load_case_bytes
+    from screening.case.prepare import prepare_case
+    from screening.run.screen_case import screen_prepared
 
     def run(text: str | bytes, kind: str = "yaml") -> dict:
         raw = text.encode("utf-8") if isinstance(text, str) else text

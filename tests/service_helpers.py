@@ -3,7 +3,7 @@
 Run as a script (``python tests/service_helpers.py serve --port N ...``) it
 starts the service exactly as ``python -m screening.service`` does, after
 optionally putting :func:`stub_run_batch` in place of
-``screening.register_batch.run_batch`` (environment variable
+``screening.register.batch.run_batch`` (environment variable
 ``HEATSCREEN_TEST_BATCH_STUB=1``).  The worker processes are started with
 ``spawn``, which re-imports this file as their main module, so they get the
 same stand-in.  Keep the imports at the top light for that reason.
@@ -68,16 +68,18 @@ def _read_rows(path: Path) -> list[dict]:
 
 def stub_run_batch(register_path, out_dir, base_path=None, rules_path=None, memos=False,
                    allow_case_file_column=True, progress=None) -> dict:
-    """Stand-in for screening.register_batch.run_batch: rows are dotted-path overrides of the base case."""
+    """Stand-in for screening.register.batch.run_batch: rows are dotted-path overrides of the base case."""
     import copy
 
     import yaml
 
-    from screening.case_schema import CaseError, validate_case_data
-    from screening.case_to_model import prepare_case
-    from screening.cli import apply_rules
-    from screening.memo_writer import render_memo, render_register_summary
-    from screening.screening_run import memo_view, public_result, screen_prepared
+    from screening.case.schema import CaseError, validate_case_data
+    from screening.case.prepare import prepare_case
+    from screening.verdict.rule_file import apply_rules
+    from screening.report.memo import render_memo
+    from screening.report.register_summary import render_register_summary
+    from screening.result import memo_view, public_result
+    from screening.run.screen_case import screen_prepared
 
     out = Path(out_dir)
     rows = _read_rows(Path(register_path))
@@ -130,10 +132,10 @@ def stub_run_batch(register_path, out_dir, base_path=None, rules_path=None, memo
 
 
 def _install_stub() -> None:
-    mod = types.ModuleType("screening.register_batch")
+    mod = types.ModuleType("screening.register.batch")
     mod.run_batch = stub_run_batch
     mod.__doc__ = "test stand-in (tests/service_helpers.py)"
-    sys.modules["screening.register_batch"] = mod
+    sys.modules["screening.register.batch"] = mod
 
 
 if os.environ.get("HEATSCREEN_TEST_BATCH_STUB") == "1":

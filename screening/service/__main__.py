@@ -15,7 +15,7 @@ def main(argv=None) -> None:
     parser.add_argument("--token", default=os.environ.get("HEATSCREEN_TOKEN"), metavar="T",
                         help="API token every endpoint but /health wants (default: env HEATSCREEN_TOKEN)")
     args = parser.parse_args(argv)
-    from .app import serve
+    from screening.service.app import serve
 
     serve(args.host, args.port, args.db, args.token)
 

@@ -20,9 +20,14 @@ from fastapi.openapi.utils import get_openapi
 from fastapi.responses import JSONResponse, Response
 from pydantic import BaseModel, Field
 
-from .. import __version__
-from . import CAUTION
-from .core import CONTENT_TYPES, TERMINAL_STATES, ServiceError, shipped_rule_sets
+from screening import __version__
+from screening.service import CAUTION
+from screening.service.core import (
+    CONTENT_TYPES,
+    TERMINAL_STATES,
+    ServiceError,
+    shipped_rule_sets,
+)
 
 router = APIRouter()
 
@@ -407,7 +412,7 @@ def install_openapi(app) -> None:
     def openapi() -> dict[str, Any]:
         if app.openapi_schema:
             return app.openapi_schema
-        from ..case_schema import case_json_schema
+        from screening.case.schema import case_json_schema
 
         doc = get_openapi(title=app.title, version=app.version, description=app.description, routes=app.routes)
         doc["paths"] = {p: v for p, v in doc["paths"].items() if not (p == "/" or p.startswith("/ui/"))}

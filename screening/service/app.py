@@ -7,7 +7,6 @@ cookie set by its own token form, so a browser can use it).
 """
 from __future__ import annotations
 
-import hashlib
 import hmac
 import ipaddress
 import logging
@@ -20,24 +19,20 @@ from fastapi.exceptions import RequestValidationError
 from fastapi.responses import JSONResponse
 from starlette.exceptions import HTTPException as StarletteHTTPException
 
-from .. import __version__
-from . import CAUTION
-from .core import Service, ServiceError
-from .settings import Settings
+from screening import __version__
+from screening.service import CAUTION
+from screening.service.core import Service, ServiceError
+from screening.service.settings import Settings
+from screening.service.ui_cookie import UI_COOKIE, ui_cookie_value
 
 log = logging.getLogger("heatscreen.service")
 
-UI_COOKIE = "heatscreen_ui"
 SMALL_BODY = 64 * 1024
 DRAIN_LIMIT = 64 * 1024 * 1024  # read and discard at most this much of a refused body, so the client sees the answer
 
 
 def _ui_path(path: str) -> bool:
     return path == "/" or path.startswith("/ui/")
-
-
-def ui_cookie_value(token: str) -> str:
-    return hmac.new(token.encode("utf-8"), b"heatscreen web page", hashlib.sha256).hexdigest()
 
 
 class Gate:
@@ -126,7 +121,7 @@ class Gate:
 
     async def _unauthorized(self, scope, receive, send, path):
         if _ui_path(path) and scope["method"] == "GET":
-            from .web import login_page
+            from screening.service.web import login_page
 
             response = login_page(status=401)
         else:
@@ -138,7 +133,7 @@ class Gate:
     async def _too_large(self, scope, receive, send, path, limit):
         message = f"the request body is larger than {limit} bytes"
         if _ui_path(path):
-            from .web import message_page
+            from screening.service.web import message_page
 
             response = message_page("Too large", message, status=413)
         else:
@@ -205,7 +200,7 @@ def create_app(settings: Settings) -> FastAPI:
     @app.exception_handler(ServiceError)
     async def _service_error(request: Request, exc: ServiceError):
         if _ui_path(request.url.path):
-            from .web import message_page
+            from screening.service.web import message_page
 
             return message_page("Request refused", "; ".join(m for _, m in exc.problems), status=exc.status)
         headers = dict(exc.headers)
@@ -220,7 +215,7 @@ def create_app(settings: Settings) -> FastAPI:
     @app.exception_handler(StarletteHTTPException)
     async def _http_error(request: Request, exc: StarletteHTTPException):
         if _ui_path(request.url.path) and exc.status_code == 404:
-            from .web import message_page
+            from screening.service.web import message_page
 
             return message_page("Not found", str(exc.detail), status=404)
         return JSONResponse({"errors": [{"field": "(request)", "message": str(exc.detail)}]},
@@ -232,8 +227,9 @@ def create_app(settings: Settings) -> FastAPI:
         return JSONResponse({"errors": [{"field": "(server)", "message": "internal error; see the server log"}]},
                             status_code=500)
 
-    from .api import install_openapi, router as api_router
-    from .web import router as web_router
+    from screening.service.api import install_openapi
+    from screening.service.api import router as api_router
+    from screening.service.web import router as web_router
 
     app.include_router(api_router)
     app.include_router(web_router)

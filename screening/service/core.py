@@ -19,11 +19,24 @@ import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from .. import __version__
-from .limits import LimitExceeded, RegisterLimits, check_csv_rows, check_xlsx, register_format
-from .pool import PoolBusy, PoolClosed, TaskFailed, TaskTimeout, WorkerCrashed, WorkerPool
-from .settings import Settings
-from .store import RunStore, now_iso
+from screening import __version__
+from screening.service.limits import (
+    LimitExceeded,
+    RegisterLimits,
+    check_csv_rows,
+    check_xlsx,
+    register_format,
+)
+from screening.service.pool import (
+    PoolBusy,
+    PoolClosed,
+    TaskFailed,
+    TaskTimeout,
+    WorkerCrashed,
+    WorkerPool,
+)
+from screening.service.settings import Settings
+from screening.service.store import RunStore, now_iso
 
 log = logging.getLogger("heatscreen.service")
 
@@ -61,7 +74,7 @@ class RuleSetFile:
 
 def shipped_rule_sets() -> dict[str, RuleSetFile]:
     """The rule sets that ship with heatscreen, by file stem.  Clients name one; they never give a path."""
-    from ..rules import default_rule_set_path
+    from screening.verdict.rule_file import default_rule_set_path
 
     folder = default_rule_set_path().parent
     out = {}
@@ -179,7 +192,7 @@ class Service:
 
     def case_schema(self) -> dict:
         if self._schema is None:
-            from ..case_schema import case_json_schema
+            from screening.case.schema import case_json_schema
 
             self._schema = case_json_schema()
         return self._schema
@@ -297,7 +310,7 @@ class Service:
     # ------------------------------------------------------------ register jobs
     async def submit_batch(self, register: bytes, register_name: str | None, base: bytes | None,
                            base_name: str | None, rules: str | None, memos: bool) -> str:
-        from ..case_files import kind_of
+        from screening.case.files import kind_of
 
         s = self.settings
         rs = self.rule_set(rules)

@@ -51,7 +51,7 @@ class TaskFailed(Exception):
 
 class _Worker:
     def __init__(self, ctx, name: str, memory_mb: int, scratch: str | None = None):
-        from . import tasks
+        from screening.service import tasks
 
         parent, child = ctx.Pipe(duplex=True)
         self.proc = ctx.Process(target=tasks.worker_main, args=(child, memory_mb, scratch), name=name, daemon=True)

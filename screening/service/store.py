@@ -20,8 +20,20 @@ import uuid
 from concurrent.futures import ThreadPoolExecutor
 from typing import Any, Callable
 
-from sqlalchemy import (Boolean, Float, ForeignKey, Integer, LargeBinary, String, Text, create_engine, event, func,
-                        select, update)
+from sqlalchemy import (
+    Boolean,
+    Float,
+    ForeignKey,
+    Integer,
+    LargeBinary,
+    String,
+    Text,
+    create_engine,
+    event,
+    func,
+    select,
+    update,
+)
 from sqlalchemy.orm import DeclarativeBase, Mapped, Session, mapped_column
 
 SCHEMA_VERSION = 1

@@ -111,8 +111,8 @@ def _progress_sender(conn):
 
 
 def _failure(exc: BaseException):
-    from ..case_schema import CaseError
-    from .limits import LimitExceeded
+    from screening.case.schema import CaseError
+    from screening.service.limits import LimitExceeded
 
     if isinstance(exc, CaseError):
         problems = [(p.field, p.message) for p in exc.problems]
@@ -120,7 +120,7 @@ def _failure(exc: BaseException):
     if isinstance(exc, LimitExceeded):
         return ("limit", {"problems": exc.problems, "status": exc.status})
     try:
-        from ..rules import RuleSetError
+        from screening.verdict.rule_file import RuleSetError
 
         if isinstance(exc, RuleSetError):
             return ("rules", {"problems": [(f, m) for f, m in exc.problems]})
@@ -136,15 +136,15 @@ def _failure(exc: BaseException):
 
 def _warm_up() -> None:
     """Import everything and screen the shipped example once, so the first request is fast."""
-    from importlib.resources import files
-
     import importlib
 
-    for name in ("case_files", "case_to_model", "cli", "memo_writer", "rules", "screening_run"):
+    from screening.resources import demo_cases
+
+    for name in ("case.files", "case.prepare", "run.pipeline", "run.screen_case", "report.memo", "verdict.rule_file"):
         importlib.import_module(f"screening.{name}")
 
     try:
-        raw = files("screening").joinpath("demo_cases/example_case.yaml").read_bytes()
+        raw = demo_cases().joinpath("example_case.yaml").read_bytes()
         with _source_date_epoch(0):
             task_check(raw=raw, kind="yaml", rules_path=None, sde=0, memo=True, locate=False)
     except Exception:  # noqa: BLE001 - warm-up is best effort
@@ -173,7 +173,11 @@ def render_record() -> dict:
     """Templates (text and hash), fonts (hash) and library versions a memo is made with."""
     import reportlab
 
-    from ..memo_writer import TEMPLATE_FILE, default_templates_dir, template_hashes
+    from screening.report.templates import (
+        TEMPLATE_FILE,
+        default_templates_dir,
+        template_hashes,
+    )
 
     path = default_templates_dir() / TEMPLATE_FILE
     text = path.read_bytes()
@@ -194,10 +198,10 @@ def task_check(raw: bytes, kind: str, rules_path: str | None, sde: int, memo: bo
     result is the one ``check --json`` prints for the same bytes; the memo is
     rendered as ``heatscreen memo`` renders it.
     """
-    from ..case_schema import CaseError
-    from ..cli import screen_file
-    from ..memo_writer import render_memo
-    from ..screening_run import memo_view, public_result
+    from screening.case.schema import CaseError
+    from screening.report.memo import render_memo
+    from screening.result import memo_view, public_result
+    from screening.run.pipeline import screen_file
 
     if kind not in ("yaml", "json", "toml"):
         raise ValueError(f"unknown case kind {kind!r}")
@@ -207,7 +211,7 @@ def task_check(raw: bytes, kind: str, rules_path: str | None, sde: int, memo: bo
         result = screen_file(str(path), rules_path)
     except CaseError as exc:
         if locate:
-            from .locate import field_lines
+            from screening.service.locate import field_lines
 
             exc._lines = field_lines(raw, kind, [(p.field, p.message) for p in exc.problems])
         raise
@@ -229,7 +233,8 @@ def task_memo(view_json: str, sde: int, template_text: str | None, template_sha2
     """Render a memo again from a stored run: same view, same date, same templates."""
     import tempfile
 
-    from ..memo_writer import TEMPLATE_FILE, render_memo, template_hashes
+    from screening.report.memo import render_memo
+    from screening.report.templates import TEMPLATE_FILE, template_hashes
 
     view = json.loads(view_json)
     current = template_hashes(None).get(f"templates/default/{TEMPLATE_FILE}")
@@ -246,7 +251,13 @@ def task_memo(view_json: str, sde: int, template_text: str | None, template_sha2
 def task_batch(job_dir: str, register_file: str, base_file: str | None, rules_path: str | None, memos: bool,
                sde: int, limits: dict, progress=None) -> dict:
     """One register job, by the project's register batch; outputs stay in ``job_dir/out``."""
-    from .limits import LimitExceeded, RegisterLimits, check_csv_rows, check_xlsx, check_xlsx_rows
+    from screening.service.limits import (
+        LimitExceeded,
+        RegisterLimits,
+        check_csv_rows,
+        check_xlsx,
+        check_xlsx_rows,
+    )
 
     lim = RegisterLimits(**limits)
     job = Path(job_dir)
@@ -258,7 +269,7 @@ def task_batch(job_dir: str, register_file: str, base_file: str | None, rules_pa
     else:
         check_csv_rows(data, lim)
     try:
-        from ..register_batch import run_batch
+        from screening.register.batch import run_batch
     except ImportError:
         raise LimitExceeded([("register", "register screening is not available in this installation")],
                             status=501) from None

@@ -12,14 +12,14 @@ import csv
 import html
 import io
 import json
-from importlib.resources import files as package_files
 
 from fastapi import APIRouter, Request
 from fastapi.responses import HTMLResponse, RedirectResponse, Response
 
-from .. import __version__
-from . import CAUTION
-from .core import CONTENT_TYPES, ServiceError
+from screening import __version__
+from screening.resources import demo_cases
+from screening.service import CAUTION
+from screening.service.core import CONTENT_TYPES, ServiceError
 
 router = APIRouter(include_in_schema=False)
 
@@ -126,14 +126,14 @@ def _rule_options(svc, chosen: str = "default") -> str:
 
 
 def _demo_names() -> list[str]:
-    folder = package_files("screening").joinpath("demo_cases")
+    folder = demo_cases()
     return sorted(p.name[:-5] for p in folder.iterdir() if p.name.endswith(".yaml"))
 
 
 def _demo_text(name: str) -> str | None:
     if name not in _demo_names():
         return None
-    return package_files("screening").joinpath(f"demo_cases/{name}.yaml").read_text(encoding="utf-8")
+    return demo_cases().joinpath(f"{name}.yaml").read_text(encoding="utf-8")
 
 
 # ------------------------------------------------------------------ case page
@@ -255,7 +255,8 @@ def _fmt(v, digits: int = 4) -> str:
 
 
 def result_html(r: dict) -> str:
-    from ..report_text import dtemp, duration, format_result, temp
+    from screening.case.display import dtemp, duration, temp
+    from screening.report.text import format_result
 
     u = (r.get("units") or {}).get("temperature", "K")
     verdict = str(r.get("verdict") or "")
@@ -346,7 +347,7 @@ def result_html(r: dict) -> str:
 
 @router.get("/ui/runs/{run_id}", response_class=HTMLResponse)
 async def ui_run(request: Request, run_id: str):
-    from .api import _check_id
+    from screening.service.api import _check_id
 
     run = await _svc(request).store.get_run(_check_id(run_id, "run_id"))
     if run is None:
@@ -381,7 +382,7 @@ async def ui_run(request: Request, run_id: str):
 
 @router.get("/ui/runs/{run_id}/memo.pdf")
 async def ui_memo(request: Request, run_id: str):
-    from .api import _check_id
+    from screening.service.api import _check_id
 
     pdf, info = await _svc(request).memo_for_run(_check_id(run_id, "run_id"))
     return Response(pdf, media_type="application/pdf",
@@ -391,7 +392,7 @@ async def ui_memo(request: Request, run_id: str):
 
 @router.get("/ui/runs/{run_id}/result.json")
 async def ui_result_json(request: Request, run_id: str):
-    from .api import _check_id
+    from screening.service.api import _check_id
 
     run = await _svc(request).store.get_run(_check_id(run_id, "run_id"))
     if run is None or not run.result_json:
@@ -403,7 +404,7 @@ async def ui_result_json(request: Request, run_id: str):
 
 @router.get("/ui/runs/{run_id}/input")
 async def ui_input(request: Request, run_id: str):
-    from .api import _check_id
+    from screening.service.api import _check_id
 
     run = await _svc(request).store.get_run(_check_id(run_id, "run_id"))
     if run is None or run.input_bytes is None:
@@ -481,7 +482,7 @@ async def ui_jobs(request: Request):
 
 @router.get("/ui/jobs/{job_id}", response_class=HTMLResponse)
 async def ui_job(request: Request, job_id: str):
-    from .api import job_document
+    from screening.service.api import job_document
 
     svc = _svc(request)
     doc = await job_document(svc, job_id)
@@ -515,7 +516,7 @@ async def ui_job(request: Request, job_id: str):
 
 
 async def _job_rows_html(svc, job_id: str) -> str:
-    from ..report_text import duration
+    from screening.case.display import duration
 
     out = []
     f = await svc.store.job_file(job_id, "results.json")
@@ -558,7 +559,7 @@ async def _job_rows_html(svc, job_id: str) -> str:
 
 @router.get("/ui/jobs/{job_id}/files/{name}")
 async def ui_job_file(request: Request, job_id: str, name: str):
-    from .api import _check_id
+    from screening.service.api import _check_id
 
     if name not in CONTENT_TYPES:
         return message_page("Not found", "No such file.", status=404)
@@ -602,7 +603,7 @@ async def ui_login_form(request: Request):
 async def ui_login(request: Request):
     import hmac
 
-    from .app import UI_COOKIE, ui_cookie_value
+    from screening.service.ui_cookie import UI_COOKIE, ui_cookie_value
 
     _same_origin(request)
     settings = request.app.state.settings

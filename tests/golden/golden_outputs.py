@@ -53,6 +53,7 @@ def _env() -> dict:
     env = dict(os.environ)
     env["SOURCE_DATE_EPOCH"] = SOURCE_DATE_EPOCH
     env["PYTHONHASHSEED"] = "0"
+    env["PYTHONPATH"] = str(ROOT) + os.pathsep + env.get("PYTHONPATH", "")
     env.setdefault("COLUMNS", "120")
     return env
 

@@ -1,0 +1,261 @@
+"""From a validated case (text with units) to the SI model the physics core uses."""
+from __future__ import annotations
+
+import math
+from collections import Counter
+from dataclasses import dataclass, field
+
+from pydantic import BaseModel
+
+from screening.case.schema import (
+    DEFAULT_HORIZON_TEXT,
+    ArrheniusSpec,
+    CaseError,
+    CaseSpec,
+    ConstantSpec,
+    DecayingSpec,
+    FieldProblem,
+    FireSpec,
+    HeatingMediumSpec,
+    Quantity,
+    _area_value,
+)
+from screening.case.uncertainty_plan import plan_uncertainty
+from screening.case.units import parse_quantity, temperature_unit_of
+from screening.core import model as m
+from screening.core.fire_exposure import api521_fire_heat_input
+from screening.core.vessel_geometry import (
+    VesselShape,
+    conduction_shape,
+    liquid_height,
+    maximum_height,
+    total_area,
+    total_volume,
+    wetted_area,
+    wetted_area_below,
+)
+
+FIRE_HEIGHT_LIMIT = 7.6  # m above the fire base; API 521 / ISO 23251 (from memory)
+
+
+@dataclass
+class PreparedCase:
+    """The SI model plus what the shell needs to report it."""
+
+    model: m.ScreeningModel
+    spec: CaseSpec
+    inputs: list[dict]
+    display_temperature_unit: str
+    warnings: list[str] = field(default_factory=list)
+    geometry: dict = field(default_factory=dict)
+    response_time: float | None = None
+    detection_alarm: float | None = None  # K
+    detection_delay: float | None = None  # s
+    recovery: tuple[float, float] | None = None  # (medium temperature K, ua W/K)
+    fill_fraction: float | None = None
+    surface_coefficient: float | None = None
+    uncertainty_plan: object = None
+
+
+_FIELD_NAMES: dict = {}
+
+
+def collect_inputs(obj, prefix: str = "", out: list | None = None) -> list[dict]:
+    """Every quantity in a case, with its path, text as written, SI value and source."""
+    if out is None:
+        out = []
+    if isinstance(obj, Quantity):
+        out.append({"field": prefix, "text": obj.text, "value_si": obj.si, "unit_si": obj.si_unit,
+                    "source": obj.source})
+    elif isinstance(obj, BaseModel):
+        cls = type(obj)
+        names = _FIELD_NAMES.get(cls)
+        if names is None:
+            names = _FIELD_NAMES[cls] = tuple(cls.model_fields)
+        d = obj.__dict__
+        for name in names:
+            value = d.get(name)
+            if value is None or isinstance(value, (str, bool, int, float)):
+                continue
+            collect_inputs(value, f"{prefix}.{name}" if prefix else name, out)
+    elif isinstance(obj, (list, tuple)):
+        for i, item in enumerate(obj):
+            collect_inputs(item, f"{prefix}.{i}", out)
+    return out
+
+
+def _display_unit(spec: CaseSpec) -> str:
+    texts = [spec.contents.initial_temperature.text, spec.heat_loss.ambient_temperature.text]
+    texts += [lim.temperature.text for lim in spec.limits]
+    return display_unit_from_texts(texts)
+
+
+def display_unit_from_texts(texts) -> str:
+    """The temperature unit most used among the initial, ambient and limit temperatures."""
+    units = [u for u in (temperature_unit_of(t) for t in texts) if u]
+    return Counter(units).most_common(1)[0][0] if units else "K"
+
+
+def _shape(spec: CaseSpec) -> VesselShape | None:
+    v = spec.vessel
+    if v is None:
+        return None
+    val = lambda q: q.si if q is not None else None  # noqa: E731
+    return VesselShape(v.shape, val(v.diameter), val(v.length), val(v.width), val(v.height), v.heads,
+                       val(v.crown_radius), val(v.knuckle_radius))
+
+
+def prepare_case(spec: CaseSpec, inputs: list[dict] | None = None) -> PreparedCase:
+    """Turn a validated case into SI; raises CaseError for problems only visible here.
+
+    ``inputs`` may pass the case's inputs list when the caller already has it
+    (a register row derived from a validated representative row).
+    """
+    warnings: list[str] = []
+    problems: list[FieldProblem] = []
+    shape = _shape(spec)
+    geometry: dict = {}
+    c = spec.contents
+    vessel_volume = None
+    if shape is not None:
+        vessel_volume = total_volume(shape)
+        geometry.update(vessel_volume_m3=vessel_volume, total_area_m2=total_area(shape),
+                        height_m=maximum_height(shape))
+    fill_fraction = None
+    if c.mass is not None:
+        mass = c.mass.si
+        liquid_volume = mass / c.density.si if c.density is not None else None
+    elif c.volume is not None:
+        liquid_volume = c.volume.si
+        mass = liquid_volume * c.density.si
+    else:
+        fill_fraction = c.fill.si
+        liquid_volume = fill_fraction * vessel_volume
+        mass = liquid_volume * c.density.si
+    if vessel_volume is not None and liquid_volume is not None:
+        fill_fraction = liquid_volume / vessel_volume
+        if fill_fraction > 1.0 + 1e-9:
+            warnings.append(f"The contents ({liquid_volume:.4g} m^3) fill {fill_fraction * 100:.1f} % of the vessel "
+                            f"volume ({vessel_volume:.4g} m^3): more than it holds. Check mass, density, fill and "
+                            f"dimensions; areas are taken at full.")
+        geometry.update(liquid_volume_m3=liquid_volume, fill_fraction=fill_fraction,
+                        liquid_height_m=liquid_height(shape, liquid_volume),
+                        wetted_area_m2=wetted_area(shape, liquid_volume))
+    # heat loss
+    hl = spec.heat_loss
+    surface_coefficient = None
+    area_used = None
+    if hl.ua is not None:
+        ua = hl.ua.si
+    else:
+        area = _area_value(hl.area)
+        if area == "wetted":
+            if "wetted_area_m2" not in geometry:
+                problems.append(FieldProblem("heat_loss.area", "'wetted' needs the liquid volume: give contents.density "
+                                             "with contents.mass, or fill / volume"))
+                area_used = float("nan")
+            else:
+                area_used = geometry["wetted_area_m2"]
+        elif area == "total":
+            area_used = geometry["total_area_m2"]
+        else:
+            area_used = area.si
+        ua = hl.coefficient.si * area_used
+        surface_coefficient = hl.coefficient.si
+        geometry["heat_loss_area_m2"] = area_used
+    if surface_coefficient is None and ua > 0:
+        a = geometry.get("wetted_area_m2") or geometry.get("total_area_m2")
+        if a:
+            surface_coefficient = ua / a
+    if surface_coefficient is not None and surface_coefficient > 25.0:
+        warnings.append(f"The heat-loss coefficient is {surface_coefficient:.3g} W/(m^2 K): more than passive surfaces "
+                        f"lose to still air (bare steel about 5-15 W/(m^2 K) with radiation, common practice). A "
+                        f"loss this large is not conservative unless it is measured.")
+    # wall
+    wall = 0.0
+    if spec.vessel is not None and spec.vessel.wall_mass is not None:
+        wall = spec.vessel.wall_mass.si * spec.vessel.wall_specific_heat.si
+    # sources
+    constants, decaying, media, arrh, fires = [], [], [], [], []
+    for i, s in enumerate(spec.heat_sources):
+        if isinstance(s, ConstantSpec):
+            constants.append(m.ConstantSource(s.power.si))
+        elif isinstance(s, DecayingSpec):
+            a = s.time_constant.si if s.time_constant is not None else s.half_life.si / math.log(2.0)
+            decaying.append(m.DecayingSource(s.power.si, a))
+        elif isinstance(s, HeatingMediumSpec):
+            media.append(m.HeatingMedium(s.medium_temperature.si, s.ua.si))
+        elif isinstance(s, ArrheniusSpec):
+            af = s.accumulated_fraction.si if s.accumulated_fraction is not None else 1.0
+            arrh.append(m.ArrheniusSource(s.specific_power.si, s.reference_temperature.si, s.activation_energy.si,
+                                          float(s.order),
+                                          s.specific_heat_of_reaction.si if s.specific_heat_of_reaction else None,
+                                          af, s.gas_generating, _tested_range(s)))
+        elif isinstance(s, FireSpec):
+            fires.append(_fire_source(s, i, shape, liquid_volume, problems, warnings))
+    if problems:
+        raise CaseError(problems)
+    if fires and ua > 0:
+        warnings.append("A fire source is present: heat loss to ambient is not credited (UA set to 0), since the "
+                        "fire correlation is a net heat input to the exposed surface.")
+        ua = 0.0
+    horizon = spec.horizon.si if spec.horizon is not None else parse_quantity(DEFAULT_HORIZON_TEXT, "time").value
+    boiling = None
+    if c.boiling_point is not None:
+        venting = spec.vessel.venting if spec.vessel is not None else "closed"
+        boiling = m.BoilingData(c.boiling_point.si, c.latent_heat.si, venting)
+    cond = conduction_shape(shape) if c.mixing == "unstirred" else None
+    char_length = None
+    if liquid_volume is not None and geometry.get("wetted_area_m2"):
+        char_length = liquid_volume / geometry["wetted_area_m2"]
+    model = m.ScreeningModel(
+        contents_mass=mass, contents_specific_heat=c.specific_heat.si, wall_heat_capacity=wall, ua=ua,
+        ambient_temperature=hl.ambient_temperature.si, initial_temperature=c.initial_temperature.si,
+        horizon=horizon, constant_sources=tuple(constants), decaying_sources=tuple(decaying),
+        heating_media=tuple(media), arrhenius_sources=tuple(arrh), fire_sources=tuple(fires),
+        limits=tuple(m.Limit(lim.name, lim.temperature.si) for lim in spec.limits), boiling=boiling,
+        maximum_technical_temperature=(spec.maximum_technical_temperature.si
+                                       if spec.maximum_technical_temperature is not None else None),
+        mixing=c.mixing, thermal_conductivity=c.thermal_conductivity.si if c.thermal_conductivity else None,
+        characteristic_length=char_length, conduction_geometry=cond[0] if cond else None,
+        conduction_radius=cond[1] if cond else None, density=c.density.si if c.density else None,
+        surface_coefficient=surface_coefficient)
+    prepared = PreparedCase(model, spec, inputs if inputs is not None else collect_inputs(spec), _display_unit(spec),
+                            warnings, geometry,
+                            fill_fraction=fill_fraction, surface_coefficient=surface_coefficient)
+    if spec.response_time is not None:
+        prepared.response_time = spec.response_time.si
+    if spec.detection is not None:
+        if spec.detection.alarm_temperature is not None:
+            prepared.detection_alarm = spec.detection.alarm_temperature.si
+        else:
+            prepared.detection_delay = spec.detection.delay.si
+    if spec.recovery is not None:
+        prepared.recovery = (spec.recovery.medium_temperature.si, spec.recovery.ua.si)
+    if spec.uncertainty is not None:
+        prepared.uncertainty_plan = plan_uncertainty(spec)
+    return prepared
+
+
+def _tested_range(s: ArrheniusSpec):
+    if s.tested_range is None:
+        return None
+    lo, hi = (parse_quantity(v["value"] if isinstance(v, dict) else v, "temperature").value for v in s.tested_range)
+    return (min(lo, hi), max(lo, hi))
+
+
+def _fire_source(s: FireSpec, index: int, shape, liquid_volume, problems, warnings) -> m.FireExposure:
+    F = s.environment_factor.si if s.environment_factor is not None else 1.0
+    if s.wetted_area is not None:
+        area = s.wetted_area.si
+    elif shape is not None and liquid_volume is not None:
+        elevation = s.elevation.si if s.elevation is not None else 0.0
+        area = wetted_area_below(shape, liquid_volume, max(0.0, FIRE_HEIGHT_LIMIT - elevation))
+    else:
+        problems.append(FieldProblem(f"heat_sources.{index}.wetted_area",
+                                     "a fire source needs wetted_area, or a vessel and the liquid volume "
+                                     "(contents.density) to compute it"))
+        return m.FireExposure(0.0, 0.0, F, s.drainage_and_firefighting)
+    fire = api521_fire_heat_input(area, F, s.drainage_and_firefighting)
+    warnings.extend(c for c in fire.cautions if c not in warnings)
+    return m.FireExposure(float(fire.power), area, F, s.drainage_and_firefighting)

@@ -1,0 +1,509 @@
+"""The case-file schema: one vessel, validated with pydantic v2.
+
+Every physical quantity is text with a unit (``"9000 kg"``) or a mapping
+``{value: "9000 kg", source: "weigh ticket"}``.  Validation turns each into a
+:class:`Quantity` holding the SI value, the text as written and its source.
+The same schema validates case files and register rows.
+"""
+from __future__ import annotations
+
+import difflib
+import reprlib
+from dataclasses import dataclass
+from typing import Annotated, Any, Literal, Union
+
+from pydantic import (
+    BaseModel,
+    BeforeValidator,
+    ConfigDict,
+    Discriminator,
+    Field,
+    Tag,
+    ValidationError,
+    WithJsonSchema,
+    model_validator,
+)
+
+from screening.case.units import DIMENSION_WORDS, DIMENSIONS, UnitError, parse_quantity
+from screening.errors import InputError
+
+DEFAULT_HORIZON_TEXT = "72 h"
+
+
+@dataclass(frozen=True)
+class Quantity:
+    """A validated input: SI value, the text as written, and its stated source."""
+
+    si: float
+    text: str
+    source: str | None
+    dimension: str
+
+    @property
+    def si_unit(self) -> str:
+        return DIMENSIONS[self.dimension][0]
+
+
+def _make_quantity_validator(dimension: str, check: str | None):
+    def validate(value: Any) -> Quantity:
+        if isinstance(value, Quantity):
+            return value
+        source = None
+        if isinstance(value, dict):
+            extra = set(value) - {"value", "source"}
+            if extra:
+                raise ValueError(f"unknown key(s) {', '.join(sorted(extra))} in a quantity; "
+                                 f"expected {{value: ..., source: ...}}")
+            if "value" not in value:
+                raise ValueError("a quantity written as a mapping needs 'value' (and optionally 'source')")
+            source = value.get("source")
+            if source is not None and not isinstance(source, str):
+                source = str(source)
+            value = value["value"]
+        try:
+            parsed = parse_quantity(value, dimension)
+        except UnitError as exc:
+            raise ValueError(str(exc)) from None
+        si = parsed.value
+        if check == "positive" and not si > 0:
+            raise ValueError(f"must be greater than zero (got {parsed.text}); expected {DIMENSION_WORDS[dimension]}")
+        if check == "nonnegative" and si < 0:
+            raise ValueError(f"must not be negative (got {parsed.text}); expected {DIMENSION_WORDS[dimension]}")
+        if check == "absolute" and not si > 0:
+            raise ValueError(f"{parsed.text} is at or below absolute zero; expected {DIMENSION_WORDS[dimension]}")
+        return Quantity(si, parsed.text, source, dimension)
+
+    return validate
+
+
+@dataclass(frozen=True)
+class QuantityField:
+    """Marker on a quantity field: its dimension and range check (used by the register fast path)."""
+
+    dimension: str
+    check: str | None
+
+    def validator(self):
+        return _make_quantity_validator(self.dimension, self.check)
+
+
+def Q(dimension: str, check: str | None = None):
+    """Annotated type for a quantity field of a given dimension."""
+    example = DIMENSION_WORDS[dimension]
+    schema = {
+        "description": f"{example}; text with a unit, or {{value, source}}",
+        "anyOf": [
+            {"type": "string"},
+            {"type": "object", "properties": {"value": {"type": "string"}, "source": {"type": "string"}},
+             "required": ["value"], "additionalProperties": False},
+        ] + ([{"type": "number"}] if dimension == "fraction" else []),
+    }
+    return Annotated[Any, BeforeValidator(_make_quantity_validator(dimension, check)), WithJsonSchema(schema),
+                     QuantityField(dimension, check)]
+
+
+def quantity_field(owner: BaseModel, name: str) -> QuantityField | None:
+    """The QuantityField marker of field ``name`` on a validated model instance, if it is a quantity."""
+    info = type(owner).model_fields.get(name)
+    if info is None:
+        return None
+    for item in info.metadata:
+        if isinstance(item, QuantityField):
+            return item
+    return None
+
+
+class Strict(BaseModel):
+    model_config = ConfigDict(extra="forbid", frozen=True, arbitrary_types_allowed=True)
+
+
+ShapeName = Literal["vertical-cylinder", "horizontal-cylinder", "sphere", "box"]
+HeadName = Literal["flat", "hemispherical", "ellipsoidal", "torispherical"]
+
+
+class VesselSpec(Strict):
+    shape: ShapeName
+    diameter: Q("length", "positive") = None
+    length: Q("length", "positive") = None
+    width: Q("length", "positive") = None
+    height: Q("length", "positive") = None
+    heads: HeadName = "flat"
+    crown_radius: Q("length", "positive") = None
+    knuckle_radius: Q("length", "positive") = None
+    wall_mass: Q("mass", "nonnegative") = None
+    wall_specific_heat: Q("specific_heat", "positive") = None
+    venting: Literal["open", "closed"] = "closed"
+
+    @model_validator(mode="after")
+    def _dimensions(self):
+        need = {"vertical-cylinder": ("diameter", "length"), "horizontal-cylinder": ("diameter", "length"),
+                "sphere": ("diameter",), "box": ("length", "width", "height")}[self.shape]
+        missing = [n for n in need if getattr(self, n) is None]
+        if missing:
+            raise ValueError(f"a {self.shape} vessel needs {', '.join(missing)}")
+        if (self.wall_mass is None) != (self.wall_specific_heat is None):
+            raise ValueError("wall_mass and wall_specific_heat go together: give both or neither")
+        if self.heads != "torispherical" and (self.crown_radius or self.knuckle_radius):
+            raise ValueError("crown_radius and knuckle_radius apply only to torispherical heads")
+        return self
+
+
+class ContentsSpec(Strict):
+    mass: Q("mass", "positive") = None
+    fill: Q("fraction", "positive") = None
+    volume: Q("volume", "positive") = None
+    density: Q("density", "positive") = None
+    specific_heat: Q("specific_heat", "positive")
+    initial_temperature: Q("temperature", "absolute")
+    mixing: Literal["stirred", "unstirred"] = "stirred"
+    thermal_conductivity: Q("thermal_conductivity", "positive") = None
+    boiling_point: Q("temperature", "absolute") = None
+    latent_heat: Q("specific_energy", "positive") = None
+
+    @model_validator(mode="after")
+    def _amount(self):
+        given = [n for n in ("mass", "fill", "volume") if getattr(self, n) is not None]
+        if not given:
+            raise ValueError("give the amount of contents: mass, or fill (with density and a vessel), "
+                             "or volume (with density)")
+        if len(given) > 1:
+            raise ValueError(f"give only one of mass, fill and volume (got {', '.join(given)})")
+        if given[0] in ("fill", "volume") and self.density is None:
+            raise ValueError(f"contents.{given[0]} needs contents.density to give the mass")
+        if (self.boiling_point is None) != (self.latent_heat is None):
+            raise ValueError("boiling_point and latent_heat go together: give both or neither")
+        return self
+
+
+class HeatLossSpec(Strict):
+    ambient_temperature: Q("temperature", "absolute")
+    ua: Q("conductance", "nonnegative") = None
+    coefficient: Q("heat_transfer_coefficient", "nonnegative") = None
+    area: Any = Field(default=None, json_schema_extra={
+        "description": "'wetted', 'total', or an area with a unit such as '12 m^2'"})
+
+    @model_validator(mode="after")
+    def _one_way(self):
+        if self.ua is not None and (self.coefficient is not None or self.area is not None):
+            raise ValueError("give either ua, or coefficient with area, not both")
+        if self.ua is None and self.coefficient is None:
+            raise ValueError("give ua (e.g. 180 W/K), or coefficient (e.g. 4.5 W/(m^2*K)) with area")
+        if self.coefficient is not None and self.area is None:
+            raise ValueError("coefficient needs area: wetted, total, or an area such as '12 m^2'")
+        return self
+
+
+def _area_value(value: Any):
+    if value is None or value in ("wetted", "total"):
+        return value
+    return _make_quantity_validator("area", "positive")(value)
+
+
+class _Source(Strict):
+    label: str | None = None
+
+
+class ConstantSpec(_Source):
+    kind: Literal["constant"]
+    power: Q("power", "nonnegative")
+
+
+class DecayingSpec(_Source):
+    kind: Literal["decaying"]
+    power: Q("power", "nonnegative")
+    time_constant: Q("time", "positive") = None
+    half_life: Q("time", "positive") = None
+
+    @model_validator(mode="after")
+    def _decay(self):
+        if (self.time_constant is None) == (self.half_life is None):
+            raise ValueError("a decaying source needs exactly one of time_constant and half_life")
+        return self
+
+
+class HeatingMediumSpec(_Source):
+    kind: Literal["heating-medium"]
+    medium_temperature: Q("temperature", "absolute")
+    ua: Q("conductance", "nonnegative")
+
+
+class ArrheniusSpec(_Source):
+    kind: Literal["arrhenius"]
+    specific_power: Q("specific_power", "nonnegative")
+    reference_temperature: Q("temperature", "absolute")
+    activation_energy: Q("molar_energy", "positive")
+    order: float = Field(default=0.0, ge=0.0, le=10.0)
+    specific_heat_of_reaction: Q("specific_energy", "positive") = None
+    accumulated_fraction: Q("fraction", None) = None
+    gas_generating: bool = False
+    tested_range: list[Any] | None = Field(default=None, description=(
+        "optional [low, high] temperatures over which the kinetics were measured"))
+
+    @model_validator(mode="after")
+    def _order(self):
+        if self.order > 0 and self.specific_heat_of_reaction is None:
+            raise ValueError("order > 0 needs specific_heat_of_reaction (conversion advances as power / heat of reaction)")
+        if self.accumulated_fraction is not None and not (0 < self.accumulated_fraction.si <= 1):
+            raise ValueError("accumulated_fraction must be above 0 and at most 1 (100 %)")
+        if self.accumulated_fraction is not None and self.specific_heat_of_reaction is None:
+            raise ValueError("accumulated_fraction needs specific_heat_of_reaction")
+        return self
+
+
+class FireSpec(_Source):
+    kind: Literal["fire"]
+    environment_factor: Q("fraction", "nonnegative") = None
+    drainage_and_firefighting: bool = True
+    wetted_area: Q("area", "positive") = None
+    elevation: Q("length", "nonnegative") = None
+
+
+SOURCE_KINDS = {"constant": ConstantSpec, "decaying": DecayingSpec, "heating-medium": HeatingMediumSpec,
+                "arrhenius": ArrheniusSpec, "fire": FireSpec}
+
+
+def _source_kind(value: Any):
+    if isinstance(value, dict):
+        return value.get("kind")
+    return getattr(value, "kind", None)
+
+
+HeatSource = Annotated[
+    Union[tuple(Annotated[cls, Tag(kind)] for kind, cls in SOURCE_KINDS.items())],
+    Discriminator(_source_kind),
+]
+
+
+class LimitSpec(Strict):
+    name: str = Field(min_length=1)
+    temperature: Q("temperature", "absolute")
+
+
+class DetectionSpec(Strict):
+    alarm_temperature: Q("temperature", "absolute") = None
+    delay: Q("time", "nonnegative") = None
+
+    @model_validator(mode="after")
+    def _one(self):
+        if (self.alarm_temperature is None) == (self.delay is None):
+            raise ValueError("detection needs exactly one of alarm_temperature and delay")
+        return self
+
+
+class RecoverySpec(Strict):
+    medium_temperature: Q("temperature", "absolute")
+    ua: Q("conductance", "positive")
+
+
+class MetaSpec(Strict):
+    prepared_by: str | None = None
+    prepared_for: str | None = None
+    revision: str | None = None
+    notes: str | None = None
+    date: str | None = None
+
+
+class CaseSpec(Strict):
+    id: str = Field(min_length=1)
+    title: str | None = None
+    vessel: VesselSpec | None = None
+    contents: ContentsSpec
+    heat_loss: HeatLossSpec
+    heat_sources: list[HeatSource] = Field(default_factory=list)
+    limits: list[LimitSpec] = Field(min_length=1)
+    horizon: Q("time", "positive") = None
+    response_time: Q("time", "nonnegative") = None
+    detection: DetectionSpec | None = None
+    recovery: RecoverySpec | None = None
+    maximum_technical_temperature: Q("temperature", "absolute") = None
+    meta: MetaSpec | None = None
+    uncertainty: dict | None = None
+
+    @model_validator(mode="before")
+    @classmethod
+    def _coerce_id(cls, data):
+        if isinstance(data, dict) and isinstance(data.get("id"), (int, float)) and not isinstance(data.get("id"), bool):
+            data = dict(data)
+            data["id"] = str(data["id"])
+        return data
+
+    @model_validator(mode="after")
+    def _needs_vessel(self):
+        if self.vessel is None:
+            if self.contents.fill is not None:
+                raise ValueError("contents.fill needs a vessel to take the volume from")
+            if self.heat_loss.area in ("wetted", "total"):
+                raise ValueError(f"heat_loss.area: {self.heat_loss.area} needs a vessel to take the area from")
+        names = [lim.name for lim in self.limits]
+        dupes = sorted({n for n in names if names.count(n) > 1})
+        if dupes:
+            raise ValueError(f"limit names must differ: {', '.join(dupes)} given more than once")
+        return self
+
+
+# ---------------------------------------------------------------- errors
+
+
+@dataclass(frozen=True)
+class FieldProblem:
+    field: str
+    message: str
+
+
+class CaseError(InputError):
+    """Invalid case input: one or more problems, each naming its field."""
+
+    def __init__(self, problems: list[FieldProblem]):
+        self.problems = problems
+        super().__init__("; ".join(f"{p.field}: {p.message}" for p in problems))
+
+
+_SHORT = reprlib.Repr()
+_SHORT.maxstring, _SHORT.maxother, _SHORT.maxlist, _SHORT.maxdict, _SHORT.maxlevel = 60, 60, 4, 4, 2
+
+
+def _show(value: Any) -> str:
+    """A short repr of an offending input for a message.
+
+    YAML aliases can make a small file hold a structure with billions of
+    elements (shared, never expanded in memory); a plain repr would expand it.
+    """
+    return _SHORT.repr(value)
+
+
+def _allowed_fields(model: type[BaseModel]) -> list[str]:
+    return list(model.model_fields)
+
+
+def clean_location(loc: tuple) -> tuple:
+    """Drop pydantic's union tags and function-validator names from a location."""
+    out = []
+    for i, part in enumerate(loc):
+        if isinstance(part, str) and i > 0 and isinstance(loc[i - 1], int) and part in SOURCE_KINDS:
+            continue
+        if isinstance(part, str) and part.startswith("function-"):
+            continue
+        out.append(part)
+    return tuple(out)
+
+
+def format_location(loc: tuple) -> str:
+    return ".".join(str(p) for p in loc)
+
+
+def problems_from_validation_error(exc: ValidationError, data: Any = None) -> list[FieldProblem]:
+    problems: list[FieldProblem] = []
+    for err in exc.errors(include_url=False):
+        raw_loc = tuple(err.get("loc", ()))
+        loc = clean_location(raw_loc)
+        etype = err.get("type", "")
+        msg = err.get("msg", "")
+        if msg.startswith("Value error, "):
+            msg = msg[len("Value error, "):]
+        if etype == "extra_forbidden":
+            name = loc[-1] if loc else "?"
+            owner = _owner_for(raw_loc)
+            hint = ""
+            if owner is not None:
+                allowed = _allowed_fields(owner)
+                close = difflib.get_close_matches(str(name), allowed, n=1)
+                hint = (f"; did you mean '{close[0]}'?" if close else "") + f"; expected one of: {', '.join(allowed)}"
+            msg = f"unknown field '{name}'{hint}"
+        elif etype == "missing":
+            msg = "required field is missing"
+        elif etype in ("union_tag_invalid", "union_tag_not_found"):
+            kind = err.get("input", {}).get("kind") if isinstance(err.get("input"), dict) else None
+            if kind is None:
+                msg = f"a heat source needs a kind: one of {', '.join(SOURCE_KINDS)}"
+            else:
+                msg = f"unknown heat source kind {_show(kind)}; expected one of {', '.join(SOURCE_KINDS)}"
+        elif etype == "literal_error":
+            expected = err.get("ctx", {}).get("expected", "")
+            msg = f"{_show(err.get('input'))} is not allowed; expected {expected}"
+        elif etype in ("model_type", "model_attributes_type", "dict_type"):
+            msg = f"expected a mapping of fields, got {type(err.get('input')).__name__}"
+        elif etype == "list_type":
+            msg = f"expected a list, got {type(err.get('input')).__name__}"
+        elif etype == "too_short" and loc and loc[-1] == "limits":
+            msg = "give at least one limit (a name and a temperature)"
+        elif etype == "string_too_short":
+            msg = "must not be empty"
+        elif etype in ("string_type",):
+            msg = f"expected text, got {_show(err.get('input'))}"
+        elif etype in ("float_parsing", "float_type"):
+            msg = f"expected a number, got {_show(err.get('input'))}"
+        elif etype in ("bool_parsing", "bool_type"):
+            msg = f"expected true or false, got {_show(err.get('input'))}"
+        elif etype in ("greater_than_equal", "less_than_equal"):
+            msg = f"{msg.lower()} (got {_show(err.get('input'))})"
+        problems.append(FieldProblem(format_location(loc) or "(case)", msg))
+    return problems
+
+
+def _owner_for(raw_loc: tuple) -> type[BaseModel] | None:
+    """Find the model that rejected an extra field, following the raw pydantic loc."""
+    model: Any = CaseSpec
+    i = 0
+    parts = list(raw_loc[:-1])
+    while i < len(parts):
+        part = parts[i]
+        if isinstance(part, int):
+            i += 1
+            continue
+        if model is None:
+            return None
+        if part in SOURCE_KINDS and i > 0 and isinstance(parts[i - 1], int):
+            model = SOURCE_KINDS[part]
+            i += 1
+            continue
+        field = model.model_fields.get(part)
+        if field is None:
+            return None
+        ann = field.annotation
+        nxt = None
+        for candidate in (VesselSpec, ContentsSpec, HeatLossSpec, LimitSpec, DetectionSpec, RecoverySpec, MetaSpec):
+            if candidate is ann or candidate in getattr(ann, "__args__", ()):
+                nxt = candidate
+        if part == "heat_sources":
+            nxt = CaseSpec  # placeholder until the kind tag
+        model = nxt
+        i += 1
+    return model
+
+
+def validate_case_data(data: Any) -> CaseSpec:
+    """Validate a parsed mapping; raise :class:`CaseError` with one problem per field."""
+    if not isinstance(data, dict):
+        raise CaseError([FieldProblem("(case)", f"a case must be a mapping of fields, got {type(data).__name__}")])
+    try:
+        spec = CaseSpec.model_validate(data)
+    except ValidationError as exc:
+        raise CaseError(problems_from_validation_error(exc, data)) from None
+    problems = []
+    area = spec.heat_loss.area
+    if area is not None:
+        try:
+            _area_value(area)
+        except ValueError as exc:
+            problems.append(FieldProblem("heat_loss.area", f"{exc} (or 'wetted' / 'total')"))
+    for i, src in enumerate(spec.heat_sources):
+        if isinstance(src, ArrheniusSpec) and src.tested_range is not None:
+            if len(src.tested_range) != 2:
+                problems.append(FieldProblem(f"heat_sources.{i}.tested_range", "expected [low, high] temperatures"))
+            else:
+                for j, v in enumerate(src.tested_range):
+                    try:
+                        _make_quantity_validator("temperature", "absolute")(v)
+                    except ValueError as exc:
+                        problems.append(FieldProblem(f"heat_sources.{i}.tested_range.{j}", str(exc)))
+    if problems:
+        raise CaseError(problems)
+    return spec
+
+
+def case_json_schema() -> dict:
+    schema = CaseSpec.model_json_schema()
+    schema["title"] = "heatscreen case file"
+    schema["description"] = ("One vessel for loss-of-cooling screening. Every physical quantity is text with a unit, "
+                             "or {value, source}. Screening only: results defer to codes, test data and qualified review.")
+    return schema

@@ -1,0 +1,298 @@
+"""Unit parsing at the boundary: text with units in, SI floats out.
+
+This is the only module that touches pint.  Quantities are written as text
+(``"2.4 m"``, ``"75 degF"``, ``"1.2e5 Btu/h"``).  A temperature unit inside a
+compound unit (``Btu/(lb*degF)``, ``W/(m^2*degC)``) means a temperature
+*difference* and is converted as such.
+"""
+from __future__ import annotations
+
+import functools
+import math
+import re
+from dataclasses import dataclass
+
+from screening.errors import InputError
+from screening.resources import shipped, unit_table_path
+
+# Each dimension the case format uses: name -> (SI unit text, pint dimensionality string)
+DIMENSIONS: dict[str, tuple[str, str]] = {
+    "length": ("m", "[length]"),
+    "area": ("m^2", "[length] ** 2"),
+    "volume": ("m^3", "[length] ** 3"),
+    "mass": ("kg", "[mass]"),
+    "density": ("kg/m^3", "[mass] / [length] ** 3"),
+    "time": ("s", "[time]"),
+    "temperature": ("K", "[temperature]"),
+    "temperature_difference": ("K", "[temperature]"),
+    "power": ("W", "[mass] * [length] ** 2 / [time] ** 3"),
+    "specific_power": ("W/kg", "[length] ** 2 / [time] ** 3"),
+    "specific_heat": ("J/(kg*K)", "[length] ** 2 / [time] ** 2 / [temperature]"),
+    "heat_capacity": ("J/K", "[mass] * [length] ** 2 / [time] ** 2 / [temperature]"),
+    "conductance": ("W/K", "[mass] * [length] ** 2 / [time] ** 3 / [temperature]"),
+    "heat_transfer_coefficient": ("W/(m^2*K)", "[mass] / [time] ** 3 / [temperature]"),
+    "thermal_conductivity": ("W/(m*K)", "[mass] * [length] / [time] ** 3 / [temperature]"),
+    "molar_energy": ("J/mol", "[mass] * [length] ** 2 / [time] ** 2 / [substance]"),
+    "specific_energy": ("J/kg", "[length] ** 2 / [time] ** 2"),
+    "fraction": ("1", "[]"),
+}
+
+# Human words for error messages.
+DIMENSION_WORDS = {
+    "length": "a length (e.g. 2.4 m, 8 ft)",
+    "area": "an area (e.g. 12 m^2, 130 ft^2)",
+    "volume": "a volume (e.g. 8 m^3, 2100 gal)",
+    "mass": "a mass (e.g. 9000 kg, 12 t, 20000 lb)",
+    "density": "a density (e.g. 1100 kg/m^3)",
+    "time": "a time (e.g. 4 h, 30 min)",
+    "temperature": "a temperature (e.g. 30 degC, 86 degF, 303.15 K)",
+    "temperature_difference": "a temperature difference (e.g. 2 K, 3.6 delta_degF)",
+    "power": "a power (e.g. 2.2 kW, 1.2e5 Btu/h)",
+    "specific_power": "a power per mass (e.g. 2 W/kg, 0.5 mW/g)",
+    "specific_heat": "a specific heat (e.g. 3.4 kJ/(kg*K), 0.8 Btu/(lb*degF))",
+    "heat_capacity": "a heat capacity (e.g. 5 MJ/K)",
+    "conductance": "a heat-loss conductance UA (e.g. 180 W/K, 950 Btu/(h*degF))",
+    "heat_transfer_coefficient": "a heat-transfer coefficient (e.g. 4.5 W/(m^2*K))",
+    "thermal_conductivity": "a thermal conductivity (e.g. 0.55 W/(m*K))",
+    "molar_energy": "an activation energy (e.g. 95 kJ/mol)",
+    "specific_energy": "an energy per mass (e.g. 300 kJ/kg)",
+    "fraction": "a fraction (e.g. 70 %, 0.7)",
+}
+
+_OFFSET_TEMPERATURES = {
+    "degC": "delta_degC", "°C": "delta_degC", "celsius": "delta_degC", "degree_Celsius": "delta_degC",
+    "degF": "delta_degF", "°F": "delta_degF", "fahrenheit": "delta_degF", "degree_Fahrenheit": "delta_degF",
+    "C": "delta_degC", "F": "delta_degF",
+}
+_TEMPERATURE_UNITS = {
+    # single temperature unit text -> (scale to K, offset in K)
+    "K": (1.0, 0.0), "kelvin": (1.0, 0.0),
+    "degC": (1.0, 273.15), "°C": (1.0, 273.15), "C": (1.0, 273.15), "celsius": (1.0, 273.15),
+    "degree_Celsius": (1.0, 273.15),
+    "degF": (5.0 / 9.0, 459.67 * 5.0 / 9.0), "°F": (5.0 / 9.0, 459.67 * 5.0 / 9.0),
+    "F": (5.0 / 9.0, 459.67 * 5.0 / 9.0), "fahrenheit": (5.0 / 9.0, 459.67 * 5.0 / 9.0),
+    "degree_Fahrenheit": (5.0 / 9.0, 459.67 * 5.0 / 9.0),
+    "degR": (5.0 / 9.0, 0.0), "°R": (5.0 / 9.0, 0.0), "rankine": (5.0 / 9.0, 0.0), "R": (5.0 / 9.0, 0.0),
+}
+_DIFFERENCE_UNITS = {
+    "K": 1.0, "kelvin": 1.0, "delta_degC": 1.0, "degC": 1.0, "°C": 1.0, "C": 1.0,
+    "delta_degF": 5.0 / 9.0, "degF": 5.0 / 9.0, "°F": 5.0 / 9.0, "F": 5.0 / 9.0,
+    "degR": 5.0 / 9.0, "R": 5.0 / 9.0, "°R": 5.0 / 9.0, "rankine": 5.0 / 9.0,
+}
+
+_NUMBER = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*?)\s*$")
+_TOKEN = re.compile(r"[A-Za-z_°µμ][A-Za-z_0-9°µμ]*")
+
+
+class UnitError(InputError, ValueError):
+    """A quantity could not be read; the message says what was wrong and what is expected."""
+
+
+@dataclass(frozen=True)
+class Parsed:
+    value: float  # SI
+    text: str  # as written
+    unit: str  # unit text as written ("" if none)
+
+
+@functools.lru_cache(maxsize=1)
+def registry():
+    """The shared pint registry (built once; cached on disk by pint where possible)."""
+    import pint
+
+    try:
+        ureg = pint.UnitRegistry(cache_folder=":auto:")
+    except Exception:  # pragma: no cover - cache folder not writable
+        ureg = pint.UnitRegistry()
+    return ureg
+
+
+def _normalise_unit_text(unit: str) -> str:
+    unit = unit.strip().replace("µ", "u").replace("μ", "u").replace("·", "*").replace("²", "^2").replace("³", "^3")
+    # Btu means the International Table Btu (1055.05585262 J), not pint's rounded 1055.056 J.
+    unit = re.sub(r"\b(?:Btu|BTU|btu)\b", "Btu_it", unit)
+    return unit
+
+
+def _compound_to_differences(unit: str) -> str:
+    """Inside a compound unit every temperature unit is a difference."""
+
+    def swap(m: re.Match) -> str:
+        word = m.group(0)
+        return _OFFSET_TEMPERATURES.get(word, word) if word in ("degC", "°C", "celsius", "degree_Celsius",
+                                                               "degF", "°F", "fahrenheit", "degree_Fahrenheit") else word
+
+    return _TOKEN.sub(swap, unit)
+
+
+# Units common on data sheets, by dimension. Their SI factors are computed with pint once and
+# shipped in screening/data/unit_table.json (rebuilt with `python -m screening.case.units`), so that a
+# case that uses only these never pays for building a pint registry. A test checks the table
+# against pint; any other unit text goes to pint.
+COMMON_UNITS: dict[str, tuple[str, ...]] = {
+    "length": ("m", "mm", "cm", "km", "ft", "in", "inch", "yd"),
+    "area": ("m^2", "m**2", "cm^2", "mm^2", "ft^2", "ft**2", "in^2"),
+    "volume": ("m^3", "m**3", "L", "l", "liter", "litre", "mL", "gal", "ft^3", "ft**3", "bbl"),
+    "mass": ("kg", "g", "t", "tonne", "lb", "lbs", "mg"),
+    "density": ("kg/m^3", "kg/m**3", "g/cm^3", "g/mL", "kg/L", "lb/ft^3", "lb/gal", "t/m^3"),
+    "time": ("s", "sec", "min", "h", "hr", "hour", "hours", "d", "day", "days", "week", "ms"),
+    "power": ("W", "kW", "MW", "mW", "Btu/h", "Btu/hr", "hp", "kcal/h", "J/s", "MJ/h", "kJ/h", "kJ/s"),
+    "specific_power": ("W/kg", "mW/g", "mW/kg", "W/g", "kW/kg", "W/t", "Btu/(lb*h)", "J/(kg*s)"),
+    "specific_heat": ("J/(kg*K)", "kJ/(kg*K)", "J/(g*K)", "kJ/(kg*degC)", "J/(kg*degC)", "J/(g*degC)",
+                      "Btu/(lb*degF)", "cal/(g*K)", "cal/(g*degC)", "kcal/(kg*K)", "kcal/(kg*degC)",
+                      "kJ/kg/K", "J/kg/K"),
+    "heat_capacity": ("J/K", "kJ/K", "MJ/K", "Btu/degF", "J/degC", "kJ/degC"),
+    "conductance": ("W/K", "kW/K", "W/degC", "kW/degC", "Btu/(h*degF)", "Btu/(hr*degF)", "Btu/h/degF"),
+    "heat_transfer_coefficient": ("W/(m^2*K)", "W/(m^2*degC)", "W/m^2/K", "kW/(m^2*K)",
+                                  "Btu/(h*ft^2*degF)", "Btu/(hr*ft^2*degF)"),
+    "thermal_conductivity": ("W/(m*K)", "W/(m*degC)", "W/m/K", "Btu/(h*ft*degF)", "Btu/(hr*ft*degF)"),
+    "molar_energy": ("J/mol", "kJ/mol", "kcal/mol", "cal/mol", "MJ/kmol", "kJ/kmol"),
+    "specific_energy": ("J/kg", "kJ/kg", "MJ/kg", "J/g", "kJ/g", "cal/g", "kcal/kg", "Btu/lb"),
+    "temperature_difference": ("delta_degC", "delta_degF"),
+}
+
+
+@functools.lru_cache(maxsize=1)
+def _shipped_table() -> dict:
+    import json
+
+    try:
+        text = shipped("data/unit_table.json").read_text(encoding="utf-8")
+    except (FileNotFoundError, OSError):
+        return {}
+    return json.loads(text)
+
+
+def build_unit_table() -> dict:
+    """SI factors of COMMON_UNITS computed with pint (for screening/data/unit_table.json)."""
+    table: dict[str, dict[str, float]] = {}
+    for dimension, units in COMMON_UNITS.items():
+        table[dimension] = {u: _pint_factor(u, dimension)[0] for u in units}
+    return table
+
+
+@functools.lru_cache(maxsize=4096)
+def unit_factor(unit: str, dimension: str) -> tuple[float, float]:
+    """(scale, offset) such that SI = value * scale + offset, for a unit text.
+
+    Raises UnitError for an unknown unit or the wrong dimension.
+    """
+    stripped = unit.strip()
+    if stripped in ("ton", "tons"):
+        raise UnitError("'ton' is ambiguous (short ton 907.18 kg, long ton 1016.05 kg, tonne 1000 kg); "
+                        "write t or tonne, short_ton or long_ton")
+    shipped = _shipped_table().get(dimension, {})
+    if stripped in shipped:
+        return (float(shipped[stripped]), 0.0)
+    return _pint_factor(unit, dimension)
+
+
+def _pint_factor(unit: str, dimension: str) -> tuple[float, float]:
+    unit = _normalise_unit_text(unit)
+    if dimension == "temperature":
+        if unit in _TEMPERATURE_UNITS:
+            return _TEMPERATURE_UNITS[unit]
+        if unit.startswith("delta_") or unit in ("delta_degC", "delta_degF"):
+            raise UnitError(f"'{unit}' is a temperature difference; expected {DIMENSION_WORDS[dimension]}")
+    if dimension == "temperature_difference" and unit in _DIFFERENCE_UNITS:
+        return (_DIFFERENCE_UNITS[unit], 0.0)
+    if dimension == "fraction":
+        if unit in ("%", "percent"):
+            return (0.01, 0.0)
+        if unit == "":
+            return (1.0, 0.0)
+    si_text, dim_text = DIMENSIONS[dimension]
+    if unit == "":
+        raise UnitError(f"a number without a unit; expected {DIMENSION_WORDS[dimension]}")
+    ureg = registry()
+    import pint
+
+    text = _compound_to_differences(unit)
+    try:
+        q = ureg.Quantity(1.0, ureg.parse_units(text))
+    except (pint.errors.UndefinedUnitError,) as exc:
+        bad = ", ".join(f"'{u}'" for u in getattr(exc, "unit_names", ()) or ()) or f"'{unit}'"
+        raise UnitError(f"unknown unit {bad}; expected {DIMENSION_WORDS[dimension]}") from None
+    except Exception:
+        raise UnitError(f"cannot read the unit '{unit}'; expected {DIMENSION_WORDS[dimension]}") from None
+    if q.dimensionality != ureg.get_dimensionality(dim_text):
+        raise UnitError(f"'{unit}' is not {DIMENSION_WORDS[dimension].split(' (')[0]}; expected {DIMENSION_WORDS[dimension]}")
+    try:
+        scale = float(q.to(ureg.parse_units(si_text.replace("K", "kelvin")) if dimension != "fraction" else "dimensionless").magnitude)
+    except Exception:  # pragma: no cover
+        raise UnitError(f"cannot convert '{unit}' to {si_text}") from None
+    return (scale, 0.0)
+
+
+def split_number(text: str) -> tuple[float, str]:
+    """Split '12.5 kg' into (12.5, 'kg'); raises UnitError if there is no leading number."""
+    m = _NUMBER.match(text)
+    if not m:
+        raise UnitError(f"'{text}' does not start with a number")
+    return float(m.group(1)), m.group(2)
+
+
+def parse_quantity(value, dimension: str) -> Parsed:
+    """Parse text with a unit into an SI float of the given dimension.
+
+    A bare number is accepted only for fractions.  Raises UnitError.
+    """
+    if isinstance(value, bool):
+        raise UnitError(f"expected {DIMENSION_WORDS[dimension]}, got {value!r}")
+    if isinstance(value, (int, float)):
+        if dimension == "fraction":
+            v = float(value)
+            return Parsed(v, str(value), "")
+        raise UnitError(f"the number {value!r} has no unit; expected {DIMENSION_WORDS[dimension]}, "
+                        f"written as text with its unit")
+    if not isinstance(value, str):
+        raise UnitError(f"expected {DIMENSION_WORDS[dimension]} as text, got {type(value).__name__}")
+    number, unit = split_number(value)
+    scale, offset = unit_factor(unit, dimension)
+    si = number * scale + offset
+    if not math.isfinite(si):
+        raise UnitError(f"'{value}' is not a finite number")
+    return Parsed(si, value, unit)
+
+
+def temperature_unit_of(text: str) -> str | None:
+    """The display family ("degC", "degF", "K", "degR") of a temperature text, if any."""
+    try:
+        _, unit = split_number(text)
+    except UnitError:
+        return None
+    unit = unit.strip()
+    if unit in ("degC", "°C", "C", "celsius", "degree_Celsius"):
+        return "degC"
+    if unit in ("degF", "°F", "F", "fahrenheit", "degree_Fahrenheit"):
+        return "degF"
+    if unit in ("K", "kelvin"):
+        return "K"
+    if unit in ("degR", "°R", "R", "rankine"):
+        return "degR"
+    return None
+
+
+def kelvin_to(value_k: float, unit: str) -> float:
+    """Convert an absolute temperature from K to a display unit."""
+    if unit == "degC":
+        return value_k - 273.15
+    if unit == "degF":
+        return value_k * 9.0 / 5.0 - 459.67
+    if unit == "degR":
+        return value_k * 9.0 / 5.0
+    return value_k
+
+
+def kelvin_difference_to(value_k: float, unit: str) -> float:
+    """Convert a temperature difference from K to a display unit's difference."""
+    return value_k * 9.0 / 5.0 if unit in ("degF", "degR") else value_k
+
+
+if __name__ == "__main__":  # rebuild the shipped table of common units
+    import json
+
+    target = unit_table_path()
+    target.parent.mkdir(exist_ok=True)
+    target.write_text(json.dumps(build_unit_table(), indent=1, sort_keys=True) + "\n", encoding="utf-8")
+    print(f"wrote {target}")

@@ -1,0 +1,85 @@
+"""Runaway criteria for a self-heating mass: TMRad and T_D24, Semenov, Frank-Kamenetskii, Stoessel's classes.
+
+Pure SI functions of temperatures, masses and :class:`screening.core.model.ArrheniusSource` sequences.
+
+- :mod:`~screening.core.runaway.rates`: heat generation and loss curves, shared numerics, kinetics cautions
+- :mod:`~screening.core.runaway.tmr`: time to maximum rate under adiabatic conditions, T_D24
+- :mod:`~screening.core.runaway.semenov`: critical ambient and steady states of a well-stirred mass
+- :mod:`~screening.core.runaway.stoessel`: adiabatic rise, MTSR, criticality, probability and severity classes
+- :mod:`~screening.core.runaway.frank_kamenetskii`: critical conditions of unstirred contents with conduction
+"""
+
+from screening.core.runaway.frank_kamenetskii import (
+    frank_kamenetskii_critical,
+    frank_kamenetskii_critical_ambient,
+    frank_kamenetskii_parameter,
+)
+from screening.core.runaway.rates import (
+    DEFAULT_MAX_EXTRAPOLATION,
+    FK_GEOMETRIES,
+    SEARCH_RANGE,
+    SECONDS_PER_HOUR,
+    T_D24_RANGE,
+    T_D24_TIME,
+    WARNING_CONSTANT_SOURCES_NOT_IN_RISE,
+    WARNING_EXTRAPOLATION,
+    WARNING_FK_ARRHENIUS_ONLY,
+    WARNING_FK_SURFACE_AT_AMBIENT,
+    WARNING_LOW_SEVERITY_PRESSURE,
+    WARNING_TRANSIENT_SOURCES,
+    WARNING_UNBOUNDED_RISE,
+    WARNING_ZERO_CONVERSION,
+    heat_generation,
+    heat_generation_slope,
+    heat_loss,
+    kinetics_warnings,
+)
+from screening.core.runaway.semenov import (
+    SemenovCritical,
+    SteadyStates,
+    semenov_critical_ambient,
+    steady_states,
+)
+from screening.core.runaway.stoessel import (
+    adiabatic_temperature_rise,
+    criticality_class,
+    mtsr,
+    severity_class,
+    tmr_probability_class,
+)
+from screening.core.runaway.tmr import t_d24, tmr_adiabatic
+
+__all__ = [
+    "DEFAULT_MAX_EXTRAPOLATION",
+    "FK_GEOMETRIES",
+    "SEARCH_RANGE",
+    "SECONDS_PER_HOUR",
+    "SemenovCritical",
+    "SteadyStates",
+    "T_D24_RANGE",
+    "T_D24_TIME",
+    "WARNING_CONSTANT_SOURCES_NOT_IN_RISE",
+    "WARNING_EXTRAPOLATION",
+    "WARNING_FK_ARRHENIUS_ONLY",
+    "WARNING_FK_SURFACE_AT_AMBIENT",
+    "WARNING_LOW_SEVERITY_PRESSURE",
+    "WARNING_TRANSIENT_SOURCES",
+    "WARNING_UNBOUNDED_RISE",
+    "WARNING_ZERO_CONVERSION",
+    "adiabatic_temperature_rise",
+    "criticality_class",
+    "frank_kamenetskii_critical",
+    "frank_kamenetskii_critical_ambient",
+    "frank_kamenetskii_parameter",
+    "heat_generation",
+    "heat_generation_slope",
+    "heat_loss",
+    "kinetics_warnings",
+    "mtsr",
+    "semenov_critical_ambient",
+    "severity_class",
+    "steady_states",
+    "t_d24",
+    "tmr_adiabatic",
+    "tmr_probability_class",
+]

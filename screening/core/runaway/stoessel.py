@@ -1,0 +1,303 @@
+"""Adiabatic temperature rise, MTSR, criticality classes, probability and severity classes."""
+from __future__ import annotations
+
+import math
+from typing import Sequence
+
+import numpy as np
+
+from screening.core.model import ConstantSource, DecayingSource
+from screening.core.runaway.rates import (
+    SECONDS_PER_HOUR,
+    WARNING_CONSTANT_SOURCES_NOT_IN_RISE,
+    WARNING_LOW_SEVERITY_PRESSURE,
+    WARNING_UNBOUNDED_RISE,
+    _check_sources,
+    _scalar_or_array,
+)
+
+# --------------------------------------------------------------------------
+# Adiabatic temperature rise, MTSR, classes
+# --------------------------------------------------------------------------
+
+def adiabatic_temperature_rise(mass, specific_heat, arrhenius_sources=(),
+                               decaying_sources: Sequence[DecayingSource] = (),
+                               constant_sources: Sequence[ConstantSource] = (),
+                               *, full_output=False):
+    r"""Adiabatic temperature rise from the accumulated reaction energy.
+
+    Parameters
+    ----------
+    mass : float, kg
+        Contents mass m (> 0).
+    specific_heat : float, J/(kg K)
+        Contents only; the wall heat capacity is ignored, which makes the
+        rise larger: conservative.
+    arrhenius_sources : sequence of :class:`screening.core.model.ArrheniusSource`
+        Each contributes ``accumulated_fraction * specific_heat_of_reaction``
+        per kg.  A source without a heat of reaction makes the rise
+        unbounded (for order 0 this is the model's meaning; for order > 0 it
+        is treated the same way, which is conservative).
+    decaying_sources : sequence of :class:`screening.core.model.DecayingSource`
+        Each contributes its remaining energy ``power * time_constant``.
+    constant_sources : sequence of :class:`screening.core.model.ConstantSource`
+        Not included in the rise (not accumulated energy); passed only so
+        that the warning :data:`WARNING_CONSTANT_SOURCES_NOT_IN_RISE` can be
+        attached when any has positive power.
+    full_output : bool
+        Also return a list of warning texts.
+
+    Returns
+    -------
+    float, K
+        ``math.inf`` when the rise is unbounded (test with
+        ``math.isinf``; the warnings say which source).
+    warnings : list of str
+        Only with ``full_output=True``.
+
+    Notes
+    -----
+    .. math:: \Delta T_{ad} = \frac{\sum_d P_d \tau_d
+              + m \sum_i X_{ac,i} \Delta h_i}{m c_p}
+
+    :math:`\int_0^\infty P e^{-t/\tau} dt = P\tau` is the energy still to
+    come from a decaying source.  The accumulated fraction times the
+    adiabatic rise is the quantity that enters the MTSR (Stoessel [1]_).
+
+    References
+    ----------
+    .. [1] Stoessel, F., Thermal Safety of Chemical Processes, Wiley-VCH (2008).
+    """
+    if not (math.isfinite(mass) and mass > 0):
+        raise ValueError("mass must be finite and > 0")
+    if not (math.isfinite(specific_heat) and specific_heat > 0):
+        raise ValueError("specific_heat must be finite and > 0")
+    sources = _check_sources(arrhenius_sources)
+    warnings: list[str] = []
+    energy = 0.0
+    unbounded = False
+    for d in decaying_sources:
+        energy += d.power * d.time_constant
+    for i, s in enumerate(sources, start=1):
+        if s.specific_heat_of_reaction is None:
+            if s.specific_power > 0 or s.accumulated_fraction > 0:
+                unbounded = True
+                warnings.append(WARNING_UNBOUNDED_RISE.format(index=i))
+            continue
+        energy += mass * s.accumulated_fraction * s.specific_heat_of_reaction
+    if any(c.power > 0 for c in constant_sources):
+        warnings.append(WARNING_CONSTANT_SOURCES_NOT_IN_RISE)
+    rise = math.inf if unbounded else energy / (mass * specific_heat)
+    if full_output:
+        return rise, warnings
+    return rise
+
+
+def mtsr(process_temperature, temperature_rise):
+    r"""Maximum temperature of the synthesis reaction (MTSR).
+
+    Parameters
+    ----------
+    process_temperature : float or array, K
+        Process temperature Tp at the moment cooling fails.
+    temperature_rise : float, array or None, K
+        Adiabatic rise of the *accumulated* energy, as returned by
+        :func:`adiabatic_temperature_rise` (already weighted by the
+        accumulated fraction); may be ``inf``.
+
+    Returns
+    -------
+    float, array or None, K
+        None when ``temperature_rise`` is None.
+
+    Notes
+    -----
+    .. math:: MTSR = T_p + X_{ac} \Delta T_{ad}
+
+    References
+    ----------
+    .. [1] Stoessel, F., Thermal Safety of Chemical Processes, Wiley-VCH (2008).
+    """
+    if temperature_rise is None or process_temperature is None:
+        return None
+    return _scalar_or_array(np.asarray(process_temperature, dtype=float)
+                            + np.asarray(temperature_rise, dtype=float))
+
+
+def _missing(x):
+    return x is None or (isinstance(x, float) and math.isnan(x))
+
+
+def criticality_class(tp, mtsr, mtt, td24, *, full_output=False):
+    r"""Criticality class 1..5 from the order of MTSR, MTT and T_D24.
+
+    Parameters
+    ----------
+    tp : float or None, K
+        Process temperature; used only to check that it lies below MTSR,
+        MTT and T_D24, as the scheme presumes (None skips the check).
+    mtsr : float or None, K
+        MTSR, e.g. from :func:`mtsr` (the parameter shadows that function
+        inside this one only).  May be ``inf`` (unbounded rise).
+    mtt : float or None, K
+        Maximum temperature for technical reasons (boiling point when open,
+        the allowed limit when closed).
+    td24 : float or None, K
+        Pass ``math.inf`` if TMRad is known to exceed 24 h at every relevant
+        temperature; None (not known) gives None.
+    full_output : bool
+        Also return a list of warning texts.
+
+    Returns
+    -------
+    int or None
+        None when MTSR, MTT or T_D24 is missing (None or NaN).
+    warnings : list of str
+        Only with ``full_output=True``.
+
+    Notes
+    -----
+    Stoessel's classes [1]_:
+
+    1. MTSR < MTT < T_D24
+    2. MTSR < T_D24 < MTT
+    3. MTT < MTSR < T_D24
+    4. MTT < T_D24 < MTSR
+    5. T_D24 below both MTSR and MTT
+
+    Ties are resolved toward the higher (more critical) class: a
+    temperature equal to a threshold counts as having reached it.  So
+    T_D24 <= min(MTSR, MTT) gives 5; otherwise MTSR >= T_D24 gives 4,
+    MTT >= T_D24 gives 2, and with both below T_D24, MTSR >= MTT gives 3,
+    else 1.
+
+    References
+    ----------
+    .. [1] Stoessel, F., Thermal Safety of Chemical Processes, Wiley-VCH (2008).
+    """
+    warnings: list[str] = []
+    if _missing(mtsr) or _missing(mtt) or _missing(td24):
+        result = None
+        warnings.append("Criticality class not determined: MTSR, MTT or T_D24 is unknown.")
+    else:
+        m, t, d = float(mtsr), float(mtt), float(td24)
+        if d <= min(m, t):
+            result = 5
+        elif m >= d:
+            result = 4
+        elif t >= d:
+            result = 2
+        elif m >= t:
+            result = 3
+        else:
+            result = 1
+        if not _missing(tp):
+            tp = float(tp)
+            if tp > m:
+                warnings.append("The process temperature is above the MTSR: the "
+                                "temperature rise is negative; check the inputs.")
+            if tp >= d:
+                warnings.append("The process temperature is at or above T_D24: the "
+                                "decomposition is fast at normal operation already.")
+            if tp >= t:
+                warnings.append("The process temperature is at or above the MTT.")
+    if full_output:
+        return result, warnings
+    return result
+
+
+_PROBABILITY_3 = ((8.0, "high"), (24.0, "medium"), (math.inf, "low"))
+_PROBABILITY_6 = ((1.0, "frequent"), (8.0, "probable"), (24.0, "occasional"),
+                  (50.0, "seldom"), (100.0, "remote"), (math.inf, "almost impossible"))
+
+
+def tmr_probability_class(tmr_s, levels=3):
+    """Probability class of a runaway from the adiabatic time to maximum rate.
+
+    Parameters
+    ----------
+    tmr_s : float or None, s
+        TMRad, normally at the MTSR.
+    levels : {3, 6}
+        Three levels: "high" (< 8 h), "medium" (8-24 h), "low" (> 24 h).
+        Six levels: "frequent" (< 1 h), "probable" (1-8 h), "occasional"
+        (8-24 h), "seldom" (24-50 h), "remote" (50-100 h), "almost
+        impossible" (> 100 h).
+
+    Returns
+    -------
+    str or None
+        None when ``tmr_s`` is None or NaN.  A time equal to a boundary gets
+        the more probable class (e.g. exactly 8 h is "high").
+
+    Notes
+    -----
+    Stoessel [1]_ (values from memory).  Probability and severity
+    (:func:`severity_class`) are combined in a risk matrix, not used as two
+    independent criteria.
+
+    References
+    ----------
+    .. [1] Stoessel, F., Thermal Safety of Chemical Processes, Wiley-VCH (2008).
+    """
+    if _missing(tmr_s):
+        return None
+    if levels == 3:
+        table = _PROBABILITY_3
+    elif levels == 6:
+        table = _PROBABILITY_6
+    else:
+        raise ValueError("levels must be 3 or 6")
+    hours = float(tmr_s) / SECONDS_PER_HOUR
+    if hours < 0:
+        raise ValueError("tmr_s must be >= 0")
+    for bound, name in table:
+        if hours <= bound:
+            return name
+    return table[-1][1]
+
+
+def severity_class(temperature_rise, *, full_output=False):
+    """Severity class from the adiabatic temperature rise.
+
+    Parameters
+    ----------
+    temperature_rise : float or None, K
+        May be ``inf``.
+    full_output : bool
+        Also return a list of warning texts.
+
+    Returns
+    -------
+    str or None
+        "high" (>= 200 K), "medium" (50-200 K) or "low" (< 50 K); a value
+        equal to a boundary gets the more severe class.  None when the rise
+        is None or NaN.
+    warnings : list of str
+        Only with ``full_output=True``: "low" carries
+        :data:`WARNING_LOW_SEVERITY_PRESSURE`.
+
+    Notes
+    -----
+    Stoessel [1]_ (values from memory): high above 200 K, medium 50-200 K,
+    low below 50 K with no pressure effect.
+
+    References
+    ----------
+    .. [1] Stoessel, F., Thermal Safety of Chemical Processes, Wiley-VCH (2008).
+    """
+    warnings: list[str] = []
+    if _missing(temperature_rise):
+        result = None
+    else:
+        rise = float(temperature_rise)
+        if rise >= 200.0:
+            result = "high"
+        elif rise >= 50.0:
+            result = "medium"
+        else:
+            result = "low"
+            warnings.append(WARNING_LOW_SEVERITY_PRESSURE)
+    if full_output:
+        return result, warnings
+    return result

@@ -1,0 +1,15 @@
+"""The base of every error caused by the user's input.
+
+An :class:`InputError` means "the input is wrong, and the message says where and what is
+expected": the command line exits with code 2 and the service answers 4xx. Anything else that
+escapes is a failure inside the tool (exit 3, HTTP 500). Each layer raises its own subclass
+(``CaseError`` for case files, ``UnitError`` for quantities, ``RuleSetError`` for rule files,
+``RegisterError`` for registers, ``TemplateError`` and ``MemoInputError`` for memos).
+"""
+from __future__ import annotations
+
+
+class InputError(Exception):
+    """A problem with what the user gave the tool (exit code 2), never a fault of the tool itself."""
+
+    exit_code = 2

@@ -1,0 +1,176 @@
+"""Screen a whole register of vessels: every row accounted for.
+
+Pipeline: read the register, turn each row into a case mapping (base case,
+optional per-row case file, then the row's cells), validate it with the same
+schema as a case file, prepare the SI model, screen all closed-form rows at
+once with the vectorised engine (rows with Arrhenius sources one by one),
+apply the rule set, and write the output set atomically.
+
+Validation is fast because rows that share a structure (the same filled
+columns and the same non-quantity values such as heat-source kinds) are
+validated in full once; for the other rows of the group only the quantity
+cells are parsed and range-checked, with the same validator the schema uses.
+A row whose cells fail that check is validated in full, so its errors are
+exactly those a case file would get.
+"""
+from __future__ import annotations
+
+import hashlib
+import json
+import math
+import os
+import shutil
+import tempfile
+from concurrent.futures import ProcessPoolExecutor
+from dataclasses import dataclass
+from pathlib import Path
+
+from screening import verdict as rules_mod
+from screening.register.chunks import ChunkResult, ChunkWork, RowOutcome, screen_chunk
+from screening.register.outputs import (
+    _append_file,
+    _swap_in,
+    _write_results_csv,
+    errors_csv,
+)
+from screening.register.reading import Register, read_register
+from screening.register.rows import load_base
+from screening.report.register_summary import write_register_summary
+
+PARALLEL_THRESHOLD = 4000  # rows; below this a single process is faster than starting workers
+
+
+@dataclass
+class BatchSummary:
+    rows: int
+    valid: int
+    invalid: int
+    verdict_counts: dict
+    exit_code: int
+    out_dir: str
+
+    def as_dict(self) -> dict:
+        return {"rows": self.rows, "valid": self.valid, "invalid": self.invalid,
+                "verdict_counts": self.verdict_counts, "exit_code": self.exit_code, "out_dir": self.out_dir}
+
+
+def run_batch(register_path, out_dir, base_path=None, rules_path=None, memos=False, allow_case_file_column=True,
+              progress=None, templates_dir=None, workers: int | None = None) -> dict:
+    """Screen a register and write the output set; returns a summary dict.
+
+    Raises RegisterError (the file cannot be read at all), CaseError (the base
+    case cannot be read) or RuleSetError (bad rule file) before anything is written.
+    """
+    rules_mod.load_rule_set(rules_path)  # fail early, before any work
+    register = read_register(register_path)
+    base = load_base(base_path)
+    out = Path(out_dir)
+    out.parent.mkdir(parents=True, exist_ok=True)
+    tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.tmp-", dir=str(out.parent)))
+    try:
+        summary = _run_into(register, base, tmp, out, rules_path, memos, allow_case_file_column, progress,
+                            templates_dir, workers)
+        _swap_in(tmp, out)
+    except BaseException:
+        shutil.rmtree(tmp, ignore_errors=True)
+        raise
+    return summary.as_dict()
+
+
+CHUNK_ROWS = 5000  # at most this many rows per chunk: smaller chunks keep a worker's data in cache
+
+
+def _chunks(n: int, workers: int) -> list[tuple[int, int]]:
+    if n == 0:
+        return [(0, 0)]
+    size = max(1, min(CHUNK_ROWS, math.ceil(n / max(1, workers * 4))))
+    return [(a, min(n, a + size)) for a in range(0, n, size)]
+
+
+def _run_into(register: Register, base: dict, tmp: Path, out: Path, rules_path, memos, allow_case_file, progress,
+              templates_dir, workers) -> BatchSummary:
+    import gc
+
+    enabled = gc.isenabled()
+    gc.disable()  # hundreds of thousands of small objects: the cyclic collector only costs time here
+    try:
+        return _run_into_body(register, base, tmp, out, rules_path, memos, allow_case_file, progress,
+                              templates_dir, workers)
+    finally:
+        if enabled:
+            gc.enable()
+
+
+def _run_into_body(register: Register, base: dict, tmp: Path, out: Path, rules_path, memos, allow_case_file,
+                   progress, templates_dir, workers) -> BatchSummary:
+    id_col = next((c.index for c in register.columns if c.path == ("id",)), None)
+    memos_dir = None
+    if memos:
+        memos_dir = tmp / "memos"
+        memos_dir.mkdir()
+    n = len(register.rows)
+    if workers is None:
+        heavy = (memos and n >= 8) or (isinstance(base.get("uncertainty"), dict) and n >= 20)
+        workers = min(2, os.cpu_count() or 1) if (n >= PARALLEL_THRESHOLD or heavy) else 1
+    spans = _chunks(n, workers)
+
+    base_digest = hashlib.sha256(json.dumps(base, sort_keys=True, default=str).encode("utf-8")).hexdigest()
+
+    parts_dir = tmp / ".parts"
+    parts_dir.mkdir()
+
+    def work(a, b):
+        return ChunkWork(register.columns, base, str(register.path.parent), allow_case_file, rules_path,
+                         register.rows[a:b], register.row_numbers[a:b], id_col, register.bad_columns,
+                         str(memos_dir) if memos_dir else None, str(templates_dir) if templates_dir else None,
+                         base_digest, str(parts_dir / f"part-{a:09d}"))
+
+    outcomes: list[RowOutcome] = []
+    chunks: list[ChunkResult] = []
+    json_out = open(tmp / "results.json", "wb")
+    json_out.write(b"[")
+
+    def take(chunk: ChunkResult, done: int) -> None:
+        """Collect a finished chunk, in order; its results.json items are appended at once."""
+        outcomes.extend(chunk.outcomes)
+        chunks.append(chunk)
+        if chunk.json_part is not None and os.path.getsize(chunk.json_part):
+            if json_out.tell() > 1:
+                json_out.write(b",\n")
+            _append_file(json_out, chunk.json_part)
+        if progress:
+            progress(done, n)
+
+    try:
+        if workers > 1 and len(spans) > 1:
+            import multiprocessing
+
+            if multiprocessing.current_process().daemon:
+                workers = 1  # a daemonic worker (e.g. the service's) cannot start processes of its own
+        if workers <= 1 or len(spans) == 1:
+            for a, b in spans:
+                take(screen_chunk(work(a, b)), b)
+        else:
+            with ProcessPoolExecutor(max_workers=workers) as pool:
+                futures = [pool.submit(screen_chunk, work(a, b)) for a, b in spans]
+                for (a, b), fut in zip(spans, futures):
+                    take(fut.result(), b)
+        json_out.write(b"]\n")
+    finally:
+        json_out.close()
+    results = [o.result for o in outcomes if o.result is not None]
+    errors = [{"row": 1, "id": None, "field": p.field, "message": p.message} for p in register.header_problems]
+    errors += [{"row": o.row, "id": o.id, "field": p.field, "message": p.message}
+               for o in outcomes for p in o.problems]
+    _write_results_csv(tmp / "results.csv", chunks)
+    shutil.rmtree(parts_dir, ignore_errors=True)
+    (tmp / "errors.csv").write_text(errors_csv(errors), encoding="utf-8", newline="")
+
+    write_register_summary(results, errors, tmp / "summary.pdf", templates_dir=templates_dir, summarised=True)
+    counts = {"pass": 0, "review": 0, "fail": 0}
+    for r in results:
+        counts[r.get("verdict", "review")] = counts.get(r.get("verdict", "review"), 0) + 1
+    invalid = sum(1 for o in outcomes if o.result is None)
+    code = 2 if (invalid or register.header_problems) else (1 if counts["review"] or counts["fail"] else 0)
+    return BatchSummary(rows=n, valid=len(results), invalid=invalid, verdict_counts=counts, exit_code=code,
+                        out_dir=str(out))

@@ -1,0 +1,257 @@
+"""Screen one chunk of register rows (in a worker process or in the parent)."""
+from __future__ import annotations
+
+import hashlib
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from screening import verdict as rules_mod
+from screening.case.paths import apply_updates
+from screening.case.prepare import collect_inputs, prepare_case
+from screening.case.schema import CaseError, FieldProblem
+from screening.register.columns import VARYING_KEYS, plan_group, screen_group
+from screening.register.outputs import csv_parts, dumps, results_csv_from_parts
+from screening.register.reading import Column
+from screening.register.rows import RowContext
+from screening.register.validation import _derive_inputs, direct_prepared, validate_rows
+from screening.register.vectorised import vectorised_values
+from screening.report.memo import write_memo
+from screening.report.register_summary import summarise_register_results
+from screening.result import memo_view, public_result
+from screening.run.screen_case import screen_prepared
+
+
+@dataclass
+class RowOutcome:
+    row: int
+    id: str | None
+    result: dict | None = None  # the register summary's row for this vessel (None: not screened)
+    json: bytes | None = None  # the full result object, serialised
+    problems: list[FieldProblem] = field(default_factory=list)
+
+
+# ------------------------------------------------------------------ screening
+
+
+def _row_hash(work: "ChunkWork", cells: list[str]) -> str:
+    """sha256 of what defines the row: the base case, the headers and the row's cells."""
+    prefixes = work.__dict__.get("_hash_prefixes")
+    if prefixes is None:
+        prefixes = work.__dict__["_hash_prefixes"] = [(col.index, "\x1f" + col.header + "\x1e")
+                                                      for col in work.columns]
+    n = len(cells)
+    text = work.base_digest + "".join(prefix + cells[index] for index, prefix in prefixes if index < n and cells[index])
+    return hashlib.sha256(text.encode("utf-8")).hexdigest()
+
+
+@dataclass
+class ChunkWork:
+    columns: list[Column]
+    base: dict
+    register_dir: str
+    allow_case_file: bool
+    rules_path: str | None
+    rows: list[list[str]]
+    row_numbers: list[int]
+    id_column: int | None
+    bad_columns: dict
+    memos_dir: str | None
+    templates_dir: str | None
+    base_digest: str = ""
+    part_stem: str | None = None  # this chunk writes <stem>.json (results.json items) and <stem>.csv (rows)
+
+
+@dataclass
+class ChunkResult:
+    outcomes: list[RowOutcome]
+    json_part: str | None = None
+    csv_part: str | None = None
+    limit_names: list[str] = field(default_factory=list)  # the results.csv limit columns of csv_part, in order
+
+
+def screen_chunk(work: ChunkWork) -> ChunkResult:
+    """Validate, screen and judge a block of rows (runs in a worker process)."""
+    import gc
+
+    enabled = gc.isenabled()
+    gc.disable()  # many small objects live at once; the cyclic collector only slows this down
+    try:
+        return _screen_chunk(work)
+    finally:
+        if enabled:
+            gc.enable()
+
+
+def _structural_problems(work: ChunkWork, cells: list[str]) -> list[FieldProblem]:
+    """Problems of a row that no schema sees: values under bad headers or under no header."""
+    problems = []
+    for index, header in work.bad_columns.items():
+        if index < len(cells) and cells[index].strip():
+            problems.append(FieldProblem(f"(column {index + 1})", f"a value under the header '{header}', "
+                                         f"which is not a valid field path; the row is not screened"))
+    width = work.__dict__.get("_width")
+    if width is None:
+        width = work.__dict__["_width"] = max([c.index for c in work.columns] + list(work.bad_columns) + [-1]) + 1
+    if len(cells) > width and any(c.strip() for c in cells[width:]):
+        problems.append(FieldProblem("(row)", "values in columns without a header; the row is not screened"))
+    return problems
+
+
+def _screen_chunk(work: ChunkWork) -> ChunkResult:
+    ctx = RowContext(work.columns, work.base, work.register_dir, work.allow_case_file)
+    rep_inputs: dict[int, list[dict]] = {}
+    rep_prepared: dict[int, object] = {}
+    rule_set = rules_mod.load_rule_set(work.rules_path)
+    columnar: dict[int, tuple] = {}  # row index -> (result object, its group's known rule quantities)
+
+    def prepared_rep(rep_index, rep_spec):
+        if rep_index not in rep_prepared:
+            try:
+                rep_prepared[rep_index] = prepare_case(rep_spec)
+            except CaseError:
+                rep_prepared[rep_index] = None
+        return rep_prepared[rep_index]
+
+    def take_group(rep_index, rep_spec, fast_cols, members):
+        if work.memos_dir is not None:
+            return members  # memos need each row's history: the general path
+        rep = prepared_rep(rep_index, rep_spec)
+        plan = plan_group(rep, fast_cols) if rep is not None else None
+        if plan is None:
+            return members
+        clean, others = [], []
+        for i in members:
+            (others if _structural_problems(work, work.rows[i]) else clean).append(i)
+
+        def rep_result(values):
+            return public_result(screen_prepared(rep, None, values=values, with_history=False))
+
+        group = screen_group(rep, rep_index, work.rows, clean, plan, lambda cells: _row_hash(work, cells), rep_result)
+        if group.results:
+            known = rules_mod.constant_quantities(group.template, VARYING_KEYS)
+            for i, result in group.results.items():
+                columnar[i] = (result, known)
+        return sorted(group.left + others)
+
+    validated = validate_rows(ctx, work.rows, build_specs=False, take_group=take_group)
+    outcomes: list[RowOutcome] = []
+    screened: list[tuple[RowOutcome, dict]] = []  # rows with a result, and their result objects
+    closed, closed_idx = [], []
+    prepared_all: list = [None] * len(work.rows)
+    for i, item in enumerate(validated):
+        row_no = work.row_numbers[i]
+        cells = work.rows[i]
+        if item is None:  # screened with its uniform group
+            outcomes.append(RowOutcome(row_no, columnar[i][0]["id"]))
+            continue
+        spec, problems, data = item[:3]
+        hint = item[3] if len(item) > 3 else None
+        direct = None
+        if hint is not None:
+            rep_index, updates = hint
+            rep = prepared_rep(rep_index, validated[rep_index][0])
+            if rep is not None:
+                direct = direct_prepared(rep, updates)
+            if direct is None:
+                spec = apply_updates(validated[rep_index][0], updates)
+            else:
+                spec = direct.spec
+        rid = spec.id if spec is not None else _row_id(work, cells, data)
+        outcome = RowOutcome(row_no, rid)
+        outcome.problems = list(problems) + _structural_problems(work, cells)
+        if direct is not None and not outcome.problems:
+            prepared_all[i] = (direct, _row_hash(work, cells))
+            if not direct.model.arrhenius_sources:
+                closed.append(direct)
+                closed_idx.append(i)
+        elif spec is not None and not outcome.problems:
+            try:
+                inputs = None
+                if hint is not None:
+                    rep_index, updates = hint
+                    if rep_index not in rep_inputs:
+                        rep_inputs[rep_index] = collect_inputs(validated[rep_index][0])
+                    inputs = _derive_inputs(rep_inputs[rep_index], updates)
+                prep = prepare_case(spec, inputs=inputs)
+                prepared_all[i] = (prep, _row_hash(work, cells))
+                if not prep.model.arrhenius_sources:
+                    closed.append(prep)
+                    closed_idx.append(i)
+            except CaseError as exc:
+                outcome.problems.extend(exc.problems)
+        outcomes.append(outcome)
+    values = dict(zip(closed_idx, vectorised_values(closed)))
+    for i, outcome in enumerate(outcomes):
+        if i in columnar:
+            result, known = columnar[i]
+            prep = None
+        elif prepared_all[i] is None or outcome.problems:
+            continue
+        else:
+            prep, case_hash = prepared_all[i]
+            known = None
+            try:
+                result = screen_prepared(prep, case_hash, values=values.get(i),
+                                         with_history=work.memos_dir is not None)
+            except Exception as exc:  # noqa: BLE001 - one bad row must not lose the others
+                outcome.problems.append(FieldProblem("(row)", f"internal error while screening this row: "
+                                                              f"{type(exc).__name__}: {exc}"))
+                continue
+        rules_mod.apply_verdict(result, rules_mod.evaluate(rule_set, result, known))
+        result["register_row"] = outcome.row
+        if work.memos_dir is not None:
+            write_memo(memo_view(result), Path(work.memos_dir) / f"{_safe_name(result['id'])}-row{outcome.row}.pdf",
+                       templates_dir=work.templates_dir)
+        public = public_result(result) if prep is not None else result
+        try:
+            outcome.json = dumps(public)
+        except (TypeError, ValueError) as exc:
+            outcome.problems.append(FieldProblem("(row)", f"internal error: result not serialisable: {exc}"))
+            continue
+        screened.append((outcome, public))
+    return _chunk_outputs(work, outcomes, screened)
+
+
+def _chunk_outputs(work: ChunkWork, outcomes: list[RowOutcome], screened: list) -> ChunkResult:
+    """The chunk's summary rows, and its results.json items and results.csv rows written to part files
+    (handing back files, not bytes, is cheaper than pickling them)."""
+    publics = [public for _, public in screened]
+    for (outcome, _), row in zip(screened, summarise_register_results(publics, work.templates_dir)):
+        outcome.result = row
+    parts = [csv_parts(public) for public in publics]
+    names = _limit_names(parts)
+    out = ChunkResult(outcomes, limit_names=names)
+    if work.part_stem is None:
+        return out
+    out.json_part, out.csv_part = work.part_stem + ".json", work.part_stem + ".csv"
+    with open(out.json_part, "wb") as fh:
+        fh.write(b",\n".join(o.json for o in outcomes if o.json is not None))
+    for o in outcomes:
+        o.json = None  # written
+    with open(out.csv_part, "w", encoding="utf-8", newline="") as fh:
+        fh.write(results_csv_from_parts(parts, names, header=False))
+    return out
+
+
+def _limit_names(parts: list) -> list[str]:
+    """Limit names in order of first appearance."""
+    names: dict[str, None] = {}
+    for _, limits, _ in parts:
+        for name in limits:
+            names.setdefault(name)
+    return list(names)
+
+
+def _safe_name(text: str) -> str:
+    keep = "".join(ch if ch.isalnum() or ch in "-_." else "_" for ch in str(text))
+    return keep[:80] or "case"
+
+
+def _row_id(work: ChunkWork, cells, data) -> str | None:
+    if work.id_column is not None and work.id_column < len(cells) and cells[work.id_column]:
+        return cells[work.id_column]
+    if isinstance(data, dict) and data.get("id") is not None:
+        return str(data["id"])
+    if isinstance(work.base, dict) and work.base.get("id") is not None:
+        return str(work.base["id"])
+    return None

@@ -1,0 +1,175 @@
+"""Reading a vessel register (CSV or Excel) into rows of case-file fields.
+
+Columns are dotted paths into the case schema (``contents.mass``,
+``heat_sources.1.time_constant``, ``limits.0.temperature``).  A unit is given in
+the cell (``12 t``) or once in the header in brackets (``contents.mass [kg]``,
+then bare numbers in that column).  A ``case_file`` column may name a case file
+per row, resolved relative to the register's folder and never outside it.
+"""
+from __future__ import annotations
+
+import csv
+import io
+import math
+import re
+import zipfile
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from screening.case.schema import FieldProblem
+from screening.errors import InputError
+
+CASE_FILE_COLUMN = "case_file"
+MAX_ROWS = 1_000_000
+MAX_XLSX_UNCOMPRESSED = 512 * 1024 * 1024  # bytes, guards against decompression bombs
+
+_HEADER = re.compile(r"^\s*([A-Za-z_][A-Za-z0-9_\-]*(?:\.[A-Za-z0-9_\-]+)*)\s*(?:\[\s*([^\]]*?)\s*\])?\s*$")
+
+
+class RegisterError(InputError):
+    """The register as a whole cannot be read (not a row problem)."""
+
+    def __init__(self, message: str):
+        self.message = message
+        super().__init__(message)
+
+
+@dataclass(frozen=True)
+class Column:
+    index: int
+    header: str
+    path: tuple  # str and int parts
+    unit: str | None
+
+    @property
+    def dotted(self) -> str:
+        return ".".join(str(p) for p in self.path)
+
+
+@dataclass
+class Register:
+    path: Path
+    columns: list[Column]
+    rows: list[list[str]]  # cell text, "" for empty
+    row_numbers: list[int]  # spreadsheet row number (header = 1)
+    header_problems: list[FieldProblem] = field(default_factory=list)  # bad headers, reported once as row 1
+    bad_columns: dict = field(default_factory=dict)  # column index -> header text of a column that was not read
+
+
+def parse_header(text: str, index: int) -> tuple[Column | None, str | None]:
+    """A header cell -> Column, or an error message."""
+    raw = (text or "").strip()
+    if not raw:
+        return None, None
+    m = _HEADER.match(raw)
+    if not m:
+        return None, (f"column {index + 1} header '{raw}' is not a dotted field path with an optional unit in "
+                      f"brackets, such as 'contents.mass [kg]'")
+    parts = []
+    for p in m.group(1).split("."):
+        parts.append(int(p) if p.isdigit() else p)
+    if isinstance(parts[0], int):
+        return None, f"column {index + 1} header '{raw}' must start with a field name"
+    unit = m.group(2)
+    if unit is not None and unit.strip() == "":
+        unit = None
+    return Column(index, raw, tuple(parts), unit), None
+
+
+def _cell_text(value) -> str:
+    if value is None:
+        return ""
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    if isinstance(value, int):
+        return str(value)
+    if isinstance(value, float):
+        if math.isfinite(value) and value.is_integer() and abs(value) < 1e15:
+            return str(int(value))
+        return repr(value)
+    return str(value).strip()
+
+
+def _read_csv(path: Path) -> list[list[str]]:
+    raw = path.read_bytes()
+    try:
+        text = raw.decode("utf-8-sig")
+    except UnicodeDecodeError:
+        text = raw.decode("latin-1")
+    sample = text[:4096]
+    try:
+        dialect = csv.Sniffer().sniff(sample, delimiters=",;\t")
+    except csv.Error:
+        dialect = csv.excel
+    reader = csv.reader(io.StringIO(text, newline=""), dialect)
+    return [[c.strip() for c in row] for row in reader]
+
+
+def _check_xlsx_size(path: Path) -> None:
+    try:
+        with zipfile.ZipFile(path) as z:
+            total = sum(i.file_size for i in z.infolist())
+    except zipfile.BadZipFile:
+        raise RegisterError(f"{path.name} is not a valid .xlsx file") from None
+    if total > MAX_XLSX_UNCOMPRESSED:
+        raise RegisterError(f"{path.name} unpacks to {total} bytes, more than the limit of {MAX_XLSX_UNCOMPRESSED}")
+
+
+def _read_xlsx(path: Path) -> list[list[str]]:
+    _check_xlsx_size(path)
+    import openpyxl
+
+    wb = openpyxl.load_workbook(path, read_only=True, data_only=True)
+    try:
+        ws = wb.worksheets[0]
+        rows = []
+        for i, row in enumerate(ws.iter_rows(values_only=True)):
+            if i > MAX_ROWS + 1:
+                raise RegisterError(f"{path.name} has more than {MAX_ROWS} rows")
+            rows.append([_cell_text(v) for v in row])
+        return rows
+    finally:
+        wb.close()
+
+
+def read_register(path: str | Path) -> Register:
+    """Read a CSV or .xlsx register; raise RegisterError if the file cannot be read at all."""
+    p = Path(path)
+    if not p.is_file():
+        raise RegisterError(f"no such register file: {p}")
+    suffix = p.suffix.lower()
+    if suffix in (".xlsx", ".xlsm"):
+        table = _read_xlsx(p)
+    elif suffix in (".csv", ".txt", ".tsv"):
+        table = _read_csv(p)
+    else:
+        raise RegisterError(f"{p.name}: a register must be a .csv or .xlsx file")
+    if not table or not any(c for c in table[0]):
+        raise RegisterError(f"{p.name} has no header row")
+    if len(table) - 1 > MAX_ROWS:
+        raise RegisterError(f"{p.name} has more than {MAX_ROWS} rows")
+    header = table[0]
+    columns, problems = [], []
+    bad_columns: dict[int, str] = {}
+    seen = {}
+    for i, h in enumerate(header):
+        col, err = parse_header(h, i)
+        if err:
+            problems.append(FieldProblem(f"(column {i + 1})", err))
+            bad_columns[i] = h
+        elif col is not None:
+            if col.path in seen:
+                problems.append(FieldProblem(col.dotted, f"column {i + 1} repeats the field of column {seen[col.path] + 1}"))
+                bad_columns[i] = h
+                continue
+            seen[col.path] = i
+            columns.append(col)
+    rows, numbers = [], []
+    width = len(header)
+    for n, row in enumerate(table[1:], start=2):
+        if not any(c.strip() for c in row):
+            continue  # blank line
+        cells = row + [""] * (width - len(row)) if len(row) < width else row
+        rows.append(cells)
+        numbers.append(n)
+    return Register(p, columns, rows, numbers, problems, bad_columns)

@@ -1,0 +1,1 @@
+"""What people read: the plain-text report, the PDF memo, the register summary, their templates and charts."""

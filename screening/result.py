@@ -1,0 +1,42 @@
+"""The result contract: the JSON object of a screened case and the view the memo takes.
+
+Keys ending in ``_s``, ``_K``, ``_W``, ``_kg`` carry SI values. Keys starting with ``_``
+(plotting arrays) are stripped from the JSON (:func:`public_result`); the memo takes
+:func:`memo_view`.
+"""
+from __future__ import annotations
+
+import math
+
+#: Points of the plotted temperature history in a result (plus turning points and crossings).
+HISTORY_POINTS = 401
+
+
+def public_result(result: dict) -> dict:
+    """The JSON object: without the plotting arrays."""
+    return {k: v for k, v in result.items() if not k.startswith("_")}
+
+
+def finite_or_null(obj):
+    """A copy with every non-finite float replaced by None (JSON has no inf or NaN)."""
+    if isinstance(obj, float):
+        return obj if math.isfinite(obj) else None
+    if isinstance(obj, dict):
+        return {k: finite_or_null(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [finite_or_null(v) for v in obj]
+    return obj
+
+
+def memo_view(result: dict) -> dict:
+    """The object the memo writer takes: JSON keys plus history, heat balance, recovery path."""
+    out = public_result(result)
+    if result.get("_history") is not None:
+        out["history"] = result["_history"]
+    if result.get("_heat_balance") is not None:
+        out["heat_balance"] = result["_heat_balance"]
+    if result.get("_recovery_history") is not None:
+        out["recovery_history"] = result["_recovery_history"]
+    if result.get("_uncertainty_cdf") is not None:
+        out["uncertainty_cdf"] = result["_uncertainty_cdf"]
+    return out

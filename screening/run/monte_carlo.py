@@ -1,0 +1,397 @@
+"""How sure is the margin: Monte Carlo over uncertain inputs, sensitivity, percentiles.
+
+Uncertain inputs are named by their dotted case path and given a distribution
+(uniform, normal, triangular, lognormal).  Spreads may be absolute or relative
+to the case's own value (``sd: 10 %``, or a ``gsd`` about it), so one block in a
+register's base case applies to every row's own values.  Samples are drawn with
+numpy's PCG64 generator or, as an option, by Latin hypercube sampling
+(``scipy.stats.qmc``); physically impossible samples (a negative mass, a
+temperature at or below absolute zero) are rejected and counted, never clipped.
+
+Every sample is screened by the vectorised engines: the exact closed form
+for constant and decaying sources (:mod:`screening.core.time_to_limit_batch`) and the
+vectorised Rosenbrock integrator for Arrhenius sources
+(:mod:`screening.core.arrhenius_history_batch`).
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from screening.case.paths import apply_updates, locate_quantity
+from screening.case.prepare import PreparedCase, prepare_case
+from screening.case.schema import (
+    ArrheniusSpec,
+    CaseError,
+    CaseSpec,
+    ConstantSpec,
+    DecayingSpec,
+    FieldProblem,
+    FireSpec,
+    HeatingMediumSpec,
+)
+from screening.case.uncertainty_plan import (
+    UncertainInput,
+    UncertaintyPlan,
+    draw,
+    physically_possible,
+    plan_uncertainty,
+    quantile,
+)
+from screening.case.units import DIMENSIONS
+
+SWING_QUANTILES = (0.05, 0.95)  # one-at-a-time swings: each input at its 5th and 95th percentile
+
+
+# ------------------------------------------------------------------ parameter arrays
+
+
+@dataclass
+class SampleArrays:
+    """SI parameters of N sample-cases for the vectorised engines."""
+
+    m: np.ndarray
+    cp: np.ndarray
+    wall: np.ndarray
+    ua: np.ndarray
+    Ta: np.ndarray
+    T0: np.ndarray
+    Pc: np.ndarray  # (N, nc) constant sources; fire added as a constant column
+    Pd: np.ndarray  # (N, kd)
+    ad: np.ndarray  # (N, kd)
+    mua: np.ndarray  # (N, km)
+    mT: np.ndarray  # (N, km)
+    q: np.ndarray  # (N, J) Arrhenius
+    Tr: np.ndarray
+    E: np.ndarray
+    order: np.ndarray
+    dh: np.ndarray  # NaN: none
+    af: np.ndarray
+    limits: np.ndarray  # (N, L)
+    horizon: np.ndarray
+    response: np.ndarray  # NaN when not given
+    delay: np.ndarray  # detection delay, NaN when an alarm or nothing
+    alarm: np.ndarray  # alarm temperature, NaN when none
+
+    @property
+    def n(self) -> int:
+        return len(self.m)
+
+
+def base_arrays(prepared: PreparedCase, n: int) -> SampleArrays:
+    model = prepared.model
+    full = lambda v: np.full(n, float(v))  # noqa: E731
+    cols = lambda vals: np.tile(np.asarray(vals, dtype=float).reshape(1, -1), (n, 1))  # noqa: E731
+    srcs = model.arrhenius_sources
+    return SampleArrays(
+        m=full(model.contents_mass), cp=full(model.contents_specific_heat), wall=full(model.wall_heat_capacity),
+        ua=full(model.ua), Ta=full(model.ambient_temperature), T0=full(model.initial_temperature),
+        Pc=cols([s.power for s in model.constant_sources] + [sum(f.power for f in model.fire_sources)]),
+        Pd=cols([s.power for s in model.decaying_sources]), ad=cols([s.time_constant for s in model.decaying_sources]),
+        mua=cols([h.ua for h in model.heating_media]), mT=cols([h.medium_temperature for h in model.heating_media]),
+        q=cols([s.specific_power for s in srcs]), Tr=cols([s.reference_temperature for s in srcs]),
+        E=cols([s.activation_energy for s in srcs]), order=cols([s.order for s in srcs]),
+        dh=cols([s.specific_heat_of_reaction if s.specific_heat_of_reaction is not None else np.nan for s in srcs]),
+        af=cols([s.accumulated_fraction for s in srcs]),
+        limits=cols([lim.temperature for lim in model.limits]), horizon=full(model.horizon),
+        response=full(prepared.response_time if prepared.response_time is not None else np.nan),
+        delay=full(prepared.detection_delay if prepared.detection_delay is not None else np.nan),
+        alarm=full(prepared.detection_alarm if prepared.detection_alarm is not None else np.nan),
+    )
+
+
+def _source_slots(spec: CaseSpec) -> list[tuple[str, int]]:
+    """For each heat_sources index: (group, position in that group's arrays)."""
+    counts = {"constant": 0, "decaying": 0, "medium": 0, "arrhenius": 0, "fire": 0}
+    out = []
+    for s in spec.heat_sources:
+        group = {ConstantSpec: "constant", DecayingSpec: "decaying", HeatingMediumSpec: "medium",
+                 ArrheniusSpec: "arrhenius", FireSpec: "fire"}[type(s)]
+        out.append((group, counts[group]))
+        counts[group] += 1
+    return out
+
+
+def direct_setter(prepared: PreparedCase, parts: tuple):
+    """A function (arrays, values) -> None that writes sampled SI values into the arrays, or None
+    when the path changes something the arrays cannot express directly (geometry, fill ...)."""
+    spec = prepared.spec
+    head = parts[0]
+    if head == "contents" and len(parts) == 2:
+        name = parts[1]
+        if name == "mass":
+            return lambda a, v: setattr(a, "m", v)
+        if name == "specific_heat":
+            return lambda a, v: setattr(a, "cp", v)
+        if name == "initial_temperature":
+            return lambda a, v: setattr(a, "T0", v)
+        return None
+    if head == "heat_loss" and len(parts) == 2:
+        if parts[1] == "ambient_temperature":
+            return lambda a, v: setattr(a, "Ta", v)
+        if parts[1] == "ua":
+            return lambda a, v: setattr(a, "ua", v)
+        if parts[1] == "coefficient":
+            area = prepared.geometry.get("heat_loss_area_m2")
+            if area is None or any(isinstance(s, FireSpec) for s in spec.heat_sources):
+                return None
+            return lambda a, v: setattr(a, "ua", v * area)
+        return None
+    if head == "vessel" and len(parts) == 2 and parts[1] in ("wall_mass", "wall_specific_heat"):
+        v0 = spec.vessel
+        other = v0.wall_specific_heat.si if parts[1] == "wall_mass" else v0.wall_mass.si
+        return lambda a, v: setattr(a, "wall", v * other)
+    if head == "limits" and len(parts) == 3 and parts[2] == "temperature":
+        j = parts[1]
+        return lambda a, v: a.limits.__setitem__((slice(None), j), v)
+    if parts == ("horizon",):
+        return lambda a, v: setattr(a, "horizon", v)
+    if parts == ("response_time",):
+        return lambda a, v: setattr(a, "response", v)
+    if parts == ("detection", "delay"):
+        return lambda a, v: setattr(a, "delay", v)
+    if parts == ("detection", "alarm_temperature"):
+        return lambda a, v: setattr(a, "alarm", v)
+    if head == "heat_sources" and len(parts) == 3:
+        group, pos = _source_slots(spec)[parts[1]]
+        name = parts[2]
+        table = {
+            ("constant", "power"): "Pc", ("decaying", "power"): "Pd", ("decaying", "time_constant"): "ad",
+            ("medium", "ua"): "mua", ("medium", "medium_temperature"): "mT",
+            ("arrhenius", "specific_power"): "q", ("arrhenius", "reference_temperature"): "Tr",
+            ("arrhenius", "activation_energy"): "E", ("arrhenius", "specific_heat_of_reaction"): "dh",
+            ("arrhenius", "accumulated_fraction"): "af",
+        }
+        if (group, name) == ("decaying", "half_life"):
+            return lambda a, v: a.ad.__setitem__((slice(None), pos), v / math.log(2.0))
+        key = table.get((group, name))
+        if key is None:
+            return None
+        return lambda a, v: getattr(a, key).__setitem__((slice(None), pos), v)
+    return None
+
+
+def sample_arrays(prepared: PreparedCase, plan: UncertaintyPlan, values: np.ndarray) -> SampleArrays:
+    """Parameter arrays for the given sampled values (rows already screened for possibility)."""
+    n = values.shape[0]
+    arrays = base_arrays(prepared, n)
+    setters = [direct_setter(prepared, inp.parts) for inp in plan.inputs]
+    if all(s is not None for s in setters):
+        for j, s in enumerate(setters):
+            s(arrays, values[:, j].copy())
+        return arrays
+    return _arrays_by_preparing(prepared, plan, values, arrays)
+
+
+def _arrays_by_preparing(prepared, plan, values, arrays) -> SampleArrays:
+    """Slow, general path: rebuild each sample's case and prepare it (geometry and fill included)."""
+    from dataclasses import replace
+
+    rows = []
+    for i in range(values.shape[0]):
+        updates = []
+        for j, inp in enumerate(plan.inputs):
+            _, _, q, _ = locate_quantity(prepared.spec, inp.parts)
+            updates.append((inp.parts, replace(q, si=float(values[i, j]))))
+        spec = apply_updates(prepared.spec, updates)
+        try:
+            p = prepare_case(spec)
+        except CaseError:
+            p = None
+        rows.append(p)
+    ok = [p for p in rows if p is not None]
+    if not ok:
+        raise CaseError([FieldProblem("uncertainty", "no sample could be prepared")])
+    out = base_arrays(prepared, len(rows))
+    for i, p in enumerate(rows):
+        if p is None:
+            out.m[i] = np.nan
+            continue
+        b = base_arrays(p, 1)
+        for name in out.__dataclass_fields__:
+            getattr(out, name)[i] = getattr(b, name)[0]
+    return out
+
+
+# ------------------------------------------------------------------ engines
+
+
+@dataclass
+class SampleTimes:
+    limit_times: np.ndarray  # (N, L), NaN not reached
+    detection: np.ndarray  # (N,), NaN: never detected (alarm not reached)
+
+
+def screen_samples(prepared: PreparedCase, arrays: SampleArrays) -> SampleTimes:
+    """First crossing of each limit (and the alarm) for every sample."""
+    n = arrays.n
+    has_alarm = np.isfinite(arrays.alarm).any()
+    L = arrays.limits
+    if has_alarm:
+        L = np.column_stack([L, arrays.alarm])
+    C = arrays.m * arrays.cp + arrays.wall
+    if prepared.model.arrhenius_sources:
+        from screening.core.arrhenius_history_batch import (
+            ArrheniusSamples,
+            first_crossing_times_arrhenius,
+        )
+
+        params = ArrheniusSamples(
+            heat_capacity=C, contents_mass=arrays.m, ua=arrays.ua, ambient_temperature=arrays.Ta,
+            initial_temperature=arrays.T0, constant_power=arrays.Pc.sum(axis=1),
+            decaying_power=arrays.Pd, decay_time=arrays.ad, media_ua=arrays.mua, media_temperature=arrays.mT,
+            specific_power=arrays.q, reference_temperature=arrays.Tr, activation_energy=arrays.E,
+            order=np.where(np.isnan(arrays.dh), 0.0, arrays.order), heat_of_reaction=arrays.dh,
+            initial_conversion=np.where(np.isnan(arrays.dh), 0.0, np.clip(1.0 - arrays.af, 0.0, 1.0)))
+        times = first_crossing_times_arrhenius(params, L, arrays.horizon).times
+    else:
+        from screening.core.time_to_limit_batch import first_crossing_times
+
+        G = arrays.ua + arrays.mua.sum(axis=1)
+        Q0 = arrays.ua * arrays.Ta + (arrays.mua * arrays.mT).sum(axis=1) + arrays.Pc.sum(axis=1)
+        P = arrays.Pd if arrays.Pd.shape[1] else np.zeros((n, 1))
+        b = 1.0 / arrays.ad if arrays.ad.shape[1] else np.zeros((n, 1))
+        times = first_crossing_times(C, G, Q0, arrays.T0, P, b, L, arrays.horizon)
+        times = np.asarray(times).reshape(n, -1)
+    n_lim = arrays.limits.shape[1]
+    if has_alarm:
+        detection = times[:, n_lim]
+    else:
+        detection = np.where(np.isfinite(arrays.delay), arrays.delay, 0.0)
+    return SampleTimes(times[:, :n_lim], detection)
+
+
+# ------------------------------------------------------------------ statistics
+
+
+def percentile_not_reached_last(times: np.ndarray, q: float) -> float | None:
+    """q-quantile (inverted CDF) with not-reached (NaN) counted as later than any time; None if it falls there."""
+    n = len(times)
+    if n == 0:
+        return None
+    t = np.sort(np.where(np.isnan(times), np.inf, times))
+    k = max(0, min(n - 1, int(math.ceil(q * n)) - 1))
+    v = t[k]
+    return None if not np.isfinite(v) else float(v)
+
+
+def analyse(prepared: PreparedCase, plan: UncertaintyPlan | None = None) -> dict | None:
+    """The ``uncertainty`` object of the result."""
+    plan = plan if plan is not None else plan_uncertainty(prepared.spec)
+    if plan is None:
+        return None
+    if prepared.model.boiling is not None and prepared.model.boiling.venting == "open" and prepared.model.arrhenius_sources:
+        return {"samples": plan.samples, "seed": plan.seed, "sampling": plan.sampling, "rejected": 0,
+                "limits": [], "sensitivity": [],
+                "note": "Not computed: the vectorised integrator does not model boiling credit (open vessel with "
+                        "Arrhenius sources)."}
+    values = draw(plan)
+    ok = np.ones(values.shape[0], dtype=bool)
+    for j, inp in enumerate(plan.inputs):
+        ok &= physically_possible(inp, values[:, j])
+    rejected = int((~ok).sum())
+    values = values[ok]
+    arrays = sample_arrays(prepared, plan, values)
+    bad = ~np.isfinite(arrays.m) | ~(arrays.m * arrays.cp + arrays.wall > 0)
+    if bad.any():
+        rejected += int(bad.sum())
+        keep = ~bad
+        values = values[keep]
+        arrays = sample_arrays(prepared, plan, values)
+    n = values.shape[0]
+    st = screen_samples(prepared, arrays)
+    model = prepared.model
+    limits_out = []
+    deadline = st.detection + arrays.response  # NaN when no response time, or never detected
+    for j, lim in enumerate(model.limits):
+        t = st.limit_times[:, j]
+        reached = np.isfinite(t)
+        within = float(reached.mean()) if n else None
+        if prepared.response_time is not None or np.isfinite(arrays.response).any():
+            never_detected = ~np.isfinite(st.detection)
+            before = reached & (never_detected | (t < deadline))
+            p_before = float(before.mean()) if n else None
+        else:
+            p_before = None
+        se = lambda p: None if p is None else math.sqrt(max(p * (1 - p), 0.0) / max(n, 1))  # noqa: E731
+        limits_out.append({
+            "name": lim.name,
+            "probability_before_response": p_before,
+            "probability_before_response_standard_error": se(p_before),
+            "probability_within_horizon": within,
+            "probability_within_horizon_standard_error": se(within),
+            "p05_time_s": percentile_not_reached_last(t, 0.05),
+            "p50_time_s": percentile_not_reached_last(t, 0.50),
+            "p95_time_s": percentile_not_reached_last(t, 0.95),
+        })
+    first = int(np.argmin([lim.temperature for lim in model.limits]))
+    sensitivity = _sensitivity(prepared, plan, values, st.limit_times[:, first], float(np.max(arrays.horizon)))
+    cdf = _cdf(st.limit_times[:, first])
+    return {
+        "samples": plan.samples, "accepted": n, "rejected": rejected, "seed": plan.seed, "sampling": plan.sampling,
+        "inputs": [{"input": inp.path, "distribution": inp.distribution,
+                    **{k: v for k, v in inp.params.items() if v is not None}, "nominal": inp.nominal,
+                    "unit_si": _si_unit(inp)} for inp in plan.inputs],
+        "first_limit": model.limits[first].name,
+        "limits": limits_out,
+        "sensitivity": sensitivity,
+        "_cdf": cdf,
+        "method": ("Monte Carlo over the vectorised " + ("Rosenbrock integrator" if model.arrhenius_sources
+                                                        else "closed-form engine")
+                   + f", {plan.sampling} sampling; probabilities have a binomial standard error "
+                     f"sqrt(p (1 - p) / n), n = {n}."),
+    }
+
+
+def _si_unit(inp: UncertainInput) -> str:
+    return DIMENSIONS[inp.dimension][0]
+
+
+def _cdf(times: np.ndarray) -> dict:
+    n = len(times)
+    finite = np.sort(times[np.isfinite(times)])
+    if finite.size == 0:
+        return {"time_s": [], "probability": [], "n": n}
+    idx = np.unique(np.linspace(0, finite.size - 1, min(200, finite.size)).astype(int))
+    return {"time_s": finite[idx].tolist(), "probability": ((idx + 1) / n).tolist(), "n": n}
+
+
+def _sensitivity(prepared, plan, values, first_times, horizon) -> list[dict]:
+    """One-at-a-time swings (each input at its 5th and 95th percentile, the others at the case's values)
+    and Spearman rank correlation of each input with the time to the first limit."""
+    from scipy.stats import spearmanr
+
+    d = len(plan.inputs)
+    swing_values = np.tile(np.array([inp.nominal for inp in plan.inputs]), (2 * d, 1))
+    for j, inp in enumerate(plan.inputs):
+        swing_values[2 * j, j] = quantile(inp, SWING_QUANTILES[0])
+        swing_values[2 * j + 1, j] = quantile(inp, SWING_QUANTILES[1])
+    ok = np.ones(2 * d, dtype=bool)
+    for j, inp in enumerate(plan.inputs):
+        ok &= physically_possible(inp, swing_values[:, j])
+    clipped = swing_values.copy()
+    for j, inp in enumerate(plan.inputs):  # an impossible swing end is reported, not used
+        bad = ~ok
+        clipped[bad, j] = inp.nominal
+    arrays = sample_arrays(prepared, plan, clipped)
+    first = int(np.argmin([lim.temperature for lim in prepared.model.limits]))
+    t = screen_samples(prepared, arrays).limit_times[:, first]
+    capped = np.where(np.isnan(first_times), np.inf, first_times)
+    out = []
+    for j, inp in enumerate(plan.inputs):
+        lo, hi = t[2 * j], t[2 * j + 1]
+        rho = None
+        if len(values) > 2 and np.ptp(values[:, j]) > 0 and np.ptp(np.where(np.isinf(capped), 1e300, capped)) > 0:
+            r = spearmanr(values[:, j], np.where(np.isinf(capped), 1e300, capped)).statistic
+            rho = None if not np.isfinite(r) else float(r)
+        lo_t = None if not np.isfinite(lo) else float(lo)
+        hi_t = None if not np.isfinite(hi) else float(hi)
+        swing = abs((horizon if lo_t is None else lo_t) - (horizon if hi_t is None else hi_t))
+        out.append({"input": inp.path, "low_value": float(swing_values[2 * j, j]),
+                    "high_value": float(swing_values[2 * j + 1, j]), "unit_si": _si_unit(inp),
+                    "low_time_s": lo_t, "high_time_s": hi_t, "rank_correlation": rho,
+                    "swing_s": swing, "swing_possible": bool(ok[2 * j] and ok[2 * j + 1])})
+    out.sort(key=lambda r: (-r["swing_s"], -(abs(r["rank_correlation"]) if r["rank_correlation"] is not None else 0)))
+    return out

@@ -1,0 +1,77 @@
+"""Warnings and validity notes of a screening result, in the case's own units.
+
+The closed-form path and the columnar register path take their texts from here, so both
+say the same thing under the same conditions.
+"""
+from __future__ import annotations
+
+from screening.case.prepare import PreparedCase
+from screening.case.units import kelvin_to
+
+BIOT_LIMIT = 0.1  # Incropera et al., ch. 5 (common practice)
+
+STIRRED_ASSUMPTION = ("Contents are treated as well mixed (stirred): one temperature for the whole mass. A Biot "
+                      "number from molecular conductivity has no meaning for a stirred liquid, so none is given.")
+
+
+def _fmt_temp(k: float, unit: str) -> str:
+    sym = {"degC": "°C", "degF": "°F", "K": "K", "degR": "°R"}[unit]
+    return f"{kelvin_to(k, unit):.1f} {sym}"
+
+
+def _hours(s: float) -> str:
+    return f"{s / 3600:.3g} h"
+
+
+# Warnings of a closed-form result (also used by the columnar register path, which decides per row
+# when each applies by the same conditions as screen_closed_form and detection_and_recovery).
+ADIABATIC_WARNING = "No heat loss and no heating medium (UA = 0): the vessel is treated as adiabatic."
+
+
+def limit_at_start_warning(name: str, temperature: float, initial_temperature: float, unit: str) -> str:
+    return (f"Limit '{name}' ({_fmt_temp(temperature, unit)}) is already reached at the start: "
+            f"the initial temperature is {_fmt_temp(initial_temperature, unit)}.")
+
+
+def short_horizon_warning(horizon: float, tau: float) -> str:
+    return (f"The horizon ({_hours(horizon)}) is shorter than the vessel's time constant ({_hours(tau)}): the "
+            f"temperature is still far from where it settles. Extend the horizon to see the whole response.")
+
+
+def still_rising_warning(end_temperature: float, end_rate: float, steady: float | None, unit: str) -> str:
+    where = f"; it settles at {_fmt_temp(steady, unit)}" if steady is not None else "; it has no steady state"
+    return (f"The temperature is still rising at the end of the horizon ({_fmt_temp(end_temperature, unit)}, "
+            f"{end_rate * 3600:.3g} K/h){where}. A limit not reached within the horizon may be reached later.")
+
+
+def response_beyond_horizon_warning(horizon: float) -> str:
+    return f"The horizon ({_hours(horizon)}) ends before detection plus response time: extend it."
+
+
+def biot_and_validity(prepared: PreparedCase, result: dict) -> None:
+    model = prepared.model
+    result["mixing"] = model.mixing
+    result["biot_number"] = None
+    result.setdefault("assumptions", [])
+    if model.mixing == "stirred":
+        result["assumptions"].append(STIRRED_ASSUMPTION)
+        return
+    h = model.surface_coefficient
+    k = model.thermal_conductivity
+    lc = model.characteristic_length
+    if k is None or h is None or lc is None:
+        missing = [n for n, v in (("contents.thermal_conductivity", k), ("a heat-loss coefficient or vessel area", h),
+                                  ("the contents volume and wetted area", lc)) if v is None]
+        result["warnings"].append("Unstirred contents: the Biot number cannot be computed (missing "
+                                  + ", ".join(missing) + "), so the lumped model's validity is unknown. Treat the "
+                                  "result as optimistic: the centre of an unstirred mass runs hotter than its average.")
+        return
+    bi = h * lc / k
+    result["biot_number"] = bi
+    if bi > BIOT_LIMIT:
+        result["warnings"].append(f"Unstirred contents with Biot number {bi:.3g} (> {BIOT_LIMIT}): the lumped "
+                                  f"(single temperature) model is not valid; the centre runs hotter than the lumped "
+                                  f"temperature. Use a conduction analysis (Frank-Kamenetskii) instead.")
+    else:
+        result["assumptions"].append(f"Unstirred contents with Biot number {bi:.3g} (<= {BIOT_LIMIT}): the lumped "
+                                     f"model is acceptable by the usual criterion (Incropera et al., ch. 5).")

@@ -1,0 +1,193 @@
+"""Uniform row groups screened a column at a time give exactly what the row-by-row path gives.
+
+The reference here is the project's own general register path (each row validated, prepared and
+screened on its own), which tests/register/test_register_batch.py in turn checks against case files and
+`check`; the physics behind both is checked against scipy/sympy in test_closed_form.py and
+tests/core/test_time_to_limit_batch.py.  What this file pins down is that the fast path changes nothing: the
+same result objects, the same errors, the same results.csv, byte for byte.
+"""
+from __future__ import annotations
+
+import csv
+import json
+from pathlib import Path
+
+import pytest
+import yaml
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+import screening.register.chunks as chunks
+import screening.register.columns as columns
+from screening import verdict as rules
+from screening.verdict import engine
+from screening.register.batch import run_batch
+
+BASE = {
+    "id": "BASE",
+    "contents": {"mass": "1 t", "specific_heat": "3 kJ/(kg*K)", "initial_temperature": "25 degC"},
+    "heat_loss": {"ambient_temperature": "30 degC", "ua": "100 W/K"},
+    "heat_sources": [{"kind": "constant", "power": "1 kW"},
+                     {"kind": "decaying", "power": "10 kW", "half_life": "2 h"},
+                     {"kind": "decaying", "power": "3 kW", "time_constant": "30 min"}],
+    "limits": [{"name": "onset", "temperature": "60 degC"}, {"name": "boil", "temperature": "100 degC"}],
+    "response_time": "2 h",
+}
+
+# column -> strategy of cell texts (valid values, edge cases, and a few cells the fast parse refuses)
+COLUMNS = {
+    "title": st.sampled_from(["", "Hold tank", "Tote, bay 3"]),
+    "contents.mass [t]": st.one_of(st.floats(0.001, 60).map(lambda v: f"{v:.5g}"), st.just("1e26"),
+                                   st.just("-2"), st.just("12 kg")),
+    "contents.specific_heat": st.sampled_from(["2.1 kJ/(kg*K)", "0.5 Btu/(lb*degF)", "4180 J/(kg*K)", "3 m", ""]),
+    "contents.initial_temperature [degF]": st.sampled_from(["59", "77", "140", "212", "-500"]),
+    "heat_loss.ambient_temperature [K]": st.sampled_from(["273.15", "300", "320.5"]),
+    "heat_loss.ua [W/K]": st.one_of(st.floats(0, 900).map(lambda v: f"{v:.4g}"), st.just("0"), st.just("inf")),
+    "horizon [h]": st.sampled_from(["0.5", "3", "72", "400"]),
+    "response_time [min]": st.sampled_from(["0", "30", "120", "6000", ""]),
+    "heat_sources.0.power [kW]": st.sampled_from(["0", "0.5", "8", "-1"]),
+    "heat_sources.1.power [kW]": st.floats(0, 80).map(lambda v: f"{v:.4g}"),
+    "heat_sources.1.half_life [h]": st.sampled_from(["0.2", "3", "48", "0"]),
+    "heat_sources.2.time_constant": st.sampled_from(["10 min", "1 h", "1e-3 s"]),
+    "limits.0.temperature [degC]": st.sampled_from(["20", "40", "55", "90"]),
+    "limits.1.temperature [degC]": st.sampled_from(["60", "100", "150"]),
+}
+
+
+@st.composite
+def registers(draw):
+    chosen = draw(st.lists(st.sampled_from(sorted(COLUMNS)), min_size=1, max_size=8, unique=True))
+    header = ["id"] + chosen
+    n = draw(st.integers(2, 10))
+    rows = [[f"V-{i}"] + [draw(COLUMNS[c]) for c in chosen] for i in range(n)]
+    with_detection = draw(st.booleans())
+    return header, rows, with_detection
+
+
+def _run(tmp: Path, header, rows, base, general: bool, monkeypatch):
+    reg = tmp / "register.csv"
+    with open(reg, "w", newline="", encoding="utf-8") as fh:
+        w = csv.writer(fh)
+        w.writerow(header)
+        w.writerows(rows)
+    base_file = tmp / "base.yaml"
+    base_file.write_text(yaml.safe_dump(base, sort_keys=False), encoding="utf-8")
+    out = tmp / ("general" if general else "columnar")
+    with monkeypatch.context() as m:
+        if general:
+            m.setattr(columns, "plan_group", lambda rep, fast_cols: None)
+        summary = run_batch(reg, out, base_path=base_file, workers=1)
+    return (summary, json.loads((out / "results.json").read_text(encoding="utf-8")),
+            (out / "errors.csv").read_text(encoding="utf-8"), (out / "results.csv").read_text(encoding="utf-8"))
+
+
+@pytest.fixture
+def strict(monkeypatch):
+    monkeypatch.setattr(columns, "STRICT_SELF_CHECK", True)  # a failed self-check is an error here
+
+
+@settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(case=registers())
+def test_columnar_group_equals_row_by_row(tmp_path_factory, monkeypatch, strict, case):
+    header, rows, with_detection = case
+    base = dict(BASE, detection={"delay": "15 min"}) if with_detection else BASE
+    tmp = tmp_path_factory.mktemp("cols")
+    fast = _run(tmp, header, rows, base, False, monkeypatch)
+    slow = _run(tmp, header, rows, base, True, monkeypatch)
+    assert fast[0] == {**slow[0], "out_dir": fast[0]["out_dir"]}
+    assert fast[1] == slow[1]  # every result object, every key
+    assert fast[2] == slow[2]  # errors.csv
+    assert fast[3] == slow[3]  # results.csv
+
+
+def test_clean_uniform_register_is_screened_columnwise(tmp_path, monkeypatch, strict):
+    taken = []
+    real = columns.screen_group
+
+    def spy(*args, **kwargs):
+        out = real(*args, **kwargs)
+        taken.append(len(out.results))
+        return out
+
+    monkeypatch.setattr(chunks, "screen_group", spy)
+    header = ["id", "contents.mass [t]", "heat_loss.ua [W/K]", "limits.0.temperature [degC]"]
+    rows = [[f"T-{i}", f"{1 + i}", f"{50 + 10 * i}", f"{40 + i}"] for i in range(30)]
+    fast = _run(tmp_path, header, rows, BASE, False, monkeypatch)
+    # each chunk of rows is one group: all rows but its representative (screened in full) go columnwise
+    assert len(taken) >= 1 and sum(taken) == len(rows) - len(taken)
+    slow = _run(tmp_path, header, rows, BASE, True, monkeypatch)
+    assert fast[1] == slow[1] and fast[3] == slow[3]
+
+
+def test_failed_self_check_falls_back_to_row_by_row(tmp_path, monkeypatch):
+    """If the columnar builder ever disagrees with the general path, the group goes row by row."""
+    real = columns._RowBuilder.result
+
+    def wrong(self, *args, **kwargs):
+        out = real(self, *args, **kwargs)
+        out["peak_temperature_K"] += 1e-9
+        return out
+
+    header = ["id", "contents.mass [t]", "heat_loss.ua [W/K]"]
+    rows = [[f"T-{i}", f"{1 + i}", f"{50 + 10 * i}"] for i in range(6)]
+    slow = _run(tmp_path, header, rows, BASE, True, monkeypatch)
+    monkeypatch.setattr(columns._RowBuilder, "result", wrong)
+    fast = _run(tmp_path, header, rows, BASE, False, monkeypatch)
+    assert fast[1] == slow[1]
+    monkeypatch.setattr(columns, "STRICT_SELF_CHECK", True)
+    with pytest.raises(columns.SelfCheckError):
+        _run(tmp_path, header, rows, BASE, False, monkeypatch)
+
+
+def test_known_quantities_give_the_same_verdicts(tmp_path, monkeypatch):
+    """evaluate() with a group's known quantities equals evaluate() from scratch, for every row."""
+    header = ["id", "contents.mass [t]", "heat_loss.ua [W/K]", "response_time [min]", "limits.0.temperature [degC]"]
+    rows = [[f"T-{i}", f"{0.5 + 3 * i}", f"{20 * i}", f"{30 * i}", f"{26 + 9 * i}"] for i in range(12)]
+    _, results, _, _ = _run(tmp_path, header, rows, BASE, False, monkeypatch)
+    rule_set = rules.load_rule_set(None)
+    bare = [{k: v for k, v in r.items() if k not in ("verdict", "reasons", "rule_set", "register_row")}
+            for r in results]
+    known = rules.constant_quantities(bare[0], columns.VARYING_KEYS)
+    assert "tmr_adiabatic" in known.values and "smallest_margin" not in known.values
+    for r in bare:
+        assert rules.evaluate(rule_set, r, known).to_dict() == rules.evaluate(rule_set, r).to_dict()
+
+
+def test_key_trace_sees_every_read():
+    traced = engine._KeyTrace({"a": 1, "b": {"c": 2}})
+    traced.get("a")
+    _ = traced["b"]["c"]
+    assert "z" not in traced
+    assert traced.seen == {"a", "b", "z"}
+    list(traced.items())
+    assert "*" in traced.seen
+
+
+def test_results_csv_columns_when_limit_names_differ_between_chunks(tmp_path, monkeypatch):
+    """Chunks with other limit names than the register's are re-laid under the register's columns."""
+    from screening.register.outputs import csv_parts, results_csv_from_parts
+
+    header = ["id", "contents.mass [t]", "limits.1.name", "limits.1.temperature [degC]"]
+    rows = [[f"T-{i}", f"{1 + i}", "", ""] for i in range(6)] + [["T-6", "2", "rupture", "140"],
+                                                                 ["T-7", "3", "rupture", "150"]]
+    base = dict(BASE, limits=[BASE["limits"][0]])
+    _, results, errors, text = _run(tmp_path, header, rows, base, False, monkeypatch)
+    assert errors.splitlines() == ["row,id,field,message"]
+    expected = results_csv_from_parts([csv_parts(r) for r in results], ["onset", "rupture"])
+    assert text == expected
+    assert text.splitlines()[0].count("time_to_limit_h") == 2
+
+
+def test_summary_from_rows_in_parts_equals_summary_from_results(monkeypatch):
+    """The register summary built from per-part rows is the PDF built from all the results at once."""
+    from screening.report.register_summary import render_register_summary, summarise_register_results
+
+    monkeypatch.setenv("SOURCE_DATE_EPOCH", "1767225600")
+    from memo_fixtures import all_cases
+
+    # more vessels than the summary's table shows (250), so the table is the first of an ordering
+    results = [dict(c, id=f"V-{i:03d}") for i, c in enumerate(all_cases() * 90)]
+    whole = render_register_summary(results)
+    k = len(results) // 2
+    rows = summarise_register_results(results[:k]) + summarise_register_results(results[k:], start=k)
+    assert render_register_summary(rows, summarised=True) == whole
