@@ -23,7 +23,7 @@ from screening.case.schema import (
 from screening.case.uncertainty_plan import plan_uncertainty
 from screening.case.units import parse_quantity, temperature_unit_of
 from screening.core import model as m
-from screening.core.fire_exposure import api521_fire_heat_input
+from screening.core.fire_exposure import api521_fire_heat_input, fire_wetted_area
 from screening.core.vessel_geometry import (
     VesselShape,
     conduction_shape,
@@ -34,8 +34,6 @@ from screening.core.vessel_geometry import (
     wetted_area,
     wetted_area_below,
 )
-
-FIRE_HEIGHT_LIMIT = 7.6  # m above the fire base; API 521 / ISO 23251 (from memory)
 
 
 @dataclass
@@ -250,7 +248,8 @@ def _fire_source(s: FireSpec, index: int, shape, liquid_volume, problems, warnin
         area = s.wetted_area.si
     elif shape is not None and liquid_volume is not None:
         elevation = s.elevation.si if s.elevation is not None else 0.0
-        area = wetted_area_below(shape, liquid_volume, max(0.0, FIRE_HEIGHT_LIMIT - elevation))
+        area = fire_wetted_area(lambda h: wetted_area_below(shape, liquid_volume, h),
+                                liquid_height(shape, liquid_volume), elevation)
     else:
         problems.append(FieldProblem(f"heat_sources.{index}.wetted_area",
                                      "a fire source needs wetted_area, or a vessel and the liquid volume "

@@ -62,6 +62,7 @@ from scipy.integrate import Radau, solve_ivp
 from scipy.optimize import brentq
 
 from screening.core.model import GAS_CONSTANT, ScreeningModel
+from screening.core.terms import conductance_and_drive, constant_power
 
 #: Default temperature at which a runaway is no longer followed, K.
 DEFAULT_CEILING = 2000.0
@@ -240,13 +241,12 @@ class _Balance:
         self.cw = float(model.wall_heat_capacity)
         self.ua = float(model.ua)
         self.ta = float(model.ambient_temperature)
-        self.p_const = float(sum(s.power for s in model.constant_sources)
-                             + sum(s.power for s in model.fire_sources))
+        self.p_const = float(constant_power(model))
         self.decay = [(float(s.power), float(s.time_constant)) for s in model.decaying_sources]
-        self.media_ua = float(sum(h.ua for h in model.heating_media))
-        self.media_drive = float(sum(h.ua * h.medium_temperature for h in model.heating_media))
-        self.g_total = self.ua + self.media_ua
-        self.drive = self.ua * self.ta + self.media_drive
+        # G and the part of Q0 without the constant power (that is added with the decaying sources)
+        g_total, drive = conductance_and_drive(self.ua, self.ta, 0.0, [float(h.ua) for h in model.heating_media],
+                                               [float(h.medium_temperature) for h in model.heating_media])
+        self.g_total, self.drive = float(g_total), float(drive)
 
         src = model.arrhenius_sources
         self.n_src = len(src)

@@ -123,6 +123,7 @@ from typing import NamedTuple, Sequence
 import numpy as np
 
 from screening.core.model import GAS_CONSTANT, ScreeningModel
+from screening.core.terms import constant_power
 
 __all__ = [
     "ArrheniusSamples",
@@ -1418,8 +1419,7 @@ def samples_from_models(models: Sequence[ScreeningModel]):
         ua=np.array([md.ua for md in models]),
         ambient_temperature=np.array([md.ambient_temperature for md in models]),
         initial_temperature=np.array([md.initial_temperature for md in models]),
-        constant_power=np.array([sum(s.power for s in md.constant_sources) + sum(s.power for s in md.fire_sources)
-                                 for md in models]),
+        constant_power=np.array([constant_power(md) for md in models]),
         decaying_power=Pd, decay_time=ad, media_ua=mua, media_temperature=mT,
         specific_power=q, reference_temperature=Tr, activation_energy=E, order=n, heat_of_reaction=dh,
         initial_conversion=X0)

@@ -29,9 +29,13 @@ of the linear first-order balance.
 """
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
+
+from screening.core.model import ScreeningModel
+from screening.core.terms import conductance_and_drive, constant_power
 
 
 def relaxation(x):
@@ -91,9 +95,10 @@ def linear_balance(heat_capacity, ua, ambient_temperature, initial_temperature, 
     """
     mua = np.asarray(medium_ua, dtype=float)
     mt = np.asarray(medium_temperature, dtype=float)
-    g = np.asarray(ua, dtype=float) + (mua.sum(axis=-1) if mua.size else 0.0)
-    q0 = (np.asarray(ua, dtype=float) * np.asarray(ambient_temperature, dtype=float)
-          + np.asarray(constant_power, dtype=float) + ((mua * mt).sum(axis=-1) if mua.size else 0.0))
+    g, q0 = conductance_and_drive(np.asarray(ua, dtype=float), np.asarray(ambient_temperature, dtype=float),
+                                  np.asarray(constant_power, dtype=float),
+                                  list(np.moveaxis(mua, -1, 0)) if mua.size else (),
+                                  list(np.moveaxis(mt, -1, 0)) if mua.size else ())
     p = np.asarray(decaying_power, dtype=float)
     a = np.asarray(decay_time_constant, dtype=float)
     with np.errstate(divide="ignore"):
@@ -212,3 +217,39 @@ def steady_temperature(balance: LinearBalance):
 def decaying_energy(decaying_power, decay_time_constant):
     """Total energy still to come from decaying sources, sum P_i a_i, J."""
     return float(np.sum(np.asarray(decaying_power, dtype=float) * np.asarray(decay_time_constant, dtype=float)))
+
+
+def balance_of(model: ScreeningModel, ua: float | None = None, initial_temperature: float | None = None,
+               time_shift: float = 0.0, extra_media: tuple = ()) -> LinearBalance:
+    """The linear balance of a model's constant, decaying, fire and medium terms.
+
+    ``time_shift`` starts the clock later (decaying sources have decayed by
+    exp(-shift / a)); ``extra_media`` adds (temperature, ua) pairs such as restored cooling.
+    """
+    p_const = constant_power(model)
+    powers = [s.power * math.exp(-time_shift / s.time_constant) for s in model.decaying_sources]
+    taus = [s.time_constant for s in model.decaying_sources]
+    media_ua = [h.ua for h in model.heating_media] + [u for _, u in extra_media]
+    media_t = [h.medium_temperature for h in model.heating_media] + [t for t, _ in extra_media]
+    return linear_balance(model.heat_capacity, model.ua if ua is None else ua, model.ambient_temperature,
+                          model.initial_temperature if initial_temperature is None else initial_temperature,
+                          p_const, powers, taus, media_ua, media_t)
+
+
+def heat_rates(model: ScreeningModel, t, temp, extra_media: tuple = (), time_shift: float = 0.0):
+    """(heat input, heat loss to ambient) in W at times t and temperatures temp.
+
+    Heat input counts constant, decaying and fire sources and heating media
+    (a medium colder than the contents counts as negative input).
+    """
+    t = np.asarray(t, dtype=float)
+    temp = np.asarray(temp, dtype=float)
+    gen = np.full(t.shape, constant_power(model))
+    for s in model.decaying_sources:
+        gen = gen + s.power * np.exp(-(t + time_shift) / s.time_constant)
+    for h in model.heating_media:
+        gen = gen + h.ua * (h.medium_temperature - temp)
+    for tm, u in extra_media:
+        gen = gen + u * (tm - temp)
+    loss = model.ua * (temp - model.ambient_temperature)
+    return gen, loss

@@ -11,6 +11,31 @@ from dataclasses import dataclass
 GAS_CONSTANT = 8.314462618  # J/(mol K), CODATA 2018
 
 
+def heat_capacity(mass, specific_heat, wall_heat_capacity=0.0):
+    r"""Heat capacity of the contents and the wall, J/K.
+
+    Parameters
+    ----------
+    mass : float or array, [kg]
+    specific_heat : float or array, [J/(kg K)]
+    wall_heat_capacity : float or array, [J/K], default 0
+
+    Returns
+    -------
+    float or array, [J/K]
+
+    Notes
+    -----
+    .. math:: C = m c_p + C_{wall}
+
+    Examples
+    --------
+    >>> heat_capacity(9000.0, 3400.0, 2100.0 * 490.0)
+    31629000.0
+    """
+    return mass * specific_heat + wall_heat_capacity
+
+
 @dataclass(frozen=True)
 class ConstantSource:
     """Heat released at a constant rate, W."""
@@ -113,4 +138,4 @@ class ScreeningModel:
     @property
     def heat_capacity(self) -> float:
         """Total heat capacity C = m c + wall, J/K."""
-        return self.contents_mass * self.contents_specific_heat + self.wall_heat_capacity
+        return heat_capacity(self.contents_mass, self.contents_specific_heat, self.wall_heat_capacity)

@@ -1,49 +1,80 @@
-"""The terms of the lumped balance C dT/dt = P(t, T) - UA (T - T_amb) for one model.
+r"""The terms of the lumped energy balance, assembled in one place for every engine.
 
-Constant, decaying, fire and heating-medium terms as a linear balance (closed form), and
-the heat input and loss rates along a history. Pure SI.
+.. math:: C \frac{dT}{dt} = Q_0 - G\,T + \sum_i P_i e^{-t/a_i} + m \sum_j q_j(T, X_j)
+
+with the heat capacity :math:`C = m c_p + C_{wall}`, the loss conductance
+:math:`G = UA + \sum_k ua_k` (heat loss to ambient plus heating media) and the constant drive
+:math:`Q_0 = UA\,T_a + \sum_k ua_k T_{m,k} + P_{const}`, where :math:`P_{const}` is the sum of
+the constant sources and the fire heat input. The one-case closed form, the vectorised engines, the
+columnar register path, Monte Carlo and the stiff integrators all take C, G, Q0 and P_const from
+here, so a term is added (or summed in a different order) in one place only.
+
+Every function takes floats or numpy arrays (one element per case); with floats it returns
+plain floats.
 """
 from __future__ import annotations
 
-import math
+from typing import NamedTuple
 
-import numpy as np
+from screening.core.model import ScreeningModel, heat_capacity
 
-from screening.core.closed_form_history import LinearBalance, linear_balance
-from screening.core.model import ScreeningModel
+__all__ = ["LumpedTerms", "conductance_and_drive", "constant_power", "heat_capacity", "model_terms"]
 
 
-def balance_of(model: ScreeningModel, ua: float | None = None, initial_temperature: float | None = None,
-               time_shift: float = 0.0, extra_media: tuple = ()) -> LinearBalance:
-    """The linear balance of a model's constant, decaying, fire and medium terms.
+class LumpedTerms(NamedTuple):
+    """C, G, Q0 and the time-dependent terms of one model (SI)."""
 
-    ``time_shift`` starts the clock later (decaying sources have decayed by
-    exp(-shift / a)); ``extra_media`` adds (temperature, ua) pairs such as restored cooling.
+    heat_capacity: float  #: C, J/K
+    conductance: float  #: G = UA + sum of media ua, W/K
+    drive: float  #: Q0 = UA Ta + sum ua_k Tm_k + P_const, W
+    constant_power: float  #: P_const, constant sources plus fire exposure, W
+    decaying_power: tuple  #: P_i, W
+    decay_time: tuple  #: a_i, s
+
+
+def conductance_and_drive(ua, ambient_temperature, constant_power=0.0, media_ua=(), media_temperature=()):
+    r"""Loss conductance G and constant drive Q0 of the linear part of the balance.
+
+    Parameters
+    ----------
+    ua : float or array, [W/K]
+        Heat loss to ambient.
+    ambient_temperature : float or array, [K]
+    constant_power : float or array, [W], default 0
+        Constant sources plus fire heat input (:func:`constant_power`).
+    media_ua, media_temperature : sequences of floats or arrays, [W/K] and [K]
+        One entry per heating medium (a jacket or coil left on).
+
+    Returns
+    -------
+    (G, Q0) : floats or arrays, [W/K] and [W]
+
+    Notes
+    -----
+    .. math:: G = UA + \sum_k ua_k, \qquad Q_0 = UA\,T_a + \sum_k ua_k T_{m,k} + P_{const}
+
+    The balance :math:`C\,dT/dt = Q_0 - G T + \ldots` settles at :math:`Q_0 / G`.
+
+    Examples
+    --------
+    >>> conductance_and_drive(180.0, 305.15, 2200.0)
+    (180.0, 57127.0)
     """
-    p_const = sum(s.power for s in model.constant_sources) + sum(f.power for f in model.fire_sources)
-    powers = [s.power * math.exp(-time_shift / s.time_constant) for s in model.decaying_sources]
-    taus = [s.time_constant for s in model.decaying_sources]
-    media_ua = [h.ua for h in model.heating_media] + [u for _, u in extra_media]
-    media_t = [h.medium_temperature for h in model.heating_media] + [t for t, _ in extra_media]
-    return linear_balance(model.heat_capacity, model.ua if ua is None else ua, model.ambient_temperature,
-                          model.initial_temperature if initial_temperature is None else initial_temperature,
-                          p_const, powers, taus, media_ua, media_t)
+    media_g = sum(media_ua)
+    media_q = sum(u * t for u, t in zip(media_ua, media_temperature))
+    return ua + media_g, ua * ambient_temperature + media_q + constant_power
 
 
-def heat_rates(model: ScreeningModel, t, temp, extra_media: tuple = (), time_shift: float = 0.0):
-    """(heat input, heat loss to ambient) in W at times t and temperatures temp.
+def constant_power(model: ScreeningModel) -> float:
+    """Constant heat input of a model, W: its constant sources plus the fire heat input."""
+    return sum(s.power for s in model.constant_sources) + sum(f.power for f in model.fire_sources)
 
-    Heat input counts constant, decaying and fire sources and heating media
-    (a medium colder than the contents counts as negative input).
-    """
-    t = np.asarray(t, dtype=float)
-    temp = np.asarray(temp, dtype=float)
-    gen = np.full(t.shape, sum(s.power for s in model.constant_sources) + sum(f.power for f in model.fire_sources))
-    for s in model.decaying_sources:
-        gen = gen + s.power * np.exp(-(t + time_shift) / s.time_constant)
-    for h in model.heating_media:
-        gen = gen + h.ua * (h.medium_temperature - temp)
-    for tm, u in extra_media:
-        gen = gen + u * (tm - temp)
-    loss = model.ua * (temp - model.ambient_temperature)
-    return gen, loss
+
+def model_terms(model: ScreeningModel, ua: float | None = None) -> LumpedTerms:
+    """The terms of one model; ``ua`` replaces its heat loss (``ua=0`` gives the adiabatic bound)."""
+    p_const = constant_power(model)
+    g, q0 = conductance_and_drive(model.ua if ua is None else ua, model.ambient_temperature, p_const,
+                                  [h.ua for h in model.heating_media],
+                                  [h.medium_temperature for h in model.heating_media])
+    return LumpedTerms(model.heat_capacity, g, q0, p_const, tuple(s.power for s in model.decaying_sources),
+                       tuple(s.time_constant for s in model.decaying_sources))

@@ -34,6 +34,7 @@ import numpy as np
 from screening.case.prepare import display_unit_from_texts
 from screening.case.schema import ConstantSpec, DecayingSpec
 from screening.case.units import UnitError, unit_factor
+from screening.core.terms import conductance_and_drive, heat_capacity
 from screening.register.reading import Column
 from screening.register.rows import _NUMBER_ONLY, _cell_value
 from screening.register.validation import _is_absolute_temperature
@@ -228,14 +229,11 @@ def screen_group(rep, rep_index: int, rows: list[list[str]], members: list[int],
     L = np.full((n, nl + 2), np.nan)  # + boiling point + alarm, unused here (as in vectorised_values)
     for j in range(nl):
         L[:, j] = cols["limit"][j]
-    C = cols["mass"] * cols["cp"] + m.wall_heat_capacity
-    G = cols["ua"] + 0.0
-    p0 = np.zeros(n)
-    for arr in cols["const"]:
-        p0 = p0 + arr
-    Q0 = cols["ua"] * cols["Ta"] + 0.0 + p0
-    engine_ok, times, summary, ad_times = run_engine(C, G, Q0, np.zeros(n), p0 + 0.0, cols["T0"], P, b, L,
-                                                     cols["H"], nl)
+    C = heat_capacity(cols["mass"], cols["cp"], m.wall_heat_capacity)
+    p0 = sum(cols["const"]) + np.zeros(n)
+    G, Q0 = conductance_and_drive(cols["ua"], cols["Ta"], p0)
+    G_ad, Q0_ad = conductance_and_drive(np.zeros(n), cols["Ta"], p0)
+    engine_ok, times, summary, ad_times = run_engine(C, G, Q0, G_ad, Q0_ad, cols["T0"], P, b, L, cols["H"], nl)
     ok &= engine_ok
     if not ok[0]:
         return GroupResults({}, list(members))

@@ -7,6 +7,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from screening.core.terms import model_terms
+
 
 def vectorised_values(prepared_list: list) -> list:
     """ClosedFormValues for many closed-form cases at once (vectorised engine)."""
@@ -29,14 +31,9 @@ def vectorised_values(prepared_list: list) -> list:
     b = np.zeros((n, max(k, 1)))
     L = np.full((n, n_lim), np.nan)
     for i, (prep, m) in enumerate(zip(prepared_list, models)):
-        C[i] = m.heat_capacity
-        media_g = sum(h.ua for h in m.heating_media)
-        media_q = sum(h.ua * h.medium_temperature for h in m.heating_media)
-        p0 = sum(s.power for s in m.constant_sources) + sum(f.power for f in m.fire_sources)
-        G[i] = m.ua + media_g
-        G_ad[i] = media_g
-        Q0[i] = m.ua * m.ambient_temperature + media_q + p0
-        Q0_ad[i] = media_q + p0
+        lossy, adiabatic = model_terms(m), model_terms(m, ua=0.0)
+        C[i], G[i], Q0[i] = lossy.heat_capacity, lossy.conductance, lossy.drive
+        G_ad[i], Q0_ad[i] = adiabatic.conductance, adiabatic.drive
         T0[i] = m.initial_temperature
         H[i] = m.horizon
         for j, s in enumerate(m.decaying_sources):

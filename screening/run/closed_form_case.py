@@ -11,10 +11,10 @@ from dataclasses import dataclass
 import numpy as np
 
 from screening.case.prepare import PreparedCase
-from screening.core.closed_form_history import temperature
+from screening.core.closed_form_history import balance_of, heat_rates, temperature
 from screening.core.model import ScreeningModel
 from screening.core.root_finding import brent_root as brentq
-from screening.core.terms import balance_of, heat_rates
+from screening.core.terms import constant_power, model_terms
 from screening.core.time_to_limit import first_crossing, history_shape
 from screening.result import HISTORY_POINTS
 from screening.run.recovery import detection_and_recovery
@@ -152,9 +152,8 @@ def _conductance_and_steady(model: ScreeningModel) -> tuple[float, float | None]
     Same formulas as :func:`screening.core.closed_form_history.steady_temperature`: Q0 / G with heat loss;
     T0 + sum P_i a_i / C when adiabatic with no constant drive; None otherwise.
     """
-    G = model.ua + sum(h.ua for h in model.heating_media)
-    Q0 = (model.ua * model.ambient_temperature + sum(h.ua * h.medium_temperature for h in model.heating_media)
-          + sum(s.power for s in model.constant_sources) + sum(f.power for f in model.fire_sources))
+    terms = model_terms(model)
+    G, Q0 = terms.conductance, terms.drive
     if G > 0:
         steady = Q0 / G
         return G, steady if math.isfinite(steady) else None
@@ -203,7 +202,7 @@ def boiling_closed_form(model, balance, t_boil, credit, unit):
         res["boiled_off_kg"] = 0.0
         return res, warnings, None
     Tb, L = boil.boiling_point, boil.latent_heat
-    p_const = sum(s.power for s in model.constant_sources) + sum(f.power for f in model.fire_sources)
+    p_const = constant_power(model)
     steady_net = p_const + sum(h.ua * (h.medium_temperature - Tb) for h in model.heating_media) - model.ua * (Tb - model.ambient_temperature)
 
     def net(t):

@@ -41,6 +41,7 @@ from screening.case.uncertainty_plan import (
     quantile,
 )
 from screening.case.units import DIMENSIONS
+from screening.core.terms import conductance_and_drive, heat_capacity
 
 SWING_QUANTILES = (0.05, 0.95)  # one-at-a-time swings: each input at its 5th and 95th percentile
 
@@ -231,7 +232,8 @@ def screen_samples(prepared: PreparedCase, arrays: SampleArrays) -> SampleTimes:
     L = arrays.limits
     if has_alarm:
         L = np.column_stack([L, arrays.alarm])
-    C = arrays.m * arrays.cp + arrays.wall
+    C = heat_capacity(arrays.m, arrays.cp, arrays.wall)
+    p_const = sum(arrays.Pc.T) + np.zeros(n)  # constant sources, and the fire heat input as one column
     if prepared.model.arrhenius_sources:
         from screening.core.arrhenius_history_batch import (
             ArrheniusSamples,
@@ -240,7 +242,7 @@ def screen_samples(prepared: PreparedCase, arrays: SampleArrays) -> SampleTimes:
 
         params = ArrheniusSamples(
             heat_capacity=C, contents_mass=arrays.m, ua=arrays.ua, ambient_temperature=arrays.Ta,
-            initial_temperature=arrays.T0, constant_power=arrays.Pc.sum(axis=1),
+            initial_temperature=arrays.T0, constant_power=p_const,
             decaying_power=arrays.Pd, decay_time=arrays.ad, media_ua=arrays.mua, media_temperature=arrays.mT,
             specific_power=arrays.q, reference_temperature=arrays.Tr, activation_energy=arrays.E,
             order=np.where(np.isnan(arrays.dh), 0.0, arrays.order), heat_of_reaction=arrays.dh,
@@ -249,8 +251,7 @@ def screen_samples(prepared: PreparedCase, arrays: SampleArrays) -> SampleTimes:
     else:
         from screening.core.time_to_limit_batch import first_crossing_times
 
-        G = arrays.ua + arrays.mua.sum(axis=1)
-        Q0 = arrays.ua * arrays.Ta + (arrays.mua * arrays.mT).sum(axis=1) + arrays.Pc.sum(axis=1)
+        G, Q0 = conductance_and_drive(arrays.ua, arrays.Ta, p_const, list(arrays.mua.T), list(arrays.mT.T))
         P = arrays.Pd if arrays.Pd.shape[1] else np.zeros((n, 1))
         b = 1.0 / arrays.ad if arrays.ad.shape[1] else np.zeros((n, 1))
         times = first_crossing_times(C, G, Q0, arrays.T0, P, b, L, arrays.horizon)

@@ -4,8 +4,7 @@ from __future__ import annotations
 import numpy as np
 
 from screening.case.prepare import PreparedCase
-from screening.core.closed_form_history import temperature
-from screening.core.terms import balance_of
+from screening.core.closed_form_history import balance_of, temperature
 from screening.core.time_to_limit import first_crossing, history_shape
 from screening.result import HISTORY_POINTS
 from screening.run.warnings import response_beyond_horizon_warning

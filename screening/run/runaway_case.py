@@ -16,6 +16,7 @@ from screening.case.prepare import PreparedCase
 from screening.case.schema import ArrheniusSpec
 from screening.core import runaway as rc
 from screening.core.model import HeatingMedium, Limit, ScreeningModel
+from screening.core.terms import constant_power
 from screening.run.recovery import detection_and_recovery
 
 ALARM = "\x00alarm"
@@ -24,10 +25,6 @@ ALARM = "\x00alarm"
 def _initial_conversions(model: ScreeningModel) -> list[float]:
     return [1.0 - s.accumulated_fraction if s.specific_heat_of_reaction is not None else 0.0
             for s in model.arrhenius_sources]
-
-
-def _persistent_power(model: ScreeningModel) -> float:
-    return sum(s.power for s in model.constant_sources) + sum(f.power for f in model.fire_sources)
 
 
 def _limit_rows(hist, model):
@@ -71,7 +68,7 @@ def screen_with_arrhenius(prepared: PreparedCase) -> dict:
     cp = model.contents_specific_heat
     sources = model.arrhenius_sources
     X0 = _initial_conversions(model)
-    P = _persistent_power(model)
+    P = constant_power(model)
     T0 = model.initial_temperature
     Ta = model.ambient_temperature
 
@@ -346,7 +343,7 @@ def _arrhenius_recovery(prepared: PreparedCase, result: dict, hist) -> None:
     for c in rec.limits:
         if c.time is not None and c.name not in reached:
             reached.append(c.name)
-    steady = rc.steady_states(model.contents_mass, sources, _persistent_power(model), model.ua,
+    steady = rc.steady_states(model.contents_mass, sources, constant_power(model), model.ua,
                               model.ambient_temperature, media,
                               conversion=[1.0 - s.accumulated_fraction if s.specific_heat_of_reaction else 0.0
                                           for s in sources])

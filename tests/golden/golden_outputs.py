@@ -7,6 +7,7 @@ change and after it:
     ... restructure ...
     python tests/golden/golden_outputs.py record /tmp/golden-after
     python tests/golden/golden_outputs.py compare /tmp/golden-before /tmp/golden-after
+    python tests/golden/golden_outputs.py compare /tmp/golden-before /tmp/golden-after --numeric
 
 or compare the working tree against the committed manifest (sha256 of every output):
 
@@ -31,6 +32,7 @@ import csv
 import hashlib
 import json
 import os
+import re
 import shutil
 import subprocess
 import sys
@@ -240,10 +242,60 @@ def compare(a: dict, b: dict) -> list[str]:
     return problems
 
 
+_NUMBER = re.compile(rb"[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?")
+
+
+def _tokens(path: Path) -> list:
+    """The file as a list of tokens: numbers as floats, everything else as bytes (PDFs: their text)."""
+    data = path.read_bytes()
+    if path.suffix == ".pdf":
+        from pypdf import PdfReader
+
+        data = "\n".join(page.extract_text() or "" for page in PdfReader(str(path)).pages).encode()
+    out, pos = [], 0
+    for m in _NUMBER.finditer(data):
+        out.append(data[pos:m.start()])
+        out.append(float(m.group()))
+        pos = m.end()
+    out.append(data[pos:])
+    return out
+
+
+def numeric_difference(a: Path, b: Path) -> tuple[float | None, str]:
+    """Largest relative difference between the numbers of two files whose text is otherwise the same.
+
+    Returns (None, why) when they differ in more than numbers (a word, a count of numbers). Hashes (64
+    hex digits) are text. Relative difference: |x - y| / max(|x|, |y|), 0 when both are 0.
+    """
+    ta, tb = _tokens(a), _tokens(b)
+    if len(ta) != len(tb):
+        return None, "different number of tokens"
+    worst = 0.0
+    for x, y in zip(ta, tb):
+        if isinstance(x, float) and isinstance(y, float):
+            if x != y:
+                worst = max(worst, abs(x - y) / max(abs(x), abs(y)))
+        elif x != y:
+            return None, f"text differs: {x[-40:]!r} vs {y[-40:]!r}"
+    return worst, ""
+
+
 def main(argv: list[str]) -> int:
     if len(argv) >= 2 and argv[0] == "record":
         m = record(Path(argv[1]))
         print(f"recorded {len(m['files'])} outputs in {argv[1]}")
+        return 0
+    if len(argv) == 4 and argv[0] == "compare" and argv[3] == "--numeric":
+        a = json.loads((Path(argv[1]) / "manifest.json").read_text())
+        b = json.loads((Path(argv[2]) / "manifest.json").read_text())
+        for line in compare(a, b):
+            name = line.split(": ", 1)[1]
+            if line.startswith("differs"):
+                worst, why = numeric_difference(Path(argv[1]) / name, Path(argv[2]) / name)
+                print(f"{name}: " + (f"numbers only, largest relative difference {worst:.3g}" if worst is not None
+                                     else f"NOT NUMERIC: {why}"))
+            else:
+                print(line)
         return 0
     if len(argv) == 3 and argv[0] == "compare":
         a = json.loads((Path(argv[1]) / "manifest.json").read_text())
