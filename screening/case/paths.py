@@ -1,7 +1,7 @@
 """Dotted case paths: split them, find the quantity at one, replace values at paths."""
 from __future__ import annotations
 
-from typing import Any
+from typing import Any, NamedTuple
 
 from screening.case.schema import CaseSpec, Quantity, quantity_field
 
@@ -77,3 +77,65 @@ def locate_quantity(spec: CaseSpec, parts: tuple):
     if marker is None or not isinstance(value, Quantity):
         raise KeyError(name)
     return node, name, value, marker
+
+
+# ------------------------------------------------------------------ paths -> model slots
+#
+# The fast paths (register rows on the direct and columnar paths, Monte Carlo samples) change SI
+# numbers of an already prepared model instead of preparing a new case. This one table says which
+# model number a quantity path sets; each fast path says which slots it can write.
+
+#: Quantity paths of single model numbers, and the slot each one sets.
+SCALAR_SLOTS = {
+    ("contents", "mass"): "mass", ("contents", "specific_heat"): "cp",
+    ("contents", "initial_temperature"): "T0", ("heat_loss", "ambient_temperature"): "Ta",
+    ("heat_loss", "ua"): "ua", ("heat_loss", "coefficient"): "coefficient", ("horizon",): "H",
+    ("response_time",): "response", ("detection", "delay"): "delay", ("detection", "alarm_temperature"): "alarm",
+    ("vessel", "wall_mass"): "wall_mass", ("vessel", "wall_specific_heat"): "wall_cp",
+}
+
+#: (heat-source kind, field) -> slot; the slot's index is the source's position among sources of its kind.
+SOURCE_SLOTS = {
+    ("constant", "power"): "const",
+    ("decaying", "power"): "dpower", ("decaying", "time_constant"): "dtau", ("decaying", "half_life"): "dhalf",
+    ("heating-medium", "ua"): "medium_ua", ("heating-medium", "medium_temperature"): "medium_T",
+    ("arrhenius", "specific_power"): "q", ("arrhenius", "reference_temperature"): "Tr",
+    ("arrhenius", "activation_energy"): "E", ("arrhenius", "specific_heat_of_reaction"): "dh",
+    ("arrhenius", "accumulated_fraction"): "af",
+}
+
+
+class Slot(NamedTuple):
+    """The model number a quantity path sets: its kind (a key of the tables above, or "limit") and index."""
+
+    kind: str
+    index: int = 0
+
+
+def source_positions(spec: CaseSpec) -> tuple[int, ...]:
+    """For each entry of ``heat_sources``: its position among the sources of the same kind."""
+    counts: dict = {}
+    out = []
+    for s in spec.heat_sources:
+        out.append(counts.get(s.kind, 0))
+        counts[s.kind] = out[-1] + 1
+    return tuple(out)
+
+
+def model_slot(spec: CaseSpec, path: tuple, positions: tuple[int, ...] | None = None) -> Slot | None:
+    """The model slot a quantity path sets, or None for a path no fast path can write directly.
+
+    ``positions`` are :func:`source_positions` of the spec (computed once per prepared case).
+    """
+    kind = SCALAR_SLOTS.get(path)
+    if kind is not None:
+        return Slot(kind)
+    if len(path) == 3 and path[0] == "limits" and path[2] == "temperature" and isinstance(path[1], int):
+        return Slot("limit", path[1])
+    if len(path) == 3 and path[0] == "heat_sources" and isinstance(path[1], int) and path[1] < len(spec.heat_sources):
+        kind = SOURCE_SLOTS.get((spec.heat_sources[path[1]].kind, path[2]))
+        if kind is None:
+            return None
+        pos = (positions if positions is not None else source_positions(spec))[path[1]]
+        return Slot(kind, pos)
+    return None

@@ -7,6 +7,7 @@ from dataclasses import dataclass, field
 
 from pydantic import BaseModel
 
+from screening.case.paths import source_positions
 from screening.case.schema import (
     DEFAULT_HORIZON_TEXT,
     ArrheniusSpec,
@@ -53,6 +54,7 @@ class PreparedCase:
     fill_fraction: float | None = None
     surface_coefficient: float | None = None
     uncertainty_plan: object = None
+    source_positions: tuple = ()  # each heat source's position among sources of its kind (case.paths)
 
 
 _FIELD_NAMES: dict = {}
@@ -220,7 +222,8 @@ def prepare_case(spec: CaseSpec, inputs: list[dict] | None = None) -> PreparedCa
         surface_coefficient=surface_coefficient)
     prepared = PreparedCase(model, spec, inputs if inputs is not None else collect_inputs(spec), _display_unit(spec),
                             warnings, geometry,
-                            fill_fraction=fill_fraction, surface_coefficient=surface_coefficient)
+                            fill_fraction=fill_fraction, surface_coefficient=surface_coefficient,
+                            source_positions=source_positions(spec))
     if spec.response_time is not None:
         prepared.response_time = spec.response_time.si
     if spec.detection is not None:

@@ -61,6 +61,7 @@ import numpy as np
 from scipy.integrate import Radau, solve_ivp
 from scipy.optimize import brentq
 
+from screening.core.arrhenius import log_arrhenius_rate
 from screening.core.model import GAS_CONSTANT, ScreeningModel
 from screening.core.terms import conductance_and_drive, constant_power
 
@@ -319,10 +320,8 @@ class _Balance:
             if self.done[j]:
                 continue
             # the cap acts on the temperature factor only, so depletion stays smooth under it
-            ex = lnq - e_r * (inv_T - inv_tref)
-            capped = ex > self.ln_cap
-            if capped:
-                ex = self.ln_cap
+            ex = log_arrhenius_rate(inv_T, lnq, e_r, inv_tref, self.ln_cap)
+            capped = ex >= self.ln_cap
             k_T = math.exp(ex if ex > LN_RATE_FLOOR else LN_RATE_FLOOR)  # q at zero conversion
             v = z[pos] if pos is not None else 0.0
             if pos is None or order == 0.0:
@@ -451,9 +450,8 @@ class _Balance:
             gen = gen + P * np.exp(np.maximum(-t / a, -700.0))
         capped_any = np.zeros(T.shape, dtype=bool)
         for j, lnq, e_r, inv_tref, order, pos, dh, u_mode in self._src:
-            ex = lnq - e_r * (1.0 / T - inv_tref)
-            capped = ex > self.ln_cap
-            ex = np.maximum(np.minimum(ex, self.ln_cap), LN_RATE_FLOOR)
+            ex = log_arrhenius_rate(1.0 / T, lnq, e_r, inv_tref, self.ln_cap, LN_RATE_FLOOR)
+            capped = ex >= self.ln_cap
             if pos is not None and order > 0:
                 if u_mode:
                     ex = ex + order / (1.0 - order) * np.log(np.maximum(Z[pos], 1e-300))

@@ -122,6 +122,7 @@ from typing import NamedTuple, Sequence
 
 import numpy as np
 
+from screening.core.arrhenius import log_arrhenius_rate
 from screening.core.model import GAS_CONSTANT, ScreeningModel
 from screening.core.terms import constant_power
 
@@ -584,9 +585,9 @@ def _flux(P: _Coef, Z, jac=False):
     F = np.empty((n, M))
     F[-1] = 1.0
     if J:
-        ex = P.lnq - P.er * (invT - P.itr)
-        capped = ex > P.lncap
-        k = np.exp(np.maximum(np.minimum(ex, P.lncap), LN_RATE_FLOOR))
+        ex = log_arrhenius_rate(invT, P.lnq, P.er, P.itr, P.lncap, LN_RATE_FLOOR)
+        capped = ex >= P.lncap
+        k = np.exp(ex)
         if not P.all_active:
             k *= P.act
         if K:

@@ -18,7 +18,7 @@ from typing import NamedTuple
 
 from screening.core.model import ScreeningModel, heat_capacity
 
-__all__ = ["LumpedTerms", "conductance_and_drive", "constant_power", "heat_capacity", "model_terms"]
+__all__ = ["LumpedTerms", "conductance_and_drive", "constant_power", "fire_power", "heat_capacity", "model_terms"]
 
 
 class LumpedTerms(NamedTuple):
@@ -65,9 +65,14 @@ def conductance_and_drive(ua, ambient_temperature, constant_power=0.0, media_ua=
     return ua + media_g, ua * ambient_temperature + media_q + constant_power
 
 
+def fire_power(model: ScreeningModel) -> float:
+    """Fire heat input of a model, W (the sum of its fire sources, each already evaluated by the correlation)."""
+    return sum(f.power for f in model.fire_sources)
+
+
 def constant_power(model: ScreeningModel) -> float:
     """Constant heat input of a model, W: its constant sources plus the fire heat input."""
-    return sum(s.power for s in model.constant_sources) + sum(f.power for f in model.fire_sources)
+    return sum(s.power for s in model.constant_sources) + fire_power(model)
 
 
 def model_terms(model: ScreeningModel, ua: float | None = None) -> LumpedTerms:

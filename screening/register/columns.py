@@ -31,8 +31,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from screening.case.paths import model_slot
 from screening.case.prepare import display_unit_from_texts
-from screening.case.schema import ConstantSpec, DecayingSpec
 from screening.case.units import UnitError, unit_factor
 from screening.core.terms import conductance_and_drive, heat_capacity
 from screening.register.reading import Column
@@ -65,9 +65,9 @@ VARYING_KEYS = frozenset({
 #: Raise instead of falling back when a group's self-check fails (the tests set this).
 STRICT_SELF_CHECK = False
 
-_SCALAR_FIELDS = {("contents", "mass"): "mass", ("contents", "specific_heat"): "cp",
-                  ("contents", "initial_temperature"): "T0", ("heat_loss", "ambient_temperature"): "Ta",
-                  ("heat_loss", "ua"): "ua", ("horizon",): "H", ("response_time",): "response"}
+#: Model slots (screening.case.paths) a uniform group may vary, column by column.
+_SCALAR_KINDS = ("mass", "cp", "T0", "Ta", "ua", "H", "response")
+_COLUMN_KINDS = frozenset(_SCALAR_KINDS + ("limit", "const", "dpower", "dtau", "dhalf"))
 
 
 class SelfCheckError(AssertionError):
@@ -104,19 +104,10 @@ def plan_group(rep, fast_cols) -> list[_Varying] | None:
                 return None
             out.append(_Varying(col, path[0], 0, None, path[0]))
             continue
-        kind, slot = _SCALAR_FIELDS.get(path), 0
-        if kind is None and len(path) == 3 and path[0] == "limits" and path[2] == "temperature":
-            kind, slot = "limit", path[1]
-        elif kind is None and len(path) == 3 and path[0] == "heat_sources":
-            src = spec.heat_sources[path[1]]
-            slot = [i for i, s in enumerate(spec.heat_sources) if type(s) is type(src)].index(path[1])
-            if isinstance(src, ConstantSpec) and path[2] == "power":
-                kind = "const"
-            elif isinstance(src, DecayingSpec):
-                kind = {"power": "dpower", "time_constant": "dtau", "half_life": "dhalf"}.get(path[2])
-        if kind is None or marker is None:
+        slot = model_slot(spec, path, rep.source_positions)
+        if slot is None or slot.kind not in _COLUMN_KINDS or marker is None:
             return None
-        out.append(_Varying(col, kind, slot, marker, ".".join(str(p) for p in path)))
+        out.append(_Varying(col, slot.kind, slot.index, marker, ".".join(str(p) for p in path)))
     return out
 
 
@@ -321,7 +312,7 @@ def _model_columns(rep, plan: list[_Varying], parsed: dict, n: int) -> dict:
         if v.marker is None:
             continue
         si = np.asarray(parsed[id(v)][0], dtype=float)
-        if v.kind in _SCALAR_FIELDS.values():
+        if v.kind in _SCALAR_KINDS:
             cols[v.kind] = si
         elif v.kind == "limit":
             cols["limit"][v.slot] = si

@@ -12,13 +12,11 @@ from __future__ import annotations
 import math
 from typing import Any
 
-from screening.case.paths import apply_updates
+from screening.case.paths import apply_updates, model_slot
 from screening.case.prepare import display_unit_from_texts
 from screening.case.schema import (
     CaseError,
     CaseSpec,
-    ConstantSpec,
-    DecayingSpec,
     FieldProblem,
     Quantity,
     QuantityField,
@@ -240,45 +238,38 @@ def _direct_updater(rep, path: tuple):
     if spec.vessel is not None or spec.heat_loss.ua is None or rep.model.fire_sources \
             or rep.uncertainty_plan is not None:
         return None
-    if path == ("contents", "mass"):
-        return lambda f, q: f.__setitem__("contents_mass", q.si)
-    if path == ("contents", "specific_heat"):
-        return lambda f, q: f.__setitem__("contents_specific_heat", q.si)
-    if path == ("contents", "initial_temperature"):
-        return lambda f, q: f.__setitem__("initial_temperature", q.si)
-    if path == ("heat_loss", "ambient_temperature"):
-        return lambda f, q: f.__setitem__("ambient_temperature", q.si)
-    if path == ("heat_loss", "ua"):
-        return lambda f, q: f.__setitem__("ua", q.si)
-    if path == ("horizon",):
-        return lambda f, q: f.__setitem__("horizon", q.si)
-
-    if len(path) == 3 and path[0] == "limits" and path[2] == "temperature":
-        j = path[1]
-
+    slot = model_slot(spec, path, rep.source_positions)
+    if slot is None:
+        return None
+    field_name = _MODEL_FIELD_OF_SLOT.get(slot.kind)
+    if field_name is not None:
+        return lambda f, q: f.__setitem__(field_name, q.si)
+    j = slot.index
+    if slot.kind == "limit":
         def set_limit(f, q):
             f["limits"][j] = Limit(f["limits"][j].name, q.si)
 
         return set_limit
-    if len(path) == 3 and path[0] == "heat_sources":
-        src = spec.heat_sources[path[1]]
-        same_kind = [i for i, s in enumerate(spec.heat_sources) if type(s) is type(src)]
-        j = same_kind.index(path[1])
-        if isinstance(src, ConstantSpec) and path[2] == "power":
-            return lambda f, q: f["constant_sources"].__setitem__(j, ConstantSource(q.si))
-        if isinstance(src, DecayingSpec) and path[2] in ("power", "time_constant", "half_life"):
-            name = path[2]
+    if slot.kind == "const":
+        return lambda f, q: f["constant_sources"].__setitem__(j, ConstantSource(q.si))
+    if slot.kind in ("dpower", "dtau", "dhalf"):
+        kind = slot.kind
 
-            def set_decaying(f, q):
-                old = f["decaying_sources"][j]
-                if name == "power":
-                    f["decaying_sources"][j] = DecayingSource(q.si, old.time_constant)
-                else:
-                    a = q.si if name == "time_constant" else q.si / math.log(2.0)
-                    f["decaying_sources"][j] = DecayingSource(old.power, a)
+        def set_decaying(f, q):
+            old = f["decaying_sources"][j]
+            if kind == "dpower":
+                f["decaying_sources"][j] = DecayingSource(q.si, old.time_constant)
+            else:
+                a = q.si if kind == "dtau" else q.si / math.log(2.0)
+                f["decaying_sources"][j] = DecayingSource(old.power, a)
 
-            return set_decaying
+        return set_decaying
     return None
+
+
+#: ScreeningModel field of each single-number slot the direct path writes (screening.case.paths).
+_MODEL_FIELD_OF_SLOT = {"mass": "contents_mass", "cp": "contents_specific_heat", "T0": "initial_temperature",
+                        "Ta": "ambient_temperature", "ua": "ua", "H": "horizon"}
 
 
 _UNIT_CACHE: dict = {}

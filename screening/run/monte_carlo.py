@@ -20,17 +20,12 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from screening.case.paths import apply_updates, locate_quantity
+from screening.case.paths import apply_updates, locate_quantity, model_slot
 from screening.case.prepare import PreparedCase, prepare_case
 from screening.case.schema import (
-    ArrheniusSpec,
     CaseError,
-    CaseSpec,
-    ConstantSpec,
-    DecayingSpec,
     FieldProblem,
     FireSpec,
-    HeatingMediumSpec,
 )
 from screening.case.uncertainty_plan import (
     UncertainInput,
@@ -41,7 +36,7 @@ from screening.case.uncertainty_plan import (
     quantile,
 )
 from screening.case.units import DIMENSIONS
-from screening.core.terms import conductance_and_drive, heat_capacity
+from screening.core.terms import conductance_and_drive, fire_power, heat_capacity
 
 SWING_QUANTILES = (0.05, 0.95)  # one-at-a-time swings: each input at its 5th and 95th percentile
 
@@ -89,7 +84,7 @@ def base_arrays(prepared: PreparedCase, n: int) -> SampleArrays:
     return SampleArrays(
         m=full(model.contents_mass), cp=full(model.contents_specific_heat), wall=full(model.wall_heat_capacity),
         ua=full(model.ua), Ta=full(model.ambient_temperature), T0=full(model.initial_temperature),
-        Pc=cols([s.power for s in model.constant_sources] + [sum(f.power for f in model.fire_sources)]),
+        Pc=cols([s.power for s in model.constant_sources] + [fire_power(model)]),
         Pd=cols([s.power for s in model.decaying_sources]), ad=cols([s.time_constant for s in model.decaying_sources]),
         mua=cols([h.ua for h in model.heating_media]), mT=cols([h.medium_temperature for h in model.heating_media]),
         q=cols([s.specific_power for s in srcs]), Tr=cols([s.reference_temperature for s in srcs]),
@@ -103,75 +98,36 @@ def base_arrays(prepared: PreparedCase, n: int) -> SampleArrays:
     )
 
 
-def _source_slots(spec: CaseSpec) -> list[tuple[str, int]]:
-    """For each heat_sources index: (group, position in that group's arrays)."""
-    counts = {"constant": 0, "decaying": 0, "medium": 0, "arrhenius": 0, "fire": 0}
-    out = []
-    for s in spec.heat_sources:
-        group = {ConstantSpec: "constant", DecayingSpec: "decaying", HeatingMediumSpec: "medium",
-                 ArrheniusSpec: "arrhenius", FireSpec: "fire"}[type(s)]
-        out.append((group, counts[group]))
-        counts[group] += 1
-    return out
+#: Monte Carlo array of each model slot (see screening.case.paths); per-source slots are columns.
+_ARRAY_OF_SLOT = {"mass": "m", "cp": "cp", "T0": "T0", "Ta": "Ta", "ua": "ua", "H": "horizon", "response": "response",
+                  "delay": "delay", "alarm": "alarm", "limit": "limits", "const": "Pc", "dpower": "Pd", "dtau": "ad",
+                  "medium_ua": "mua", "medium_T": "mT", "q": "q", "Tr": "Tr", "E": "E", "dh": "dh", "af": "af"}
 
 
 def direct_setter(prepared: PreparedCase, parts: tuple):
     """A function (arrays, values) -> None that writes sampled SI values into the arrays, or None
     when the path changes something the arrays cannot express directly (geometry, fill ...)."""
     spec = prepared.spec
-    head = parts[0]
-    if head == "contents" and len(parts) == 2:
-        name = parts[1]
-        if name == "mass":
-            return lambda a, v: setattr(a, "m", v)
-        if name == "specific_heat":
-            return lambda a, v: setattr(a, "cp", v)
-        if name == "initial_temperature":
-            return lambda a, v: setattr(a, "T0", v)
+    slot = model_slot(spec, parts, prepared.source_positions)
+    if slot is None:
         return None
-    if head == "heat_loss" and len(parts) == 2:
-        if parts[1] == "ambient_temperature":
-            return lambda a, v: setattr(a, "Ta", v)
-        if parts[1] == "ua":
-            return lambda a, v: setattr(a, "ua", v)
-        if parts[1] == "coefficient":
-            area = prepared.geometry.get("heat_loss_area_m2")
-            if area is None or any(isinstance(s, FireSpec) for s in spec.heat_sources):
-                return None
-            return lambda a, v: setattr(a, "ua", v * area)
-        return None
-    if head == "vessel" and len(parts) == 2 and parts[1] in ("wall_mass", "wall_specific_heat"):
-        v0 = spec.vessel
-        other = v0.wall_specific_heat.si if parts[1] == "wall_mass" else v0.wall_mass.si
-        return lambda a, v: setattr(a, "wall", v * other)
-    if head == "limits" and len(parts) == 3 and parts[2] == "temperature":
-        j = parts[1]
-        return lambda a, v: a.limits.__setitem__((slice(None), j), v)
-    if parts == ("horizon",):
-        return lambda a, v: setattr(a, "horizon", v)
-    if parts == ("response_time",):
-        return lambda a, v: setattr(a, "response", v)
-    if parts == ("detection", "delay"):
-        return lambda a, v: setattr(a, "delay", v)
-    if parts == ("detection", "alarm_temperature"):
-        return lambda a, v: setattr(a, "alarm", v)
-    if head == "heat_sources" and len(parts) == 3:
-        group, pos = _source_slots(spec)[parts[1]]
-        name = parts[2]
-        table = {
-            ("constant", "power"): "Pc", ("decaying", "power"): "Pd", ("decaying", "time_constant"): "ad",
-            ("medium", "ua"): "mua", ("medium", "medium_temperature"): "mT",
-            ("arrhenius", "specific_power"): "q", ("arrhenius", "reference_temperature"): "Tr",
-            ("arrhenius", "activation_energy"): "E", ("arrhenius", "specific_heat_of_reaction"): "dh",
-            ("arrhenius", "accumulated_fraction"): "af",
-        }
-        if (group, name) == ("decaying", "half_life"):
-            return lambda a, v: a.ad.__setitem__((slice(None), pos), v / math.log(2.0))
-        key = table.get((group, name))
-        if key is None:
+    if slot.kind == "coefficient":
+        area = prepared.geometry.get("heat_loss_area_m2")
+        if area is None or any(isinstance(s, FireSpec) for s in spec.heat_sources):
             return None
-        return lambda a, v: getattr(a, key).__setitem__((slice(None), pos), v)
-    return None
+        return lambda a, v: setattr(a, "ua", v * area)
+    if slot.kind in ("wall_mass", "wall_cp"):
+        v0 = spec.vessel
+        other = v0.wall_specific_heat.si if slot.kind == "wall_mass" else v0.wall_mass.si
+        return lambda a, v: setattr(a, "wall", v * other)
+    if slot.kind == "dhalf":
+        return lambda a, v: a.ad.__setitem__((slice(None), slot.index), v / math.log(2.0))
+    name = _ARRAY_OF_SLOT.get(slot.kind)
+    if name is None:
+        return None
+    if slot.kind == "limit" or name in ("Pc", "Pd", "ad", "mua", "mT", "q", "Tr", "E", "dh", "af"):
+        return lambda a, v: getattr(a, name).__setitem__((slice(None), slot.index), v)
+    return lambda a, v: setattr(a, name, v)
 
 
 def sample_arrays(prepared: PreparedCase, plan: UncertaintyPlan, values: np.ndarray) -> SampleArrays:
@@ -295,7 +251,7 @@ def analyse(prepared: PreparedCase, plan: UncertaintyPlan | None = None) -> dict
     rejected = int((~ok).sum())
     values = values[ok]
     arrays = sample_arrays(prepared, plan, values)
-    bad = ~np.isfinite(arrays.m) | ~(arrays.m * arrays.cp + arrays.wall > 0)
+    bad = ~np.isfinite(arrays.m) | ~(heat_capacity(arrays.m, arrays.cp, arrays.wall) > 0)
     if bad.any():
         rejected += int(bad.sum())
         keep = ~bad

@@ -16,7 +16,7 @@ from screening.case.prepare import PreparedCase
 from screening.case.schema import ArrheniusSpec
 from screening.core import runaway as rc
 from screening.core.model import HeatingMedium, Limit, ScreeningModel
-from screening.core.terms import constant_power
+from screening.core.terms import constant_power, model_terms
 from screening.run.recovery import detection_and_recovery
 
 ALARM = "\x00alarm"
@@ -62,7 +62,7 @@ def screen_with_arrhenius(prepared: PreparedCase) -> dict:
     warnings.extend(w for w in hist.peak_warnings if w not in warnings)
 
     C = model.heat_capacity
-    G = model.ua + sum(h.ua for h in model.heating_media)
+    G = model_terms(model).conductance
     tau = C / G if G > 0 else None
     m = model.contents_mass
     cp = model.contents_specific_heat

@@ -55,6 +55,7 @@ from typing import Sequence
 
 import numpy as np
 
+from screening.core.arrhenius import log_arrhenius_rate
 from screening.core.model import GAS_CONSTANT, ArrheniusSource, HeatingMedium
 from screening.core.root_finding import brent_root
 
@@ -222,9 +223,10 @@ def _log_specific_powers(temperature, sources, conversion):
     t = np.asarray(temperature, dtype=float)
     conv = _conversions(sources, conversion)
     out = np.empty((len(sources),) + t.shape)
+    inv_t = 1.0 / t
     for i, (s, x) in enumerate(zip(sources, conv)):
-        lq = _safe_log(s.specific_power) - s.activation_energy / GAS_CONSTANT * (
-            1.0 / t - 1.0 / s.reference_temperature)
+        lq = log_arrhenius_rate(inv_t, _safe_log(s.specific_power), s.activation_energy / GAS_CONSTANT,
+                                1.0 / s.reference_temperature)
         if s.order != 0:
             lq = lq + s.order * _safe_log(1.0 - x)
         out[i] = lq
