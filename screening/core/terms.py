@@ -57,8 +57,12 @@ def conductance_and_drive(ua, ambient_temperature, constant_power=0.0, media_ua=
 
     Examples
     --------
-    >>> conductance_and_drive(180.0, 305.15, 2200.0)
-    (180.0, 57127.0)
+    A tank losing 180 W/K to air at 32 degC with a 2.2 kW agitator settles at
+    Q0 / G = 32 degC + 2200 / 180 K = 44.2 degC (by hand):
+
+    >>> G, Q0 = conductance_and_drive(180.0, 305.15, 2200.0)
+    >>> G, round(Q0, 6), round(Q0 / G - 273.15, 4)
+    (180.0, 57127.0, 44.2222)
     """
     media_g = sum(media_ua)
     media_q = sum(u * t for u, t in zip(media_ua, media_temperature))

@@ -1,0 +1,36 @@
+"""The worked examples in the core's docstrings are run as tests (each reproduces its cited value).
+
+Equivalent to ``pytest --doctest-modules screening/core``; kept as a test so that the README's one
+test command runs them too.
+"""
+from __future__ import annotations
+
+import doctest
+import importlib
+from pathlib import Path
+
+import pytest
+
+CORE = Path(__file__).resolve().parents[2] / "screening" / "core"
+MODULES = sorted(".".join(p.relative_to(CORE.parents[1]).with_suffix("").parts).replace(".__init__", "")
+                 for p in CORE.rglob("*.py"))
+
+
+@pytest.mark.parametrize("name", MODULES)
+def test_docstring_examples(name):
+    module = importlib.import_module(name)
+    result = doctest.testmod(module, optionflags=doctest.ELLIPSIS | doctest.NORMALIZE_WHITESPACE, verbose=False)
+    assert result.failed == 0, f"{result.failed} of {result.attempted} examples failed in {name}"
+
+
+def test_every_published_correlation_has_an_example():
+    # the public functions that implement a published law or correlation must carry a worked example
+    required = {
+        "screening.core.arrhenius": ["log_arrhenius_rate", "arrhenius_specific_power"],
+        "screening.core.model": ["heat_capacity"],
+        "screening.core.terms": ["conductance_and_drive"],
+        "screening.core.time_to_limit": ["time_to_limit"],
+    }
+    missing = [f"{m}.{f}" for m, fs in required.items() for f in fs
+               if ">>>" not in (getattr(importlib.import_module(m), f).__doc__ or "")]
+    assert not missing, f"no worked example in: {missing}"
