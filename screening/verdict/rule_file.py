@@ -55,8 +55,9 @@ File layout
 Thresholds
     Quantities with a unit need a unit in the threshold ("8 h", "30 min",
     "10 K", "150 degC").  A temperature *difference* must be written in K (or
-    ``delta_degC``, ``delta_degF``, ``degR``); ``degC``/``degF`` are rejected there
-    because they denote a temperature, not a difference.  A threshold may also be
+    ``delta_degC``, ``delta_degF``, ``degR``); ``degC``/``degF`` (in any spelling,
+    and ``degRe``) are rejected there because they denote a temperature, not a
+    difference.  Either takes exactly one temperature unit, as a case file does.  A threshold may also be
     relative to another quantity of the same kind::
 
         threshold = { of = "response_time", times = 1.0, plus = "0 h" }
@@ -114,7 +115,7 @@ from typing import Any
 
 from pydantic import BaseModel, ConfigDict, ValidationError
 
-from screening.case.units import UnitError, unit_factor
+from screening.case.units import UnitError, temperature_scale, unit_factor
 from screening.errors import InputError
 from screening.resources import rule_set_candidates
 from screening.verdict.engine import (
@@ -268,7 +269,7 @@ def _parse_value(raw: Any, dim: str) -> Any:
         raise ValueError(f"{raw!r} has no unit; expected a {dim} such as {_EXAMPLE[dim]}")
 
     if dim == DELTA_T:
-        if unit.strip() in ("degC", "°C", "C", "celsius", "degF", "°F", "F", "fahrenheit"):
+        if temperature_scale(unit) in ("degC", "degF", "degRe"):
             raise ValueError(f"{raw!r} is a temperature, not a temperature difference; write the difference "
                              f"in K (e.g. '10 K') or as delta_degC / delta_degF")
         dimension = "temperature_difference"
