@@ -24,7 +24,14 @@ from pydantic import (
     model_validator,
 )
 
-from screening.case.units import DIMENSION_WORDS, DIMENSIONS, UnitError, parse_quantity
+from screening.case.units import (
+    DIMENSION_WORDS,
+    DIMENSIONS,
+    UnitError,
+    non_finite,
+    not_finite_message,
+    parse_quantity,
+)
 from screening.errors import InputError
 
 DEFAULT_HORIZON_TEXT = "72 h"
@@ -114,7 +121,8 @@ def quantity_field(owner: BaseModel, name: str) -> QuantityField | None:
 
 
 class Strict(BaseModel):
-    model_config = ConfigDict(extra="forbid", frozen=True, arbitrary_types_allowed=True)
+    # allow_inf_nan=False: plain-number fields (order) refuse inf and nan like quantities do
+    model_config = ConfigDict(extra="forbid", frozen=True, arbitrary_types_allowed=True, allow_inf_nan=False)
 
 
 ShapeName = Literal["vertical-cylinder", "horizontal-cylinder", "sphere", "box"]
@@ -430,6 +438,9 @@ def problems_from_validation_error(exc: ValidationError, data: Any = None) -> li
             msg = "must not be empty"
         elif etype in ("string_type",):
             msg = f"expected text, got {_show(err.get('input'))}"
+        elif etype == "finite_number" or (etype in ("float_parsing", "float_type", "greater_than_equal",
+                                                     "less_than_equal") and non_finite(err.get("input"))):
+            msg = not_finite_message(err.get("input"))
         elif etype in ("float_parsing", "float_type"):
             msg = f"expected a number, got {_show(err.get('input'))}"
         elif etype in ("bool_parsing", "bool_type"):
