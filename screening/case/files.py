@@ -9,6 +9,7 @@ from pathlib import Path
 from typing import Any
 
 from screening.case.schema import CaseError, CaseSpec, FieldProblem, validate_case_data
+from screening.case.units import FINITE_EXPECTED
 
 MAX_CASE_BYTES = 2_000_000
 MAX_YAML_NODES = 100_000  # guards against alias ("billion laughs") expansion
@@ -53,6 +54,13 @@ def _yaml_loader():
                     None, None, f"the document expands to more than {MAX_YAML_NODES} nodes", node.start_mark)
             return super().construct_object(node, deep=deep)
 
+    def construct_int(loader, node):
+        try:
+            return yaml.SafeLoader.construct_yaml_int(loader, node)
+        except ValueError:  # more digits than Python converts: far beyond any float, so infinite
+            return float("-inf") if node.value.lstrip().startswith("-") else float("inf")
+
+    UniqueKeyLoader.add_constructor("tag:yaml.org,2002:int", construct_int)
     # YAML 1.1 turns "no"/"yes"/"on" into booleans and "1:30" into numbers; keep the standard resolver.
     UniqueKeyLoader.nodes_seen = 0
     return UniqueKeyLoader
@@ -75,6 +83,9 @@ def parse_text(raw: bytes, kind: str) -> Any:
             return tomllib.loads(text)
         except tomllib.TOMLDecodeError as exc:
             raise CaseError([FieldProblem("(file)", f"TOML syntax error: {exc}{_toml_hint(text, str(exc))}")]) from None
+        except ValueError as exc:  # e.g. an integer of more digits than Python converts
+            reason = str(exc).split("; use ")[0]  # not Python's advice on its own limits
+            raise CaseError([FieldProblem("(file)", f"TOML value not readable: {reason}; {FINITE_EXPECTED}")]) from None
     import yaml
 
     loader = _yaml_loader()(text)
@@ -97,6 +108,8 @@ def parse_text(raw: bytes, kind: str) -> Any:
         raise CaseError([FieldProblem("(file)", f"YAML error: {exc}")]) from None
     except RecursionError:
         raise CaseError([FieldProblem("(file)", "YAML nesting is too deep")]) from None
+    except ValueError as exc:  # a value the YAML types cannot hold, e.g. the date 2024-13-45
+        raise CaseError([FieldProblem("(file)", f"YAML value not readable: {exc}")]) from None
     finally:
         loader.dispose()
 
@@ -160,7 +173,7 @@ def _parse_json(text: str):
         return obj
 
     try:
-        data = json.loads(text, object_pairs_hook=pairs)
+        data = json.loads(text, object_pairs_hook=pairs, parse_int=_json_int)
     except json.JSONDecodeError as exc:
         raise CaseError([FieldProblem("(file)", f"JSON syntax error at line {exc.lineno}, column {exc.colno}: {exc.msg}")]) from None
     except RecursionError:
@@ -169,6 +182,13 @@ def _parse_json(text: str):
         raise CaseError([FieldProblem("(file)", f"the key '{key}' is given twice: {_dotted(path)} (line {line}); {_ONCE}")
                          for key, path, line in _json_keys_twice(text)[:MAX_KEY_PROBLEMS]])
     return data
+
+
+def _json_int(digits: str):
+    try:
+        return int(digits)
+    except ValueError:  # more digits than Python converts: far beyond any float, so infinite
+        return float("-inf") if digits.startswith("-") else float("inf")
 
 
 _JSON_TOKEN = re.compile(r'"(?:[^"\\]|\\.)*"|[{}\[\]:,]')

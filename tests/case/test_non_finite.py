@@ -263,6 +263,24 @@ def test_a_whole_number_too_large_for_a_float_is_refused():
     assert_only_this_field_refused(found, ("heat_sources", 4, "environment_factor"))
 
 
+@pytest.mark.parametrize("kind", ["yaml", "json", "toml"])
+@pytest.mark.parametrize("sign", ["", "-"])
+def test_an_integer_of_more_digits_than_python_reads_is_an_input_error(kind, sign):
+    # Python refuses to convert integers of more than 4300 decimal digits (its default limit, from memory)
+    text = text_of(with_value(BOX, ("contents", "fill"), BAD), kind).replace(placeholder(kind), sign + "7" * 5000)
+    with pytest.raises(CaseError) as info:
+        load_case_bytes(text.encode(), kind)
+    ((field, message),) = [(p.field, p.message) for p in info.value.problems]
+    assert "finite number is expected" in message and len(message) < 300
+    assert field == ("(file)" if kind == "toml" else "contents.fill")  # TOML's reader stops at the file
+
+
+def test_a_yaml_date_that_does_not_exist_is_an_input_error():
+    # YAML 1.1 reads 2024-13-45 as a date (timestamp type, from memory); there is no month 13
+    found = refused(text_of(dict(BOX, meta={"date": BAD}), "yaml").replace(placeholder("yaml"), "2024-13-45"), "yaml")
+    assert found == [("(file)", "YAML value not readable: month must be in 1..12")]
+
+
 # ------------------------------------------------------------------ the uncertainty block
 
 VALID = {  # a valid value of every parameter, for an input of each kind: with a unit, a temperature, a fraction
