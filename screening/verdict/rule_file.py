@@ -588,6 +588,10 @@ def parse_rule_set(data: bytes, path: str | None = None) -> RuleSet:
         doc = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise RuleSetError([("(file)", f"TOML syntax error: {exc}")], path) from None
+    except ValueError as exc:  # e.g. an integer of more digits than Python converts
+        reason = str(exc).split("; use ")[0]  # not Python's advice on its own limits
+        raise RuleSetError([("(file)", f"TOML value not readable: {reason}; a finite number is expected")],
+                           path) from None
 
     errors: list[tuple[str, str]] = []
     for key in sorted(set(doc) - {"rule_set", "rule", "matrix"}):

@@ -95,3 +95,9 @@ def test_non_finite_matrix_class_bound_is_refused(quantity, bound):
         where = f'matrix #1 (id "m1").rows.classes[#1].{bound}'
         assert list(errors) == [where], (spelling, unit, errors)
         assert "finite number is expected" in errors[where]
+
+
+def test_a_threshold_of_more_digits_than_python_reads_is_refused():
+    # Python refuses to convert integers of more than 4300 decimal digits (its default limit, from memory)
+    errors = errors_of(rule_text("limit_count", "7" * 5000))
+    assert list(errors) == ["(file)"] and "finite number is expected" in errors["(file)"]
