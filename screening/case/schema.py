@@ -523,7 +523,7 @@ def _geometry_problems(spec: CaseSpec) -> list[FieldProblem]:
     vessel = spec.vessel
     has_shape = vessel is not None and vessel.shape is not None
     if vessel is not None and not has_shape:
-        given = [n for n in GEOMETRY_FIELDS if n in vessel.model_fields_set]
+        given = [n for n in GEOMETRY_FIELDS if n in vessel.model_fields_set and getattr(vessel, n) is not None]
         if given:
             problems.append(FieldProblem("vessel.shape", (
                 f"required with {', '.join(f'vessel.{n}' for n in given)} (they describe the vessel's geometry); "

@@ -251,7 +251,7 @@ def non_finite(value) -> bool:
 def not_finite_message(value, expected: str | None = None) -> str:
     """'<value> is not a finite number; a finite number is expected[: <expected>]'."""
     if isinstance(value, str):
-        shown = f"'{value}'"
+        shown = f"'{value}'" if len(value) <= 60 else f"'{value[:57]}...'"
     elif isinstance(value, float):
         shown = str(value)
     else:
