@@ -283,8 +283,8 @@ def margin(case: str = typer.Argument(..., help="Case file (YAML, TOML or JSON).
         spec = loaded.spec.model_copy(update={"uncertainty": None})
         prepared = prepare_case(spec)
         _, q, _ = locate_input(prepared.spec, vary)
-        lo = parse_bound(low, q) if low is not None else None
-        hi = parse_bound(high, q) if high is not None else None
+        lo = parse_bound(low, q, "--low") if low is not None else None
+        hi = parse_bound(high, q, "--high") if high is not None else None
         report = find_allowable_values(prepared, vary, lo, hi, points, rules)
         if json_out:
             typer.echo(json.dumps(report, indent=2, ensure_ascii=False, allow_nan=False))

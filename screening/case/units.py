@@ -108,6 +108,9 @@ for _spelling in (*_SCALE_OF, *_DIFFERENCE_SCALE_OF):
 
 _NUMBER = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*?)\s*$")
 _WORD = re.compile(r"(?:[^\W\d]|°)(?:\w|°)*")  # a unit name: letters (any script), digits, _, °
+# infinity and not-a-number as YAML, JSON, TOML and Python spell them (.inf, -.Inf, Infinity, nan, .NaN ...)
+_NON_FINITE = re.compile(r"^\s*[-+]?\.?(?:inf(?:inity)?|nan)(?![A-Za-z0-9_])|^\s*[-+]?∞", re.IGNORECASE)
+FINITE_EXPECTED = "a finite number is expected"
 
 
 class UnitError(InputError, ValueError):
@@ -331,8 +334,42 @@ def _pint_factor(unit: str, dimension: str) -> tuple[float, float]:
     return (scale, 0.0)
 
 
+def non_finite(value) -> bool:
+    """Whether a number, or a text that starts with one, is infinite or not a number.
+
+    Every spelling counts: a float or int from any file format, ``inf``, ``-.inf``, ``Infinity``,
+    ``nan``, ``.NaN`` or ``1e999`` (too large for a float) at the start of a text such as ``"inf kg"``.
+    """
+    if isinstance(value, bool):
+        return False
+    if isinstance(value, (int, float)):
+        try:
+            return not math.isfinite(value)
+        except OverflowError:  # an integer too large for a float
+            return True
+    if isinstance(value, str):
+        if _NON_FINITE.match(value):
+            return True
+        m = _NUMBER.match(value.strip().rstrip("%"))
+        return bool(m) and not math.isfinite(float(m.group(1)))
+    return False
+
+
+def not_finite_message(value, expected: str | None = None) -> str:
+    """'<value> is not a finite number; a finite number is expected[: <expected>]'."""
+    if isinstance(value, str):
+        shown = f"'{value}'" if len(value) <= 60 else f"'{value[:57]}...'"
+    elif isinstance(value, float):
+        shown = str(value)
+    else:
+        shown = "a whole number of more than 308 digits"
+    return f"{shown} is not a finite number; {FINITE_EXPECTED}" + (f": {expected}" if expected else "")
+
+
 def split_number(text: str) -> tuple[float, str]:
-    """Split '12.5 kg' into (12.5, 'kg'); raises UnitError if there is no leading number."""
+    """Split '12.5 kg' into (12.5, 'kg'); raises UnitError if there is no leading finite number."""
+    if non_finite(text):
+        raise UnitError(not_finite_message(text))
     m = _NUMBER.match(text)
     if not m:
         raise UnitError(f"'{text}' does not start with a number")
@@ -346,6 +383,8 @@ def parse_quantity(value, dimension: str) -> Parsed:
     """
     if isinstance(value, bool):
         raise UnitError(f"expected {DIMENSION_WORDS[dimension]}, got {value!r}")
+    if non_finite(value):
+        raise UnitError(not_finite_message(value, DIMENSION_WORDS[dimension]))
     if isinstance(value, (int, float)):
         if dimension == "fraction":
             v = float(value)

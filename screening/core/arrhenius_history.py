@@ -289,10 +289,14 @@ class _Balance:
         return x
 
     def conversion_of_state(self, j, v):
-        """Conversion of tracked source j from its state variable (float or array)."""
+        """Conversion of tracked source j from its state variable (float or array), within [0, 1].
+
+        The integrator may carry X a few rounding errors past 1 as a reaction runs to
+        completion (the rate there is floored, not zero); the conversion reported is clipped.
+        """
         if self.u_mode[j]:
-            return 1.0 - np.maximum(v, 0.0) ** (1.0 / (1.0 - self.order[j]))
-        return v
+            return np.clip(1.0 - np.maximum(v, 0.0) ** (1.0 / (1.0 - self.order[j])), 0.0, 1.0)
+        return np.clip(v, 0.0, 1.0)
 
     def heat_capacity(self, mb):
         """C = (m0 - m_boiled) c + C_wall, J/K."""
