@@ -156,16 +156,3 @@ def _write_results_csv(path: Path, chunks: list) -> None:  # ChunkResult items
             with open(chunk.csv_part, encoding="utf-8", newline="") as src:
                 fh.write(csv_text(row[:head] + [row[where[nm]] if nm in where else "" for nm in limit_names]
                                   + row[head + width:] for row in csv.reader(src)))
-
-
-def _swap_in(tmp: Path, out: Path) -> None:
-    """Replace ``out`` by the finished folder ``tmp`` (old contents moved aside, then removed)."""
-    old = None
-    if out.exists():
-        old = out.with_name(f".{out.name}.old-{os.getpid()}")
-        if old.exists():
-            shutil.rmtree(old)
-        os.replace(out, old)
-    os.replace(tmp, out)
-    if old is not None:
-        shutil.rmtree(old, ignore_errors=True)
