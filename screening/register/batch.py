@@ -121,10 +121,13 @@ def _run_into_body(register: Register, base: dict, tmp: Path, out: Path, rules_p
     parts_dir.mkdir()
 
     def work(a, b):
+        numbers = register.row_numbers[a:b]
+        cell_problems = {n: register.cell_problems[n] for n in numbers if n in register.cell_problems} \
+            if register.cell_problems else {}
         return ChunkWork(register.columns, base, str(register.path.parent), allow_case_file, rules_path,
-                         register.rows[a:b], register.row_numbers[a:b], id_col, register.bad_columns,
+                         register.rows[a:b], numbers, id_col, register.bad_columns,
                          str(memos_dir) if memos_dir else None, str(templates_dir) if templates_dir else None,
-                         base_digest, str(parts_dir / f"part-{a:09d}"))
+                         base_digest, str(parts_dir / f"part-{a:09d}"), cell_problems)
 
     outcomes: list[RowOutcome] = []
     chunks: list[ChunkResult] = []
