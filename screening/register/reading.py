@@ -18,6 +18,7 @@ from pathlib import Path
 
 from screening.case.schema import FieldProblem
 from screening.errors import InputError
+from screening.register.outputs import without_people_prefix
 
 CASE_FILE_COLUMN = "case_file"
 MAX_ROWS = 1_000_000
@@ -102,6 +103,10 @@ def _read_csv(path: Path) -> list[list[str]]:
         dialect = csv.Sniffer().sniff(sample, delimiters=",;\t")
     except csv.Error:
         dialect = csv.excel
+    if dialect.quotechar != '"':
+        # spreadsheet programs quote with '"'; the sniffer takes apostrophes at the start of cells (as in ids
+        # copied from heatscreen's own CSV files, '=A-1) for quotes
+        dialect = type("RegisterDialect", (csv.excel,), {"delimiter": dialect.delimiter})
     reader = csv.reader(io.StringIO(text, newline=""), dialect)
     return [[c.strip() for c in row] for row in reader]
 
@@ -259,6 +264,11 @@ def read_register(path: str | Path) -> Register:
         cells = row + [""] * (width - len(row)) if len(row) < width else row
         rows.append(cells)
         numbers.append(n)
+    id_index = next((c.index for c in columns if c.path == ("id",)), None)
+    if id_index is not None:  # ids as written, without the apostrophe heatscreen's own CSV files put before some
+        for cells in rows:
+            if cells[id_index][:1] == "'":
+                cells[id_index] = without_people_prefix(cells[id_index])
     return Register(p, columns, rows, numbers, problems, bad_columns, cell_problems)
 
 
