@@ -141,8 +141,9 @@ def _read_xlsx(path: Path) -> tuple[list[list[str]], dict]:
     return rows, _unusable_cells(path, sheet_part)
 
 
-# a formula (<f>, with or without a namespace prefix) or a cell holding a spreadsheet error (t="e")
-_FORMULA_OR_ERROR = re.compile(rb"<(?:[A-Za-z_][\w.-]*:)?f[\s/>]|\st\s*=\s*[\"']e[\"']")
+# a formula (<f>, also with a namespace prefix) or a cell holding a spreadsheet error (t="e"); plain
+# substring searches, several times faster than one regular expression (a false hit costs a second parse)
+_FORMULA_OR_ERROR = (b"<f>", b"<f ", b"<f/", b":f>", b":f ", b":f/", b't="e"', b"t='e'")
 _SCAN_BLOCK = 1 << 22
 
 
@@ -154,9 +155,10 @@ def _may_hold_formulas(zf: zipfile.ZipFile, part: str) -> bool:
             block = fh.read(_SCAN_BLOCK)
             if not block:
                 return False
-            if _FORMULA_OR_ERROR.search(tail + block):
+            block = tail + block
+            if any(needle in block for needle in _FORMULA_OR_ERROR):
                 return True
-            tail = block[-64:]
+            tail = block[-8:]
 
 
 def _unusable_cells(path: Path, part: str) -> dict:
