@@ -27,7 +27,7 @@ def test_every_published_correlation_has_an_example():
     # the public functions that implement a published law or correlation must carry a worked example
     required = {
         "screening.core.arrhenius": ["log_arrhenius_rate", "arrhenius_specific_power"],
-        "screening.core.model": ["heat_capacity"],
+        "screening.core.model": ["heat_capacity", "ScreeningModel"],
         "screening.core.terms": ["conductance_and_drive"],
         "screening.core.time_to_limit": ["time_to_limit"],
     }
