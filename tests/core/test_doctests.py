@@ -27,6 +27,8 @@ def test_every_published_correlation_has_an_example():
     # the public functions that implement a published law or correlation must carry a worked example
     required = {
         "screening.core.arrhenius": ["log_arrhenius_rate", "arrhenius_specific_power"],
+        "screening.core.closed_form_history": ["relaxation", "linear_balance", "temperature", "temperature_rate",
+                                               "steady_temperature", "decaying_energy", "balance_of", "heat_rates"],
         "screening.core.model": ["heat_capacity", "ScreeningModel"],
         "screening.core.terms": ["conductance_and_drive", "constant_power", "fire_power", "model_terms"],
         "screening.core.time_to_limit": ["time_to_limit"],
