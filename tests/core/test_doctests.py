@@ -31,6 +31,8 @@ def test_every_published_correlation_has_an_example():
                                                "steady_temperature", "decaying_energy", "balance_of", "heat_rates"],
         "screening.core.model": ["heat_capacity", "ScreeningModel"],
         "screening.core.terms": ["conductance_and_drive", "constant_power", "fire_power", "model_terms"],
+        "screening.core.time_to_limit_batch": ["first_crossing_times", "history_summary", "screen_register",
+                                               "turning_times", "within_engine_range"],
         "screening.core.time_to_limit": ["time_to_limit", "time_scales", "sampling_grid", "history_shape", "first_crossing"],
     }
     missing = [f"{m}.{f}" for m, fs in required.items() for f in fs
