@@ -30,6 +30,7 @@ def test_every_published_correlation_has_an_example():
         "screening.core.closed_form_history": ["relaxation", "linear_balance", "temperature", "temperature_rate",
                                                "steady_temperature", "decaying_energy", "balance_of", "heat_rates"],
         "screening.core.model": ["heat_capacity", "ScreeningModel"],
+        "screening.core.root_finding": ["brent_root"],
         "screening.core.terms": ["conductance_and_drive", "constant_power", "fire_power", "model_terms"],
         "screening.core.time_to_limit_batch": ["first_crossing_times", "history_summary", "screen_register",
                                                "turning_times", "within_engine_range"],
