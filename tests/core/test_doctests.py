@@ -29,6 +29,7 @@ def test_every_published_correlation_has_an_example():
         "screening.core.arrhenius": ["log_arrhenius_rate", "arrhenius_specific_power"],
         "screening.core.closed_form_history": ["relaxation", "linear_balance", "temperature", "temperature_rate",
                                                "steady_temperature", "decaying_energy", "balance_of", "heat_rates"],
+        "screening.core.fire_exposure": ["api521_fire_heat_input", "fire_wetted_area"],
         "screening.core.model": ["heat_capacity", "ScreeningModel"],
         "screening.core.root_finding": ["brent_root"],
         "screening.core.terms": ["conductance_and_drive", "constant_power", "fire_power", "model_terms"],
