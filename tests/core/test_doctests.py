@@ -36,6 +36,9 @@ def test_every_published_correlation_has_an_example():
         "screening.core.time_to_limit_batch": ["first_crossing_times", "history_summary", "screen_register",
                                                "turning_times", "within_engine_range"],
         "screening.core.time_to_limit": ["time_to_limit", "time_scales", "sampling_grid", "history_shape", "first_crossing"],
+        "screening.core.vessel_geometry": ["total_volume", "total_area", "maximum_height", "liquid_height",
+                                           "wetted_area", "wetted_area_below", "liquid_volume_at_height",
+                                           "conduction_shape"],
     }
     missing = [f"{m}.{f}" for m, fs in required.items() for f in fs
                if ">>>" not in (getattr(importlib.import_module(m), f).__doc__ or "")]
