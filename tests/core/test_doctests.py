@@ -33,6 +33,7 @@ def test_every_published_correlation_has_an_example():
         "screening.core.model": ["heat_capacity", "ScreeningModel"],
         "screening.core.root_finding": ["brent_root"],
         "screening.core.runaway.rates": ["heat_generation", "heat_generation_slope", "heat_loss", "kinetics_warnings"],
+        "screening.core.runaway.semenov": ["semenov_critical_ambient", "steady_states"],
         "screening.core.runaway.tmr": ["tmr_adiabatic", "t_d24"],
         "screening.core.terms": ["conductance_and_drive", "constant_power", "fire_power", "model_terms"],
         "screening.core.time_to_limit_batch": ["first_crossing_times", "history_summary", "screen_register",
