@@ -32,6 +32,8 @@ def test_every_published_correlation_has_an_example():
         "screening.core.fire_exposure": ["api521_fire_heat_input", "fire_wetted_area"],
         "screening.core.model": ["heat_capacity", "ScreeningModel"],
         "screening.core.root_finding": ["brent_root"],
+        "screening.core.runaway.frank_kamenetskii": ["frank_kamenetskii_parameter", "frank_kamenetskii_critical",
+                                                     "frank_kamenetskii_critical_ambient"],
         "screening.core.runaway.rates": ["heat_generation", "heat_generation_slope", "heat_loss", "kinetics_warnings"],
         "screening.core.runaway.semenov": ["semenov_critical_ambient", "steady_states"],
         "screening.core.runaway.tmr": ["tmr_adiabatic", "t_d24"],
