@@ -36,6 +36,8 @@ def test_every_published_correlation_has_an_example():
                                                      "frank_kamenetskii_critical_ambient"],
         "screening.core.runaway.rates": ["heat_generation", "heat_generation_slope", "heat_loss", "kinetics_warnings"],
         "screening.core.runaway.semenov": ["semenov_critical_ambient", "steady_states"],
+        "screening.core.runaway.stoessel": ["adiabatic_temperature_rise", "mtsr", "criticality_class",
+                                            "tmr_probability_class", "severity_class"],
         "screening.core.runaway.tmr": ["tmr_adiabatic", "t_d24"],
         "screening.core.terms": ["conductance_and_drive", "constant_power", "fire_power", "model_terms"],
         "screening.core.time_to_limit_batch": ["first_crossing_times", "history_summary", "screen_register",
