@@ -28,6 +28,7 @@ def test_every_published_correlation_has_an_example():
     required = {
         "screening.core.arrhenius": ["log_arrhenius_rate", "arrhenius_specific_power"],
         "screening.core.arrhenius_history": ["integrate_history"],
+        "screening.core.arrhenius_history_batch": ["first_crossing_times_arrhenius", "samples_from_models"],
         "screening.core.closed_form_history": ["relaxation", "linear_balance", "temperature", "temperature_rate",
                                                "steady_temperature", "decaying_energy", "balance_of", "heat_rates"],
         "screening.core.fire_exposure": ["api521_fire_heat_input", "fire_wetted_area"],
