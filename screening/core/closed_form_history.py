@@ -294,6 +294,11 @@ def temperature_rate(balance: LinearBalance, t, temp=None):
     changes of dT/dt late in the history.)  With ``temp`` given: the balance at
     that temperature.
 
+    References
+    ----------
+    Incropera, F. P. et al., *Fundamentals of Heat and Mass Transfer*, 6th ed., Wiley (2007), ch. 5
+    (lumped capacitance).
+
     Examples
     --------
     By hand: the Incropera Example 5.1 junction (tau = 1 s, from memory) starts heating at
@@ -346,6 +351,11 @@ def steady_temperature(balance: LinearBalance):
     With G > 0 it is the stable steady state Q0 / G (decaying sources have died
     away).  With G = 0 (adiabatic) the contents settle only when there is no
     constant drive: at T0 + sum P_i a_i / C.
+
+    References
+    ----------
+    Incropera, F. P. et al., *Fundamentals of Heat and Mass Transfer*, 6th ed., Wiley (2007), ch. 5
+    (lumped capacitance).
 
     Examples
     --------
@@ -426,6 +436,11 @@ def balance_of(model: ScreeningModel, ua: float | None = None, initial_temperatu
 
     and the other terms as in :func:`screening.core.terms.model_terms`.
 
+    References
+    ----------
+    Incropera, F. P. et al., *Fundamentals of Heat and Mass Transfer*, 6th ed., Wiley (2007), ch. 5
+    (lumped capacitance).
+
     Examples
     --------
     By hand: a 1 kW source with a = 1 h, one hour later, starts at 1000 / e = 367.879 W:
@@ -473,6 +488,11 @@ def heat_rates(model: ScreeningModel, t, temp, extra_media: tuple = (), time_shi
     Heat input counts constant, decaying and fire sources and heating media
     (a medium colder than the contents counts as negative input).  Arrhenius sources
     are not included.
+
+    References
+    ----------
+    Incropera, F. P. et al., *Fundamentals of Heat and Mass Transfer*, 6th ed., Wiley (2007), ch. 5
+    (lumped capacitance).
 
     Examples
     --------

@@ -154,6 +154,11 @@ def history_shape(balance: LinearBalance, horizon: float) -> HistoryShape:
     T at 0, at the horizon and at the turning points (the history is monotone between
     them).
 
+    References
+    ----------
+    Brent, R. P., *Algorithms for Minimization without Derivatives*, Prentice-Hall (1973), ch. 4;
+    Incropera, F. P. et al., *Fundamentals of Heat and Mass Transfer*, 6th ed., Wiley (2007), ch. 5.
+
     Examples
     --------
     By hand: with C = 1 J/K, G = 1 W/K, T0 = T_a and one source P = 1 W with a = 2 s,
@@ -209,9 +214,16 @@ def first_crossing(balance: LinearBalance, limit_temperature: float, horizon: fl
 
     Notes
     -----
+    .. math:: t^* = \min\{t \in [0, H] : T(t) \ge T_{lim}\}
+
     The history is monotone between consecutive turning points, so the first piece
     whose larger end reaches the limit holds the first crossing, which is unique in it
     and found by Brent's method to full relative precision.
+
+    References
+    ----------
+    Brent, R. P., *Algorithms for Minimization without Derivatives*, Prentice-Hall (1973), ch. 4;
+    Incropera, F. P. et al., *Fundamentals of Heat and Mass Transfer*, 6th ed., Wiley (2007), ch. 5.
 
     Examples
     --------

@@ -870,6 +870,12 @@ def history_summary(C, G, Q0, T0, P, b, horizon, *, chunk_size=DEFAULT_CHUNK, wo
     .. math:: t^* = \frac{\ln\left(1 + (\lambda - b) A / c\right)}{\lambda - b},
               \qquad A = \dot T(0), \quad c = P b / C.
 
+    References
+    ----------
+    Polya, G. and Szego, G., *Problems and Theorems in Analysis II*, Springer (1976), Part Five, ch. 1
+    (an exponential sum with n terms has at most n - 1 real zeros; from memory); Press, W. H. et al.,
+    *Numerical Recipes*, 3rd ed., Cambridge University Press (2007), section 9.4 (``rtsafe``).
+
     Examples
     --------
     By hand: C = 1 J/K, G = 1 W/K (lambda = 1/s), T0 = Q0 / G, one source P = 1 W with
@@ -898,6 +904,12 @@ def screen_register(C, G, Q0, T0, P, b, limits, horizon, *, chunk_size=DEFAULT_C
         ``times`` as :func:`first_crossing_times` returns them, ``summary`` as
         :func:`history_summary`.
 
+    References
+    ----------
+    Polya, G. and Szego, G., *Problems and Theorems in Analysis II*, Springer (1976), Part Five, ch. 1
+    (an exponential sum with n terms has at most n - 1 real zeros; from memory); Press, W. H. et al.,
+    *Numerical Recipes*, 3rd ed., Cambridge University Press (2007), section 9.4 (``rtsafe``).
+
     Examples
     --------
     By hand: for the history T - T0 = 2 (e^{-t/2} - e^{-t}) of :func:`history_summary`,
@@ -925,6 +937,12 @@ def turning_times(C, G, Q0, T0, P, b, horizon, **kwargs):
     -------
     numpy.ndarray, shape (N, k), [s]
         Ascending, NaN padded.
+
+    References
+    ----------
+    Polya, G. and Szego, G., *Problems and Theorems in Analysis II*, Springer (1976), Part Five, ch. 1
+    (an exponential sum with n terms has at most n - 1 real zeros; from memory); Press, W. H. et al.,
+    *Numerical Recipes*, 3rd ed., Cambridge University Press (2007), section 9.4 (``rtsafe``).
 
     Examples
     --------

@@ -100,6 +100,11 @@ def total_volume(v: VesselShape) -> float:
     Box :math:`L W H`; sphere :math:`\pi D^3/6`; cylinders from ``fluids.geometry.TANK``
     (straight side :math:`\pi D^2 L/4` plus the heads).
 
+    References
+    ----------
+    Bell, C. and contributors, *fluids*, ``fluids.geometry`` (``TANK``, partial spheres), version 1.x;
+    hand formulas for the flat, hemispherical and 2:1 ellipsoidal cases (common practice).
+
     Examples
     --------
     By hand, D = 2 m, straight side 3 m: flat heads pi x 1 x 3 = 9.424778 m^3; 2:1
@@ -136,6 +141,11 @@ def total_area(v: VesselShape) -> float:
     Box :math:`2(LW + LH + WH)`; sphere :math:`\pi D^2`; cylinders from
     ``fluids.geometry.TANK`` (shell :math:`\pi D L` plus the heads).
 
+    References
+    ----------
+    Bell, C. and contributors, *fluids*, ``fluids.geometry`` (``TANK``, partial spheres), version 1.x;
+    hand formulas for the flat, hemispherical and 2:1 ellipsoidal cases (common practice).
+
     Examples
     --------
     By hand, D = 2 m, straight side 3 m: flat heads 6 pi + 2 pi = 25.132741 m^2;
@@ -167,6 +177,11 @@ def maximum_height(v: VesselShape) -> float:
     float, [m]
         Box H; sphere D; a vertical cylinder L plus both head depths; a horizontal
         cylinder D.
+
+    References
+    ----------
+    Bell, C. and contributors, *fluids*, ``fluids.geometry`` (``TANK``, partial spheres), version 1.x;
+    hand formulas for the flat, hemispherical and 2:1 ellipsoidal cases (common practice).
 
     Examples
     --------
@@ -202,6 +217,11 @@ def liquid_height(v: VesselShape, liquid_volume: float) -> float:
     -----
     Inverts the monotone V(h) of ``fluids`` (or of the partial sphere) with Brent's
     method (:func:`screening.core.root_finding.brent_root`) to about 1e-13 m.
+
+    References
+    ----------
+    Bell, C. and contributors, *fluids*, ``fluids.geometry`` (``TANK``, partial spheres), version 1.x;
+    hand formulas for the flat, hemispherical and 2:1 ellipsoidal cases (common practice).
 
     Examples
     --------
@@ -255,6 +275,11 @@ def wetted_area(v: VesselShape, liquid_volume: float) -> float:
     Box :math:`LW + 2(L + W) h`; sphere :math:`\pi D h` (spherical cap, via
     ``fluids.geometry.SA_partial_sphere``); cylinders ``fluids.geometry.TANK.SA_from_h``.
 
+    References
+    ----------
+    Bell, C. and contributors, *fluids*, ``fluids.geometry`` (``TANK``, partial spheres), version 1.x;
+    hand formulas for the flat, hemispherical and 2:1 ellipsoidal cases (common practice).
+
     Examples
     --------
     By hand: a half-full sphere of D = 2 m wets 2 pi = 6.283185 m^2; a half-full horizontal
@@ -301,6 +326,11 @@ def wetted_area_below(v: VesselShape, liquid_volume: float, height_above_bottom:
     float, [m^2]
         The wetted area of the liquid below min(liquid height, ``height_above_bottom``).
 
+    References
+    ----------
+    Bell, C. and contributors, *fluids*, ``fluids.geometry`` (``TANK``, partial spheres), version 1.x;
+    hand formulas for the flat, hemispherical and 2:1 ellipsoidal cases (common practice).
+
     Examples
     --------
     By hand: a 2 x 1 x 1.5 m box holding 2 m^3 (h = 1 m), counted to 0.25 m, gives
@@ -333,6 +363,11 @@ def liquid_volume_at_height(v: VesselShape, h: float) -> float:
     -----
     Box :math:`L W h`; sphere :math:`\pi h^2 (3 D/2 - h)/3` (``fluids.geometry.V_partial_sphere``);
     cylinders ``fluids.geometry.TANK.V_from_h``.
+
+    References
+    ----------
+    Bell, C. and contributors, *fluids*, ``fluids.geometry`` (``TANK``, partial spheres), version 1.x;
+    hand formulas for the flat, hemispherical and 2:1 ellipsoidal cases (common practice).
 
     Examples
     --------
@@ -369,6 +404,11 @@ def conduction_shape(v: VesselShape | None) -> tuple[str, float] | None:
     A cylinder is treated as infinitely long (radius D/2) and a box as a slab of
     half its smallest dimension; both lose less heat than the finite body, so the
     critical conditions found for them are reached earlier: conservative.
+
+    References
+    ----------
+    Frank-Kamenetskii, D. A., *Diffusion and Heat Exchange in Chemical Kinetics*, Princeton University
+    Press (1955) (infinite slab, infinite cylinder and sphere).
 
     Examples
     --------

@@ -361,6 +361,10 @@ def heat_generation_slope(temperature, mass, sources, conversion=None):
     where this slope reaches the loss conductance (:func:`semenov_critical_ambient`);
     the adiabatic time to maximum rate is :math:`m c_p` over it (:func:`tmr_adiabatic`).
 
+    References
+    ----------
+    Semenov, N. N., Zeitschrift fuer Physik 48 (1928) 571-582 (from memory).
+
     Examples
     --------
     By hand: 1000 kg releasing 1 W/kg at 400 K with E = 100 kJ/mol:
@@ -404,6 +408,10 @@ def heat_loss(temperature, ua, ambient, heating_media: Sequence[HeatingMedium] =
     with :math:`G = UA + \sum_k ua_k` and
     :math:`T_{eq} = (UA\,T_a + \sum_k ua_k T_{m,k}) / G`: the straight loss line of
     Semenov's analysis (constant UA, no radiation).
+
+    References
+    ----------
+    Semenov, N. N., Zeitschrift fuer Physik 48 (1928) 571-582 (from memory).
 
     Examples
     --------
