@@ -215,8 +215,8 @@ def temperature(balance: LinearBalance, t):
     ----------
     balance : LinearBalance
         Scalar coefficients, or arrays of shape (n,) for n vessels.
-    t : float or array, s, t >= 0
-        For scalar coefficients any shape; for n vessels shape (n,) (one time
+    t : float or array, [s]
+        t >= 0.  For scalar coefficients any shape; for n vessels shape (n,) (one time
         each) or (n, m) (m times each).
 
     Returns

@@ -123,16 +123,16 @@ class HistorySummary(NamedTuple):
 
     Attributes
     ----------
-    turning_times : numpy.ndarray, shape (N, k), s
+    turning_times : numpy.ndarray, shape (N, k), [s]
         Interior turning points (dT/dt = 0 with a change of sign) in (0, horizon),
         ascending, padded with NaN.
-    peak_temperature : numpy.ndarray, shape (N,), K
+    peak_temperature : numpy.ndarray, shape (N,), [K]
         Maximum of T over [0, horizon].
-    peak_time : numpy.ndarray, shape (N,), s
+    peak_time : numpy.ndarray, shape (N,), [s]
         Time of that maximum (0 when the initial temperature is the maximum).
-    end_temperature : numpy.ndarray, shape (N,), K
+    end_temperature : numpy.ndarray, shape (N,), [K]
         T(horizon).
-    end_rate : numpy.ndarray, shape (N,), K/s
+    end_rate : numpy.ndarray, shape (N,), [K/s]
         dT/dt at the horizon.
     """
 
