@@ -57,7 +57,7 @@ its own adaptive step in one set of array operations:
   w = 1 - X; for n < 1 it is :math:`u = (1 - X)^{1 - n}`, which falls at the
   smooth rate :math:`-(1 - n) k(T)/\Delta h` and reaches 0 at full
   conversion in finite time.  Steps are aimed at u = 0 (no longer than
-  u / |du/ds|), a step that would carry u below zero is shortened to the root
+  u / abs(du/ds)), a step that would carry u below zero is shortened to the root
   of its continuous extension, and the reaction is switched off once u is
   within 1e-3 of its absolute tolerance of zero.
 * **Events.**  After each accepted step the continuous extension gives the

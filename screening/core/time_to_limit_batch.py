@@ -178,7 +178,7 @@ def within_engine_range(C, G, Q0, T0, P, b, horizon):
 
     Notes
     -----
-    Accepted: all finite, 1e-30 <= C <= 1e30, 0 <= G, b, horizon <= 1e30 and |Q0|, |T0|, |P| <= 1e30.
+    Accepted: all finite, 1e-30 <= C <= 1e30, 0 <= G, b, horizon <= 1e30 and abs(Q0), abs(T0), abs(P) <= 1e30.
     Callers with vessels outside it (absurd but valid inputs) use the scalar engine for those.
 
     Examples
@@ -802,7 +802,7 @@ def first_crossing_times(C, G, Q0, T0, P, b, limits, horizon, *, chunk_size=DEFA
     ------
     ValueError
         Inconsistent shapes, or inputs outside the accepted range: all finite, with
-        1e-30 <= C <= 1e30, 0 <= G, b, horizon <= 1e30 and |Q0|, |T0|, |P| <= 1e30
+        1e-30 <= C <= 1e30, 0 <= G, b, horizon <= 1e30 and abs(Q0), abs(T0), abs(P) <= 1e30
         (within it no intermediate result overflows; limits may be any float).
 
     Notes
