@@ -166,11 +166,20 @@ def _fmt_tick(value: float, fmt: str) -> str:
 
 
 def fit_text(text: str, font: str, size: float, max_width: float) -> str:
-    """Shorten ``text`` with an ellipsis so that it fits ``max_width`` points."""
-    if stringWidth(text, font, size) <= max_width:
-        return text
+    """Shorten ``text`` with an ellipsis so that it fits ``max_width`` points.
+
+    Only a prefix about twice as long as what fits is ever measured, so the time does not
+    grow with the length of a very long text."""
+    n = len(text)
+    hi = 64  # a prefix too wide to fit (or the whole text), found by doubling
+    while hi < n and stringWidth(text[:hi], font, size) <= max_width:
+        hi *= 2
+    if hi >= n:
+        if stringWidth(text, font, size) <= max_width:
+            return text
+        hi = n
     ell = "\u2026"
-    lo, hi = 0, len(text)
+    lo = 0
     while lo < hi:
         mid = (lo + hi + 1) // 2
         if stringWidth(text[:mid] + ell, font, size) <= max_width:

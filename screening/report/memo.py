@@ -255,7 +255,8 @@ class _Memo:
         key, _, _ = self.verdict_parts()
         border = self.lay.colors.HexColor(_VERDICT_COLOURS.get(key, "#444444"))
         fill = self.lay.colors.HexColor(_VERDICT_FILLS.get(key, "#EEEEEE"))
-        box = Table([[body]], colWidths=[self.lay.frame_width], hAlign="LEFT")
+        box = Table(self.lay.fit_cells([[body]], [self.lay.frame_width], 18, self.lay.max_box_height),
+                    colWidths=[self.lay.frame_width], hAlign="LEFT")
         box.setStyle(TableStyle([
             ("FONTNAME", (0, 0), (-1, -1), _FONT_NAMES["regular"]),
             ("BOX", (0, 0), (-1, -1), 1.6, border),
@@ -313,9 +314,7 @@ class _Memo:
         notes = _str(self.meta.get("notes"), "meta.notes")
         if notes:
             out.append(lay.P(f"<b>{self.esc(lay.T('scope.notes_label'))}</b>"))
-            for chunk in notes.split("\n\n"):
-                if chunk.strip():
-                    out.append(lay.P(self.esc(chunk.strip("\n"))))
+            out += lay.free_text(notes)
         return out
 
     def sec_inputs(self):

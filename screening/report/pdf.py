@@ -9,6 +9,7 @@ from __future__ import annotations
 import datetime as _dt
 import math
 import os
+import re
 import tempfile
 import unicodedata
 from collections.abc import Mapping, Sequence
@@ -25,6 +26,13 @@ _FONT_NAMES = {
     "bold_italic": "HSVera-BoldItalic",
 }
 _MAX_CELL_CHARS = 1500
+#: Longest text laid out as one paragraph; longer text is cut with a visible mark. Keeps line
+#: breaking (and a paragraph split across pages) cheap, so memo time grows linearly with text.
+_MAX_PARA_CHARS = 5000
+#: Longest free text (notes) in a document, laid out as many short paragraphs; beyond it, a mark.
+_MAX_FREE_TEXT_CHARS = 100_000
+#: A table cell is at most this fraction of the page's frame height: a row never outgrows a page.
+_MAX_CELL_HEIGHT_FRACTION = 0.4
 _UNIT_SYMBOL = {"degC": "\u00b0C", "degF": "\u00b0F", "K": "K", "degR": "\u00b0R"}
 _UNIT_ALIASES = {
     "degc": "degC", "°c": "degC", "celsius": "degC", "degree_celsius": "degC", "c": "degC",
@@ -54,6 +62,13 @@ class _Text:
             _Text._covered = frozenset(set.intersection(*sets))
         self.covered = _Text._covered
         self.substituted = 0
+        self.cut_mark = lambda n: f"[{n} characters]"  # the layout sets the template's wording
+
+    def cut(self, text: str, limit: int) -> str:
+        """``text`` cut after ``limit`` characters, with the visible mark, when it is longer."""
+        if len(text) <= limit:
+            return text
+        return text[:limit] + " " + self.cut_mark(len(text))
 
     def clean(self, value, keep_newlines: bool = False) -> str:
         """Plain text with every glyph the font lacks shown as ``[U+XXXX]``."""
@@ -75,9 +90,44 @@ class _Text:
         return "".join(out)
 
     def para(self, value, keep_newlines: bool = True) -> str:
-        """Escaped text for a reportlab Paragraph: prints literally, never as markup."""
-        text = _xml_escape(self.clean(value, keep_newlines=keep_newlines))
+        """Escaped text for a reportlab Paragraph: prints literally, never as markup.
+
+        Text over ``_MAX_PARA_CHARS`` characters is cut with the visible mark."""
+        text = self.cut(value if isinstance(value, str) else str(value), _MAX_PARA_CHARS)
+        text = _xml_escape(self.clean(text, keep_newlines=keep_newlines))
         return text.replace("\n", "<br/>")
+
+    def pieces(self, value, size: int = 1000) -> list[str]:
+        """Free text as escaped paragraph markups of about ``size`` characters or fewer, in order.
+
+        Lines are kept whole where they fit; a longer line is broken at its last space before
+        ``size`` (or at ``size`` in a word without spaces). A blank line starts a new piece. Each
+        piece is laid out on its own, so the time grows linearly with the text's length (one
+        paragraph split across many pages is broken again on every page). Text over
+        ``_MAX_FREE_TEXT_CHARS`` characters is cut with the visible mark.
+        """
+        text = self.cut(value if isinstance(value, str) else str(value), _MAX_FREE_TEXT_CHARS)
+        out: list[str] = []
+        for block in text.split("\n\n"):
+            lines: list[str] = []
+            used = 0
+            for line in block.strip("\n").split("\n"):
+                while len(line) > size:
+                    cut = line.rfind(" ", size // 2, size)
+                    cut = size if cut < 0 else cut + 1
+                    if lines:
+                        out.append("\n".join(lines))
+                        lines, used = [], 0
+                    out.append(line[:cut])
+                    line = line[cut:]
+                if lines and used + len(line) > size:
+                    out.append("\n".join(lines))
+                    lines, used = [], 0
+                lines.append(line)
+                used += len(line) + 1
+            if lines and any(x.strip() for x in lines):
+                out.append("\n".join(lines))
+        return [self.para(p) for p in out if p.strip()]
 
 
 def _template_blocks(text: str) -> list[tuple[str, str]]:
@@ -357,6 +407,63 @@ def _atomic_write(data_fn, path) -> None:
 
 # --------------------------------------------------------------------------- reportlab layer
 
+
+def _water_level(heights: list[float], room: float) -> float:
+    """The largest cap c with sum(min(h, c)) <= room (inf when everything fits)."""
+    if sum(heights) <= room:
+        return math.inf
+    hs = sorted(heights)
+    below = 0.0
+    for i, h in enumerate(hs):
+        c = (room - below) / (len(hs) - i)
+        if c <= h:
+            return max(c, 0.0)
+        below += h
+    return math.inf  # pragma: no cover - the sum exceeds room, so some h exceeds its share
+
+
+class _CutMark:
+    """The visible mark at the end of cut text (the template's wording, with the length in
+    characters of the whole text), and where an earlier cut left one."""
+
+    def __init__(self, template: str, clean):
+        self.template = template
+        self.clean = clean
+        head, _, tail = template.partition("{n}")
+        self.pattern = re.compile(" " + re.escape(clean(head)) + r"(\d+)" + re.escape(clean(tail)))
+
+    def __call__(self, n: int) -> str:
+        return self.template.format(n=n)
+
+    def parse(self, text: str) -> tuple[str, int]:
+        """Text shown before the first mark already in ``text`` (what follows it is cut again),
+        and the length of the whole text that mark stands for (else of ``text``)."""
+        found = self.pattern.search(text)
+        if found:
+            return text[:found.start()], int(found.group(1))
+        return text, len(text)
+
+
+def _cut_to_height(para, height: float, width: float, mark: _CutMark):
+    """``para`` as plain text (in its style) cut with the visible mark at the longest length whose
+    layout at ``width`` is no taller than ``height``: O(log n) layouts of text already bounded."""
+    from reportlab.platypus import Paragraph
+
+    text, total = mark.parse(para.getPlainText())
+    bullet = getattr(para, "bulletText", None)
+
+    def cut(k: int):
+        return Paragraph(_xml_escape(text[:k].rstrip() + " " + mark(total)), para.style, bulletText=bullet)
+
+    lo, hi = 0, len(text)
+    while lo < hi:
+        mid = (lo + hi + 1) // 2
+        if cut(mid).wrap(width, 1e9)[1] <= height:
+            lo = mid
+        else:
+            hi = mid - 1
+    return cut(lo)
+
 _FONTS_REGISTERED = False
 
 
@@ -400,11 +507,14 @@ class _Layout:
 
         self.tpl = tpl
         self.tx = _Text()
+        self.tx.cut_mark = _CutMark(self.tpl["labels"]["truncated"], self.tx.clean)
         self.colors = colors
         self.mm = mm
         self.pagesize = A4 if tpl["layout"]["page_size"].lower() == "a4" else letter
         self.margin = 18 * mm
         self.frame_width = self.pagesize[0] - 2 * self.margin
+        self.max_cell_height = (self.pagesize[1] - 2 * self.margin) * _MAX_CELL_HEIGHT_FRACTION
+        self.max_box_height = (self.pagesize[1] - 2 * self.margin) * 0.8  # a one-cell box (caution, verdict)
         self.figures = 0
         f = _FONT_NAMES
         base = dict(fontName=f["regular"], fontSize=9, leading=11.5, alignment=TA_LEFT, splitLongWords=1,
@@ -455,9 +565,57 @@ class _Layout:
     def user(self, value, style: str = "cell", limit: int | None = _MAX_CELL_CHARS):
         """Paragraph of user-supplied text, printed literally."""
         text = "" if value is None else str(value)
-        if limit is not None and len(text) > limit:
-            text = text[:limit] + " " + self.L("truncated", n=len(text))
+        if limit is not None:
+            text = self.tx.cut(text, limit)
         return self.P(self.tx.para(text), style)
+
+    def free_text(self, value, style: str = "body") -> list:
+        """Free text (notes) as paragraphs: one per blank-line-separated block, long blocks in
+        pieces, so that laying it out takes time in proportion to its length."""
+        return [self.P(markup, style) for markup in self.tx.pieces(value)]
+
+    def fit_cells(self, rows: list, widths, padding: float, budget: float | None = None) -> list:
+        """A table's cells with every paragraph kept within ``budget`` points of height (default
+        ``max_cell_height``), since a table row cannot be split across pages and one taller than
+        a page makes the whole document fail. The paragraphs of one cell share the budget: when
+        their heights at the column's width (less ``padding``) add up to more, the tallest are
+        cut, as plain text with the visible mark, to a common height. Cells that fit are
+        returned as they are."""
+        from reportlab.platypus import Paragraph
+
+        budget = self.max_cell_height if budget is None else budget
+        floor = 3 * self.st["cell"].leading
+
+        def fit(cell, width):
+            items = list(cell) if isinstance(cell, (list, tuple)) else [cell]
+            if not any(isinstance(c, Paragraph) for c in items):
+                return cell
+            # each line holds a character at least: short cells fit without being laid out twice
+            if sum(len(getattr(c, "text", "")) * c.style.leading + c.getSpaceBefore() + c.getSpaceAfter()
+                   for c in items if isinstance(c, Paragraph)) <= budget - 10 * len(items):
+                return cell
+            fixed, heights = 0.0, []
+            for c in items:
+                if hasattr(c, "wrap"):
+                    h = c.wrap(width, 1e9)[1] + c.getSpaceBefore() + c.getSpaceAfter()
+                    if isinstance(c, Paragraph):
+                        heights.append(h)
+                    else:
+                        fixed += h
+            cap = _water_level(heights, budget - fixed)
+            if math.isinf(cap):
+                return cell
+            cap = max(cap, floor)
+            out = []
+            for c in items:
+                if isinstance(c, Paragraph):
+                    room = cap - c.getSpaceBefore() - c.getSpaceAfter()
+                    if c.wrap(width, 1e9)[1] > room:
+                        c = _cut_to_height(c, room, width, self.tx.cut_mark)
+                out.append(c)
+            return out if isinstance(cell, (list, tuple)) else out[0]
+
+        return [[fit(c, max(w - padding, 1.0)) for c, w in zip(row, widths)] for row in rows]
 
     def path(self, value, width: float, style: str = "cell"):
         """A dotted input path, broken after dots when it is wider than the cell."""
@@ -510,7 +668,8 @@ class _Layout:
     def table(self, rows, widths, header: bool = True, zebra: bool = True, extra_style=()):
         from reportlab.platypus import LongTable, TableStyle
 
-        t = LongTable(rows, colWidths=widths, repeatRows=1 if header else 0, splitByRow=1, hAlign="LEFT")
+        t = LongTable(self.fit_cells(rows, widths, 8), colWidths=widths, repeatRows=1 if header else 0, splitByRow=1,
+                      hAlign="LEFT")
         cmds = [
             ("FONTNAME", (0, 0), (-1, -1), _FONT_NAMES["regular"]),
             ("VALIGN", (0, 0), (-1, -1), "TOP"),
@@ -541,7 +700,8 @@ class _Layout:
 
         inner = [self.P(self.tx.para(self.T("caution.heading"), keep_newlines=False), "caution_h")]
         inner += self.prose(self.T("caution.text"), "caution")
-        box = Table([[inner]], colWidths=[self.frame_width], hAlign="LEFT")
+        box = Table(self.fit_cells([[inner]], [self.frame_width], 18, self.max_box_height),
+                    colWidths=[self.frame_width], hAlign="LEFT")
         box.setStyle(TableStyle([
             ("FONTNAME", (0, 0), (-1, -1), _FONT_NAMES["regular"]),
             ("BOX", (0, 0), (-1, -1), 2.2, self.colors.HexColor(_CAUTION_BORDER)),
