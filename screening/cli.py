@@ -51,6 +51,9 @@ def write_atomic_text(path: Path, text: str) -> None:
     path = Path(path)
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", dir=str(path.parent or "."))
     try:
+        from screening.fileio import with_umask
+
+        with_umask(tmp)  # mkstemp makes 0600; give what the umask gives new files
         with os.fdopen(fd, "w", encoding="utf-8", newline="") as fh:
             fh.write(text)
         os.replace(tmp, path)
@@ -109,9 +112,14 @@ def _guard(fn):
             typer.echo(f"templates: {template_error}", err=True)
             raise typer.Exit(EXIT_INVALID)
         from screening.errors import InputError
+        from screening.fileio import environment_problem
 
         if isinstance(exc, InputError):  # e.g. an output path that would replace a user's files
             typer.echo(str(exc), err=True)
+            raise typer.Exit(EXIT_INVALID)
+        problem = environment_problem(exc, "heatscreen")  # the user's file system refused (disk full, ...)
+        if problem is not None:
+            typer.echo(str(problem), err=True)
             raise typer.Exit(EXIT_INVALID)
         _fail_internal(exc)
 
@@ -423,8 +431,14 @@ def demo(out: Path = typer.Option(Path("heatscreen-demo"), "--out", help="Folder
                                 templates_dir=Path(str(folder.joinpath("templates"))))
             write_marker(build, "demo")
             swap_in(build, target)
-        except BaseException:
+        except BaseException as exc:
             discard(build)
+            from screening.fileio import environment_problem, short_path
+
+            problem = environment_problem(exc, f"--out {short_path(out)}: cannot write the demo's files in "
+                                               f"{short_path(target.parent)}")
+            if problem is not None and problem is not exc:
+                raise problem from None
             raise
         reg_out = out / "register"
         if wrote_memos:
@@ -447,6 +461,9 @@ def demo(out: Path = typer.Option(Path("heatscreen-demo"), "--out", help="Folder
 
 
 def run():  # console-script entry point
+    from screening.workers import exit_on_signals
+
+    exit_on_signals()  # SIGTERM / SIGHUP run the same cleanup as Ctrl-C (temporary folders removed)
     try:
         app()
     except KeyboardInterrupt:

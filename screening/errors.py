@@ -13,3 +13,12 @@ class InputError(Exception):
     """A problem with what the user gave the tool (exit code 2), never a fault of the tool itself."""
 
     exit_code = 2
+
+
+class EnvironmentProblem(InputError):
+    """The user's files or folders cannot be used as asked (no such file, no permission, a disk
+    full, a name too long, a symlink loop): exit code 2, with the path and the reason."""
+
+    def __init__(self, message: str, reason: str | None = None):
+        super().__init__(message)
+        self.reason = reason or message

@@ -10,6 +10,8 @@ from typing import Any
 
 from screening.case.schema import CaseError, CaseSpec, FieldProblem, validate_case_data
 from screening.case.units import FINITE_EXPECTED
+from screening.errors import EnvironmentProblem
+from screening.fileio import read_limited
 
 MAX_CASE_BYTES = 2_000_000
 MAX_YAML_NODES = 100_000  # guards against alias ("billion laughs") expansion
@@ -40,6 +42,10 @@ def _yaml_loader():
             keys = set()
             for key_node, _ in node.value:
                 key = self.construct_object(key_node, deep=deep)
+                if isinstance(key, (list, dict, set)):
+                    raise yaml.constructor.ConstructorError(
+                        None, None, f"a key is a {'list' if isinstance(key, list) else 'mapping'}; keys are names",
+                        key_node.start_mark)
                 if isinstance(key, (str, int, float)) and key in keys:
                     line = key_node.start_mark.line + 1
                     raise yaml.constructor.ConstructorError(
@@ -279,11 +285,7 @@ def load_case_bytes(raw: bytes, kind: str = "yaml", path: str | None = None) -> 
 def load_case_file(path: str | Path) -> LoadedCase:
     p = Path(path)
     try:
-        raw = p.read_bytes()
-    except FileNotFoundError:
-        raise CaseError([FieldProblem("(file)", f"no such file: {p}")]) from None
-    except IsADirectoryError:
-        raise CaseError([FieldProblem("(file)", f"{p} is a folder, not a case file")]) from None
-    except OSError as exc:
-        raise CaseError([FieldProblem("(file)", f"cannot read {p}: {exc.strerror}")]) from None
+        raw = read_limited(p, MAX_CASE_BYTES)
+    except EnvironmentProblem as exc:
+        raise CaseError([FieldProblem("(file)", str(exc))]) from None
     return load_case_bytes(raw, kind_of(p), str(p))

@@ -105,6 +105,27 @@ def _shape(spec: CaseSpec) -> VesselShape | None:
                        val(v.crown_radius), val(v.knuckle_radius))
 
 
+_DIMENSIONS = ("diameter", "length", "width", "height", "crown_radius", "knuckle_radius")
+
+
+def _geometry(spec: CaseSpec, compute, volume_first: bool = False) -> tuple[float, ...]:
+    """Volumes, areas and heights of the vessel; dimensions so small or large that they cannot be
+    computed (or give a zero or infinite volume or area) are the case's problem, named by field."""
+    try:
+        values = tuple(float(x) for x in compute())
+        bad = not all(math.isfinite(x) and x >= 0.0 for x in values) or (volume_first and values[0] <= 0.0)
+    except (ArithmeticError, ValueError):
+        bad = True
+    if bad:
+        v = spec.vessel
+        given = [f"vessel.{k} = {getattr(v, k).text}" for k in _DIMENSIONS
+                 if getattr(v, k, None) is not None and getattr(getattr(v, k), "text", None) is not None]
+        raise CaseError([FieldProblem("vessel", "the vessel's volume, area or height cannot be computed from its "
+                                                f"dimensions ({'; '.join(given) or 'as given'}): they are too small "
+                                                f"or too large for floating-point arithmetic; check their units")])
+    return values
+
+
 def prepare_case(spec: CaseSpec, inputs: list[dict] | None = None) -> PreparedCase:
     """Turn a validated case into SI; raises CaseError for problems only visible here.
 
@@ -118,9 +139,9 @@ def prepare_case(spec: CaseSpec, inputs: list[dict] | None = None) -> PreparedCa
     c = spec.contents
     vessel_volume = None
     if shape is not None:
-        vessel_volume = total_volume(shape)
-        geometry.update(vessel_volume_m3=vessel_volume, total_area_m2=total_area(shape),
-                        height_m=maximum_height(shape))
+        vessel_volume, area, height = _geometry(spec, lambda: (total_volume(shape), total_area(shape),
+                                                               maximum_height(shape)), volume_first=True)
+        geometry.update(vessel_volume_m3=vessel_volume, total_area_m2=area, height_m=height)
     fill_fraction = None
     if c.mass is not None:
         mass = c.mass.si
@@ -138,9 +159,10 @@ def prepare_case(spec: CaseSpec, inputs: list[dict] | None = None) -> PreparedCa
             warnings.append(f"The contents ({liquid_volume:.4g} m^3) fill {fill_fraction * 100:.1f} % of the vessel "
                             f"volume ({vessel_volume:.4g} m^3): more than it holds. Check mass, density, fill and "
                             f"dimensions; areas are taken at full.")
-        geometry.update(liquid_volume_m3=liquid_volume, fill_fraction=fill_fraction,
-                        liquid_height_m=liquid_height(shape, liquid_volume),
-                        wetted_area_m2=wetted_area(shape, liquid_volume))
+        height, area = _geometry(spec, lambda: (liquid_height(shape, liquid_volume),
+                                                wetted_area(shape, liquid_volume)))
+        geometry.update(liquid_volume_m3=liquid_volume, fill_fraction=fill_fraction, liquid_height_m=height,
+                        wetted_area_m2=area)
     # heat loss
     hl = spec.heat_loss
     surface_coefficient = None

@@ -125,6 +125,7 @@ import numpy as np
 from screening.core.arrhenius import log_arrhenius_rate
 from screening.core.model import GAS_CONSTANT, ScreeningModel
 from screening.core.terms import constant_power
+from screening.workers import die_with_parent, stop_pool
 
 __all__ = [
     "ArrheniusSamples",
@@ -1231,9 +1232,16 @@ def _process_context():
 def _integrate_parallel(inp, parts, cols, rtol, chunk_size, workers):
     """Results of ``_integrate_rows`` for each part, from worker processes (None if they cannot run)."""
     try:
-        with ProcessPoolExecutor(max_workers=workers, mp_context=_process_context()) as pool:
+        pool = ProcessPoolExecutor(max_workers=workers, mp_context=_process_context(), initializer=die_with_parent,
+                                   initargs=(os.getpid(),))
+        try:
             futures = [pool.submit(_integrate_rows, _subset(inp, rows), cols, rtol, chunk_size) for rows in parts]
             return [f.result() for f in futures]
+        except BaseException:
+            stop_pool(pool)  # an error or a signal: the workers stop now
+            raise
+        finally:
+            pool.shutdown(wait=True)
     except (BrokenProcessPool, OSError):  # pragma: no cover - e.g. no main-module guard under spawn
         return None
 

@@ -25,6 +25,8 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from screening import verdict as rules_mod
+from screening.fileio import environment_problem, short_path
+from screening.workers import die_with_parent, stop_pool
 from screening.register.chunks import ChunkResult, ChunkWork, RowOutcome, screen_chunk
 from screening.register.output_set import check_output_folder, discard, new_build_folder, swap_in, write_marker
 from screening.register.outputs import (
@@ -72,8 +74,12 @@ def run_batch(register_path, out_dir, base_path=None, rules_path=None, memos=Fal
                             templates_dir, workers)
         write_marker(tmp, "batch")
         swap_in(tmp, target)
-    except BaseException:
+    except BaseException as exc:
         discard(tmp)
+        problem = environment_problem(exc, f"--out {short_path(out)}: cannot write the output set in "
+                                           f"{short_path(target.parent)}")
+        if problem is not None and problem is not exc:  # e.g. the disk full: the user's environment, exit 2
+            raise problem from None
         raise
     return summary.as_dict()
 
@@ -155,10 +161,16 @@ def _run_into_body(register: Register, base: dict, tmp: Path, out: Path, rules_p
             for a, b in spans:
                 take(screen_chunk(work(a, b)), b)
         else:
-            with ProcessPoolExecutor(max_workers=workers) as pool:
+            pool = ProcessPoolExecutor(max_workers=workers, initializer=die_with_parent, initargs=(os.getpid(),))
+            try:
                 futures = [pool.submit(screen_chunk, work(a, b)) for a, b in spans]
                 for (a, b), fut in zip(spans, futures):
                     take(fut.result(), b)
+            except BaseException:
+                stop_pool(pool)  # an error or a signal: the workers stop now, not after their chunks
+                raise
+            finally:
+                pool.shutdown(wait=True)
         json_out.write(b"]\n")
     finally:
         json_out.close()

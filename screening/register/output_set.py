@@ -14,14 +14,18 @@ file of a marked output set.
 """
 from __future__ import annotations
 
+import errno
 import json
 import os
+import re
 import secrets
 import shutil
+import sys
 import tempfile
 from pathlib import Path
 
 from screening.errors import InputError
+from screening.fileio import environment_problem, short_path, with_umask
 
 MARKER = ".heatscreen-output-set.json"
 SHOWN = 5  # foreign files named in a refusal
@@ -122,10 +126,86 @@ def check_output_folder(out: str | os.PathLike, option: str = "--out") -> Path:
     return target
 
 
-def new_build_folder(target: Path) -> Path:
-    """A fresh temporary folder beside ``target`` for building the new set (parents are made)."""
-    target.parent.mkdir(parents=True, exist_ok=True)
-    return Path(tempfile.mkdtemp(prefix=f".{target.name}.tmp-", dir=str(target.parent)))
+def new_build_folder(target: Path, option: str = "--out") -> Path:
+    """A fresh temporary folder beside ``target`` for building the new set (parents are made).
+
+    Its name carries this process's id, so that what a run killed outright (kill -9, a power cut)
+    left behind is recognised and cleared by the next run for the same target (see
+    :func:`recover_leftovers`). It gets the permissions the umask gives new folders.
+    """
+    try:
+        target.parent.mkdir(parents=True, exist_ok=True)
+        recover_leftovers(target)
+        build = Path(tempfile.mkdtemp(prefix=f".{target.name}.tmp-{os.getpid()}-", dir=str(target.parent)))
+        with_umask(build, folder=True)
+    except OSError as exc:
+        problem = environment_problem(exc, f"{option} {short_path(target)}: cannot make a folder in "
+                                           f"{short_path(target.parent)}")
+        if problem is None:
+            raise
+        raise problem from None
+    return build
+
+
+_LEFTOVER = re.compile(r"^\.(?P<name>.+)\.(?P<kind>tmp|old)-(?P<pid>\d+)-[A-Za-z0-9_]+$")
+_BUILD_SUFFIXES = (".json", ".csv", ".pdf", ".tmp")
+
+
+def _alive(pid: int) -> bool:
+    if pid == os.getpid():
+        return True
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except OSError:  # e.g. no permission: it exists
+        return True
+    return True
+
+
+def recover_leftovers(target: Path) -> None:
+    """Clear what runs for ``target`` that were killed outright left beside it.
+
+    A previous set moved aside (``.NAME.old-PID-*``) by a run that died before the new set was in
+    place is put back when nothing is at ``target`` (else its listed files are removed); a build
+    folder (``.NAME.tmp-PID-*``) of a dead run loses the files heatscreen writes there (.json, .csv,
+    .pdf and temporary files) and its folders left empty. Anything else in them stays. Folders of
+    runs still alive are not touched.
+    """
+    try:
+        entries = list(os.scandir(target.parent))
+    except OSError:
+        return
+    leftovers = []
+    for entry in entries:
+        m = _LEFTOVER.match(entry.name)
+        if m and m.group("name") == target.name and entry.is_dir(follow_symlinks=False) \
+                and not _alive(int(m.group("pid"))):
+            leftovers.append((m.group("kind"), Path(entry.path)))
+    for kind, path in sorted(leftovers, key=lambda kp: kp[0] != "old"):  # a set to put back first
+        try:
+            if kind == "old" and not os.path.lexists(target) and read_marker(path) is not None:
+                os.replace(path, target)
+            elif kind == "old":
+                remove_output_set(path)
+            else:
+                _remove_build(path)
+        except OSError:
+            pass
+
+
+def _remove_build(folder: Path) -> None:
+    for top, _dirs, names in os.walk(folder, topdown=False):
+        for name in names:
+            if name.endswith(_BUILD_SUFFIXES) or name == MARKER:
+                try:
+                    os.unlink(os.path.join(top, name))
+                except OSError:
+                    pass
+        try:
+            os.rmdir(top)
+        except OSError:
+            pass
 
 
 def write_marker(folder: Path, command: str) -> None:
@@ -141,21 +221,60 @@ def swap_in(build: Path, target: Path, option: str = "--out") -> None:
     """Put the finished set ``build`` at ``target``; a previous set there is moved aside, then removed.
 
     The target is checked again first (a file may have been added during the run); the old set's
-    files are deleted one by one from its marker's list, never with the whole folder.
+    files are deleted one by one from its marker's list, never with the whole folder. Where the
+    system can exchange two names in one step (Linux renameat2), the old set and the new one trade
+    places atomically, so the old or the new set is at ``target`` at every moment, whatever
+    happens to the process; elsewhere a run killed between the two renames leaves the old set
+    aside, and the next run for the target puts it back (:func:`recover_leftovers`).
     """
     check_output_folder(target, option)
-    old = None
-    if target.exists():
-        old = target.with_name(f".{target.name}.old-{os.getpid()}-{secrets.token_hex(4)}")
-        os.replace(target, old)
     try:
-        os.replace(build, target)
-    except BaseException:
-        if old is not None:
-            os.replace(old, target)  # put the previous set back
-        raise
+        if target.exists() and _exchange(build, target):
+            remove_output_set(build)  # now the previous set
+            return
+        old = None
+        if target.exists():
+            old = target.with_name(f".{target.name}.old-{os.getpid()}-{secrets.token_hex(4)}")
+            os.replace(target, old)
+        try:
+            os.replace(build, target)
+        except BaseException:
+            if old is not None:
+                os.replace(old, target)  # put the previous set back
+            raise
+    except OSError as exc:
+        problem = environment_problem(exc, f"{option} {short_path(target)}: cannot put the output set in place")
+        if problem is None:
+            raise
+        raise problem from None
     if old is not None:
         remove_output_set(old)
+
+
+_RENAME_EXCHANGE = 2
+_AT_FDCWD = -100
+
+
+def _exchange(a: Path, b: Path) -> bool:
+    """Swap the names ``a`` and ``b`` in one step (Linux renameat2 with RENAME_EXCHANGE); False where
+    the system or its file system cannot."""
+    if not sys.platform.startswith("linux"):
+        return False
+    try:
+        import ctypes
+
+        libc = ctypes.CDLL(None, use_errno=True)
+        fn = libc.renameat2
+    except (OSError, AttributeError):
+        return False
+    fn.argtypes = [ctypes.c_int, ctypes.c_char_p, ctypes.c_int, ctypes.c_char_p, ctypes.c_uint]
+    fn.restype = ctypes.c_int
+    if fn(_AT_FDCWD, os.fsencode(a), _AT_FDCWD, os.fsencode(b), _RENAME_EXCHANGE) == 0:
+        return True
+    err = ctypes.get_errno()
+    if err in (errno.EINVAL, errno.ENOSYS, errno.ENOTSUP, errno.EOPNOTSUPP):
+        return False
+    raise OSError(err, os.strerror(err), str(b))
 
 
 def remove_output_set(folder: Path) -> None:

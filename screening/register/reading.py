@@ -9,7 +9,7 @@ per row, resolved relative to the register's folder and never outside it.
 from __future__ import annotations
 
 import csv
-import io
+import itertools
 import math
 import re
 import zipfile
@@ -18,11 +18,14 @@ from pathlib import Path
 
 from screening.case.schema import FieldProblem
 from screening.errors import InputError
+from screening.fileio import os_problem, short_path
 from screening.register.outputs import without_people_prefix
 
 CASE_FILE_COLUMN = "case_file"
 MAX_ROWS = 1_000_000
 MAX_XLSX_UNCOMPRESSED = 512 * 1024 * 1024  # bytes, guards against decompression bombs
+MAX_CSV_BYTES = 512 * 1024 * 1024  # bytes: refused before reading (a million rows of 500 bytes)
+MAX_CELL_CHARS = 131_072  # the csv module's limit on one cell; the header row is read up to it
 
 _HEADER = re.compile(r"^\s*([A-Za-z_][A-Za-z0-9_\-]*(?:\.[A-Za-z0-9_\-]+)*)\s*(?:\[\s*([^\]]*?)\s*\])?\s*$")
 
@@ -92,33 +95,102 @@ def _cell_text(value) -> str:
     return str(value).strip()
 
 
+def _header_delimiter(line: str) -> str:
+    """The delimiter of a register, from its header row: of comma, semicolon and tab, the one that
+    splits the header into the most cells (headers are field paths, which hold none of them; cells
+    of the rows below may hold any, quoted). A header of one column is comma-separated."""
+    best, cells = ",", 1
+    for candidate in (",", ";", "\t"):
+        try:
+            n = len(next(csv.reader([line], delimiter=candidate), []))
+        except csv.Error:
+            continue
+        if n > cells:
+            best, cells = candidate, n
+    return best
+
+
 def _read_csv(path: Path) -> list[list[str]]:
-    raw = path.read_bytes()
+    """The cells of a CSV register, read as a stream: the size and row limits apply while reading, and
+    a cell the reader cannot take (longer than its limit) is an error naming the line."""
     try:
-        text = raw.decode("utf-8-sig")
-    except UnicodeDecodeError:
-        text = raw.decode("latin-1")
-    sample = text[:4096]
+        size = path.stat().st_size
+    except OSError as exc:
+        raise RegisterError(f"cannot read {short_path(path)}: {os_problem(exc)}") from None
+    if size > MAX_CSV_BYTES:
+        raise RegisterError(f"{short_path(path.name)} is {size} bytes, more than the limit of {MAX_CSV_BYTES} bytes")
+    for encoding in ("utf-8-sig", "latin-1"):
+        try:
+            return _read_csv_as(path, encoding)
+        except UnicodeDecodeError:
+            continue
+    raise AssertionError("latin-1 decodes any bytes")  # pragma: no cover
+
+
+def _read_csv_as(path: Path, encoding: str) -> list[list[str]]:
     try:
-        dialect = csv.Sniffer().sniff(sample, delimiters=",;\t")
-    except csv.Error:
-        dialect = csv.excel
-    if dialect.quotechar != '"':
-        # spreadsheet programs quote with '"'; the sniffer takes apostrophes at the start of cells (as in ids
-        # copied from heatscreen's own CSV files, '=A-1) for quotes
-        dialect = type("RegisterDialect", (csv.excel,), {"delimiter": dialect.delimiter})
-    reader = csv.reader(io.StringIO(text, newline=""), dialect)
-    return [[c.strip() for c in row] for row in reader]
+        fh = open(path, encoding=encoding, newline="")
+    except OSError as exc:
+        raise RegisterError(f"cannot read {short_path(path)}: {os_problem(exc)}") from None
+    with fh:
+        first = fh.readline(MAX_CELL_CHARS)
+        dialect = type("RegisterDialect", (csv.excel,), {"delimiter": _header_delimiter(first)})
+        # quotes are always '"' (as spreadsheet programs write them): an apostrophe at the start of a cell,
+        # as in ids copied from heatscreen's own CSV files ('=A-1), is text
+        reader = csv.reader(itertools.chain([first], fh), dialect)
+        rows: list[list[str]] = []
+        try:
+            for row in reader:
+                rows.append([c.strip() for c in row])
+                if len(rows) > MAX_ROWS + 1:
+                    raise RegisterError(f"{short_path(path.name)} has more than {MAX_ROWS} rows")
+        except csv.Error as exc:
+            line = reader.line_num
+            if "field larger than field limit" in str(exc):
+                raise RegisterError(f"{short_path(path.name)}, line {line}: a cell holds more than "
+                                    f"{csv.field_size_limit()} characters; a register cell is a value, "
+                                    f"a name or a short text") from None
+            raise RegisterError(f"{short_path(path.name)}, line {line}: not readable as CSV: {exc}") from None
+        except OSError as exc:
+            raise RegisterError(f"cannot read {short_path(path)}: {os_problem(exc)}") from None
+    return rows
 
 
 def _check_xlsx_size(path: Path) -> None:
+    """Refuse a workbook that unpacks to too much, or whose XML parts declare a document type: OOXML
+    does not use DTDs, and one could define entities that expand without bound or name other files."""
+    name = short_path(path.name)
     try:
         with zipfile.ZipFile(path) as z:
-            total = sum(i.file_size for i in z.infolist())
-    except zipfile.BadZipFile:
-        raise RegisterError(f"{path.name} is not a valid .xlsx file") from None
-    if total > MAX_XLSX_UNCOMPRESSED:
-        raise RegisterError(f"{path.name} unpacks to {total} bytes, more than the limit of {MAX_XLSX_UNCOMPRESSED}")
+            infos = z.infolist()
+            total = sum(i.file_size for i in infos)
+            if total > MAX_XLSX_UNCOMPRESSED:
+                raise RegisterError(f"{name} unpacks to {total} bytes, more than the limit of "
+                                    f"{MAX_XLSX_UNCOMPRESSED}")
+            for info in infos:
+                if info.filename.lower().endswith((".xml", ".rels", ".vml")):
+                    with z.open(info) as fh:
+                        head = fh.read(_PROLOGUE_BYTES)
+                    if _declares_doctype(head):
+                        raise RegisterError(f"{name}: the part {short_path(info.filename)} declares a document type "
+                                            f"(<!DOCTYPE>), which workbooks do not use; it is refused, since it "
+                                            f"could expand entities without bound or read other files. Save the "
+                                            f"workbook again from a spreadsheet program.")
+    except (zipfile.BadZipFile, zipfile.LargeZipFile, EOFError, NotImplementedError, ValueError) as exc:
+        raise RegisterError(f"{name} is not a valid .xlsx file ({exc})") from None
+    except OSError as exc:
+        raise RegisterError(f"cannot read {name}: {os_problem(exc)}") from None
+
+
+_PROLOGUE_BYTES = 1 << 16  # a document type declaration comes before the root element
+
+
+def _declares_doctype(head: bytes) -> bool:
+    if head.startswith((b"\xff\xfe", b"\xfe\xff")):
+        head = head.decode("utf-16", errors="ignore").encode("utf-8")
+    elif head[:4] in (b"\x00<\x00?", b"<\x00?\x00"):
+        head = head.decode("utf-16-be" if head[0] == 0 else "utf-16-le", errors="ignore").encode("utf-8")
+    return b"<!DOCTYPE" in head or b"<!ENTITY" in head
 
 
 def _read_xlsx(path: Path) -> tuple[list[list[str]], dict]:
@@ -127,18 +199,26 @@ def _read_xlsx(path: Path) -> tuple[list[list[str]], dict]:
     _check_xlsx_size(path)
     import openpyxl
 
-    wb = openpyxl.load_workbook(path, read_only=True, data_only=True)
     try:
-        ws = wb.worksheets[0]
-        rows = []
-        for i, row in enumerate(ws.iter_rows(values_only=True)):
-            if i > MAX_ROWS + 1:
-                raise RegisterError(f"{path.name} has more than {MAX_ROWS} rows")
-            rows.append([_cell_text(v) for v in row])
-        sheet_part = ws._worksheet_path  # the worksheet's part in the zip, as openpyxl found it
-    finally:
-        wb.close()
-    return rows, _unusable_cells(path, sheet_part)
+        wb = openpyxl.load_workbook(path, read_only=True, data_only=True)
+        try:
+            ws = wb.worksheets[0]
+            rows = []
+            for i, row in enumerate(ws.iter_rows(values_only=True)):
+                if i > MAX_ROWS + 1:
+                    raise RegisterError(f"{short_path(path.name)} has more than {MAX_ROWS} rows")
+                rows.append([_cell_text(v) for v in row])
+            sheet_part = ws._worksheet_path  # the worksheet's part in the zip, as openpyxl found it
+        finally:
+            wb.close()
+        return rows, _unusable_cells(path, sheet_part)
+    except RegisterError:
+        raise
+    except MemoryError:
+        raise
+    except Exception as exc:  # noqa: BLE001 - whatever a malformed workbook makes the XML or zip reader raise
+        raise RegisterError(f"{short_path(path.name)} cannot be read as a workbook: "
+                            f"{_short(str(exc) or type(exc).__name__, 200)}") from None
 
 
 # a formula (<f>, also with a namespace prefix) or a cell holding a spreadsheet error (t="e"); plain

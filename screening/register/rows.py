@@ -6,9 +6,11 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from screening.case import schema as cs
-from screening.case.files import kind_of, parse_text
+from screening.case.files import MAX_CASE_BYTES, kind_of, parse_text
 from screening.case.paths import set_path
 from screening.case.schema import CaseError, FieldProblem, QuantityField
+from screening.errors import EnvironmentProblem
+from screening.fileio import os_problem, read_limited, short_path
 from screening.register.reading import CASE_FILE_COLUMN, Column
 
 FREE_TEXT_FIELDS = {"id", "title", "label", "name", "prepared_by", "prepared_for", "revision", "notes", "date"}
@@ -43,9 +45,9 @@ def load_base(path: str | Path | None) -> dict:
 
     p = Path(path)
     try:
-        raw = p.read_bytes()
-    except OSError as exc:
-        raise CaseError([FieldProblem("(base)", f"cannot read the base case {p}: {exc.strerror or exc}")]) from None
+        raw = read_limited(p, MAX_CASE_BYTES)
+    except EnvironmentProblem as exc:
+        raise CaseError([FieldProblem("(base)", f"the base case: {exc}")]) from None
     data = parse_text(raw, kind_of(p))
     if data is None:
         return {}
@@ -117,18 +119,27 @@ def _load_row_case_file(ctx: RowContext, name: str) -> tuple[dict | None, str | 
     if name in ctx.case_file_cache:
         return ctx.case_file_cache[name]
 
-    root = Path(ctx.register_dir).resolve()
-    target = (root / name).resolve()
+    shown = short_path(name)
     out: tuple[dict | None, str | None]
-    if not target.is_relative_to(root):
-        out = (None, f"'{name}' is outside the register's folder; case files must sit in or below it")
-    elif not target.is_file():
-        out = (None, f"no case file '{name}' next to the register")
+    try:
+        root = Path(ctx.register_dir).resolve()
+        target = (root / name).resolve()
+        inside = target.is_relative_to(root)
+        if inside:
+            raw = read_limited(target, MAX_CASE_BYTES, regular_only=True)
+    except EnvironmentProblem as exc:
+        out = (None, f"no case file '{shown}' next to the register" if exc.reason == "no such file"
+               else f"case file '{shown}' cannot be used: {exc.reason}")
+    except (OSError, RuntimeError, ValueError) as exc:  # resolving: a symlink loop, a name too long, a NUL
+        out = (None, f"case file '{shown}' cannot be read: {os_problem(exc)}")
     else:
-        try:
-            data = parse_text(target.read_bytes(), kind_of(target))
-            out = (data, None) if isinstance(data, dict) else (None, f"'{name}' is not a case mapping")
-        except CaseError as exc:
-            out = (None, f"'{name}': " + "; ".join(p.message for p in exc.problems))
+        if not inside:
+            out = (None, f"'{shown}' is outside the register's folder; case files must sit in or below it")
+        else:
+            try:
+                data = parse_text(raw, kind_of(target))
+                out = (data, None) if isinstance(data, dict) else (None, f"'{shown}' is not a case mapping")
+            except CaseError as exc:
+                out = (None, f"'{shown}': " + "; ".join(p.message for p in exc.problems))
     ctx.case_file_cache[name] = out
     return out

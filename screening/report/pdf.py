@@ -17,6 +17,7 @@ from pathlib import Path
 from xml.sax.saxutils import escape as _xml_escape
 
 from screening.errors import InputError
+from screening.fileio import with_umask
 from screening.report.templates import font_files
 
 _FONT_NAMES = {
@@ -389,9 +390,7 @@ def _atomic_write(data_fn, path) -> None:
     folder = target.parent if str(target.parent) else Path(".")
     fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=folder)
     try:
-        mask = os.umask(0)
-        os.umask(mask)
-        os.chmod(tmp, 0o666 & ~mask)  # mkstemp makes 0600; give the usual permissions
+        with_umask(tmp)  # mkstemp makes 0600; give the usual permissions
         with os.fdopen(fd, "wb") as fh:
             fh.write(data)
             fh.flush()

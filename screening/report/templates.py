@@ -7,7 +7,10 @@ import os
 import tomllib
 from pathlib import Path
 
-from screening.errors import InputError
+from screening.errors import EnvironmentProblem, InputError
+from screening.fileio import read_limited
+
+MAX_TEMPLATE_BYTES = 2_000_000
 from screening.resources import template_dir_candidates
 
 TEMPLATE_FILE = "memo.toml"
@@ -53,9 +56,9 @@ def default_templates_dir() -> Path:
 
 def _read_toml(path: Path) -> dict:
     try:
-        raw = path.read_bytes()
-    except OSError as exc:
-        raise TemplateError(f"cannot read template file: {exc.strerror or exc}", file=path) from exc
+        raw = read_limited(path, MAX_TEMPLATE_BYTES)
+    except EnvironmentProblem as exc:
+        raise TemplateError(f"template file: {exc}", file=path) from None
     try:
         text = raw.decode("utf-8")
     except UnicodeDecodeError as exc:

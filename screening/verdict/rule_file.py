@@ -116,7 +116,8 @@ from typing import Any
 from pydantic import BaseModel, ConfigDict, ValidationError
 
 from screening.case.units import UnitError, non_finite, not_finite_message, temperature_scale, unit_factor
-from screening.errors import InputError
+from screening.errors import EnvironmentProblem, InputError
+from screening.fileio import read_limited
 from screening.resources import rule_set_candidates
 from screening.verdict.engine import (
     _COMPARISONS,
@@ -668,13 +669,16 @@ def default_rule_set_path() -> Path:
                                    + " and ".join(str(c) for c in candidates))])
 
 
+MAX_RULE_FILE_BYTES = 2_000_000
+
+
 def load_rule_set(path: str | Path | None = None) -> RuleSet:
     """Read and validate a rule file; ``None`` loads the shipped default."""
     p = default_rule_set_path() if path is None else Path(path)
     try:
-        data = p.read_bytes()
-    except OSError as exc:
-        raise RuleSetError([("(file)", f"cannot read the rule file: {exc.strerror or exc}")], str(p)) from None
+        data = read_limited(p, MAX_RULE_FILE_BYTES)
+    except EnvironmentProblem as exc:
+        raise RuleSetError([("(file)", f"the rule file: {exc}")], str(p)) from None
     return parse_rule_set(data, str(p))
 
 
