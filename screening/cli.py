@@ -8,6 +8,7 @@ from __future__ import annotations
 import csv
 import json
 import os
+import re
 import sys
 import tempfile
 from pathlib import Path
@@ -28,17 +29,34 @@ class _State:
     debug = False
 
 
+# Control characters (C0 but newline and tab, DEL, C1) and the bidirectional overrides and isolates: in
+# text the user wrote (ids, limit names, paths) they could move the cursor, clear or rewrite lines on a
+# terminal (say, the verdict line), or reorder what is shown. They are printed as \uXXXX escapes, which
+# are also valid inside JSON strings.
+_UNSAFE = re.compile("[\x00-\x08\x0b-\x1f\x7f-\x9f\u061c\u200e\u200f\u202a-\u202e\u2066-\u2069]")
+
+
+def terminal_safe(text: str) -> str:
+    """``text`` with every control character escaped (newlines and tabs kept)."""
+    return _UNSAFE.sub(lambda m: f"\\u{ord(m.group()):04x}", text)
+
+
+def _echo(message="", err: bool = False, nl: bool = True) -> None:
+    """What the commands print: never a raw control character from the input."""
+    typer.echo(terminal_safe(str(message)), err=err, nl=nl)
+
+
 def _print_problems(problems, where: str | None = None) -> None:
     head = f"{where}: " if where else ""
-    typer.echo(f"{head}invalid input ({len(problems)} problem{'s' if len(problems) != 1 else ''}):", err=True)
+    _echo(f"{head}invalid input ({len(problems)} problem{'s' if len(problems) != 1 else ''}):", err=True)
     for p in problems:
-        typer.echo(f"  {p.field}: {p.message}", err=True)
+        _echo(f"  {p.field}: {p.message}", err=True)
 
 
 def _fail_internal(exc: BaseException) -> None:
     if _State.debug:
         raise exc
-    typer.echo(f"heatscreen: internal error: {type(exc).__name__}: {exc}. Run again with --debug for details.",
+    _echo(f"heatscreen: internal error: {type(exc).__name__}: {exc}. Run again with --debug for details.",
                err=True)
     raise typer.Exit(EXIT_INTERNAL)
 
@@ -109,17 +127,17 @@ def _guard(fn):
             raise typer.Exit(EXIT_INVALID)
         template_error = _template_error(exc)
         if template_error:
-            typer.echo(f"templates: {template_error}", err=True)
+            _echo(f"templates: {template_error}", err=True)
             raise typer.Exit(EXIT_INVALID)
         from screening.errors import InputError
         from screening.fileio import environment_problem
 
         if isinstance(exc, InputError):  # e.g. an output path that would replace a user's files
-            typer.echo(str(exc), err=True)
+            _echo(str(exc), err=True)
             raise typer.Exit(EXIT_INVALID)
         problem = environment_problem(exc, "heatscreen")  # the user's file system refused (disk full, ...)
         if problem is not None:
-            typer.echo(str(problem), err=True)
+            _echo(str(problem), err=True)
             raise typer.Exit(EXIT_INVALID)
         _fail_internal(exc)
 
@@ -154,7 +172,7 @@ def check(case: str = typer.Argument(..., help="Case file (YAML, TOML or JSON)."
           rules: Optional[str] = typer.Option(None, "--rules", help="Rule set file (TOML); default: the shipped set.")):
     """Screen one case: time to each limit, peak, steady state, criteria, verdict."""
     from screening.report.text import format_result
-    from screening.result import finite_or_null, public_result
+    from screening.result import json_safe, public_result
 
     def body():
         from screening.run.pipeline import screen_file
@@ -173,10 +191,10 @@ def check(case: str = typer.Argument(..., help="Case file (YAML, TOML or JSON)."
                 raise CaseError([FieldProblem("--history", f"cannot write {history}: {exc.strerror or exc}; "
                                                            f"expected a path in an existing, writable folder")])
         if json_out:
-            typer.echo(json.dumps(finite_or_null(public_result(result)), indent=2, ensure_ascii=False,
+            _echo(json.dumps(json_safe(public_result(result)), indent=2, ensure_ascii=False,
                                   allow_nan=False))
         else:
-            typer.echo(format_result(result))
+            _echo(format_result(result))
         return _exit_for([result])
 
     raise typer.Exit(_guard(body))
@@ -193,7 +211,12 @@ def memo(case: str = typer.Argument(..., help="Case file (YAML, TOML or JSON).")
         from screening.register.output_set import check_single_output
         from screening.run.pipeline import screen_file
 
-        check_single_output(output, "--output", inputs=(case, rules))
+        template_file = None
+        if templates is not None:
+            from screening.report.templates import TEMPLATE_FILE
+
+            template_file = Path(templates) / TEMPLATE_FILE
+        check_single_output(output, "--output", inputs=(case, rules, template_file))
         result = screen_file(case, rules)
         from screening.report.memo import write_memo
         from screening.result import memo_view
@@ -205,7 +228,7 @@ def memo(case: str = typer.Argument(..., help="Case file (YAML, TOML or JSON).")
 
             raise CaseError([FieldProblem("--output", f"cannot write {output}: {exc.strerror or exc}; expected a "
                                                       f"path in an existing, writable folder")]) from None
-        typer.echo(f"wrote {output}")
+        _echo(f"wrote {output}")
         return _exit_for([result])
 
     raise typer.Exit(_guard(body))
@@ -233,18 +256,18 @@ def batch(register: Path = typer.Argument(..., help="Register of vessels (.csv o
             summary = run_batch(register, out, base_path=base, rules_path=rules, memos=memos, progress=progress,
                                 templates_dir=templates)
         except RegisterError as exc:
-            typer.echo(f"register: {exc.message}", err=True)
+            _echo(f"register: {exc.message}", err=True)
             return EXIT_INVALID
         finally:
             if bar is not None:
                 bar.close()
         counts = summary["verdict_counts"]
-        typer.echo(f"{summary['rows']} rows: {summary['valid']} screened ({counts.get('pass', 0)} pass, "
+        _echo(f"{summary['rows']} rows: {summary['valid']} screened ({counts.get('pass', 0)} pass, "
                    f"{counts.get('review', 0)} review, {counts.get('fail', 0)} fail), {summary['invalid']} invalid. "
                    f"Wrote {out}/results.json, results.csv, errors.csv, summary.pdf"
                    + (" and memos/" if memos else "") + ".")
         if summary["invalid"]:
-            typer.echo(f"See {out}/errors.csv for the invalid rows (row number, field, message).", err=True)
+            _echo(f"See {out}/errors.csv for the invalid rows (row number, field, message).", err=True)
         return summary["exit_code"]
 
     raise typer.Exit(_guard(body))
@@ -282,7 +305,7 @@ def diff(old: Path = typer.Argument(..., help="Output folder of the earlier batc
 
             check_single_output(csv_out, "--csv", inputs=(Path(old) / "results.json", Path(new) / "results.json"))
         changes = diff_runs(old, new, margin_tolerance_s=margin_tolerance * 3600.0)
-        typer.echo(format_table(changes))
+        _echo(format_table(changes))
         if csv_out is not None:
             _write_output_text(csv_out, to_csv(changes), "--csv")
         return EXIT_REVIEW if changes else EXIT_OK
@@ -321,9 +344,9 @@ def margin(case: str = typer.Argument(..., help="Case file (YAML, TOML or JSON).
         hi = parse_bound(high, q, "--high") if high is not None else None
         report = find_allowable_values(prepared, vary, lo, hi, points, rules)
         if json_out:
-            typer.echo(json.dumps(report, indent=2, ensure_ascii=False, allow_nan=False))
+            _echo(json.dumps(report, indent=2, ensure_ascii=False, allow_nan=False))
         else:
-            typer.echo(format_allowable(report))
+            _echo(format_allowable(report))
         return EXIT_OK
 
     raise typer.Exit(_guard(body))
@@ -338,10 +361,17 @@ def serve(host: str = typer.Option("127.0.0.1", "--host", help="Address to bind 
           token: Optional[str] = typer.Option(None, "--token", envvar="HEATSCREEN_TOKEN",
                                               help="Token every endpoint but /health wants.")):
     """Run the HTTP API and web page (screening estimates only)."""
+    if token is None and "HEATSCREEN_TOKEN" in os.environ:  # set but empty: typer reads it as not given
+        token = os.environ["HEATSCREEN_TOKEN"]
+    if token is not None and not token.strip():
+        from screening.service.settings import EMPTY_TOKEN
+
+        _echo(f"heatscreen serve: {EMPTY_TOKEN}", err=True)
+        raise typer.Exit(EXIT_INVALID)
     try:
         from screening.service.app import serve as run_service
     except ImportError as exc:
-        typer.echo(f"heatscreen serve needs the service extra: pip install -e '.[service]' ({exc})", err=True)
+        _echo(f"heatscreen serve needs the service extra: pip install -e '.[service]' ({exc})", err=True)
         raise typer.Exit(EXIT_INVALID)
     run_service(host, port, db, token)
 
@@ -352,7 +382,7 @@ def example(output: Optional[Path] = typer.Argument(None, help="Where to write i
     """Write an annotated example case to start from."""
     text = demo_cases().joinpath("example_case.yaml").read_text(encoding="utf-8")
     if output is None:
-        typer.echo(text, nl=False)
+        _echo(text, nl=False)
         return
 
     def body():
@@ -365,11 +395,11 @@ def example(output: Optional[Path] = typer.Argument(None, help="Where to write i
             same = False
         if output.exists() and not same:
             # the example is a starting point: a file already there is likely a case being edited
-            typer.echo(f"OUTPUT {output} already exists; heatscreen example does not replace a file. Give a new "
+            _echo(f"OUTPUT {output} already exists; heatscreen example does not replace a file. Give a new "
                        f"file name, or delete the file first.", err=True)
             return EXIT_INVALID
         _write_output_text(output, text, "OUTPUT")
-        typer.echo(f"wrote {output}")
+        _echo(f"wrote {output}")
         return EXIT_OK
 
     raise typer.Exit(_guard(body))
@@ -380,7 +410,7 @@ def schema():
     """Print the JSON Schema of the case-file format."""
     from screening.case.schema import case_json_schema
 
-    typer.echo(json.dumps(case_json_schema(), indent=2))
+    _echo(json.dumps(case_json_schema(), indent=2))
 
 
 @app.command()
@@ -408,8 +438,8 @@ def demo(out: Path = typer.Option(Path("heatscreen-demo"), "--out", help="Folder
             path = str(folder.joinpath(name))
             result = screen_file(path)
             results.append(result)
-            typer.echo(format_result(result))
-            typer.echo("")
+            _echo(format_result(result))
+            _echo("")
         build = new_build_folder(target)
         try:
             wrote_memos = False
@@ -442,18 +472,18 @@ def demo(out: Path = typer.Option(Path("heatscreen-demo"), "--out", help="Folder
             raise
         reg_out = out / "register"
         if wrote_memos:
-            typer.echo(f"wrote {len(results)} memos to {out}/")
+            _echo(f"wrote {len(results)} memos to {out}/")
         counts = summary["verdict_counts"]
-        typer.echo(f"Demo register: {summary['rows']} rows, {summary['valid']} screened ({counts['pass']} pass, "
+        _echo(f"Demo register: {summary['rows']} rows, {summary['valid']} screened ({counts['pass']} pass, "
                    f"{counts['review']} review, {counts['fail']} fail), {summary['invalid']} invalid on purpose "
                    f"(see {reg_out}/errors.csv); results, summary.pdf" + (" and memos" if memos else "")
                    + f" in {reg_out}/")
-        typer.echo("Summary of the demo cases:")
+        _echo("Summary of the demo cases:")
         for r in results:
             first = min((l["time_s"] for l in r["limits"] if l["time_s"] is not None), default=None)
             from screening.case.display import duration
 
-            typer.echo(f"  {r['id']:<12} {str(r.get('verdict', '')).upper():<7} first limit "
+            _echo(f"  {r['id']:<12} {str(r.get('verdict', '')).upper():<7} first limit "
                        f"{duration(first) if first is not None else 'not reached'}")
         return EXIT_OK
 
@@ -467,14 +497,14 @@ def run():  # console-script entry point
     try:
         app()
     except KeyboardInterrupt:
-        typer.echo("interrupted", err=True)
+        _echo("interrupted", err=True)
         sys.exit(130)
     except SystemExit:
         raise
     except BaseException as exc:  # noqa: BLE001 - never a traceback unless asked for
         if "--debug" in sys.argv:
             raise
-        typer.echo(f"heatscreen: internal error: {type(exc).__name__}: {exc}. Run again with --debug for details.",
+        _echo(f"heatscreen: internal error: {type(exc).__name__}: {exc}. Run again with --debug for details.",
                    err=True)
         sys.exit(EXIT_INTERNAL)
 

@@ -28,6 +28,42 @@ def finite_or_null(obj):
     return obj
 
 
+def _non_finite_paths(obj, path: str, out: list[str]) -> None:
+    if isinstance(obj, float):
+        if not math.isfinite(obj):
+            out.append(path or "(result)")
+    elif isinstance(obj, dict):
+        for k, v in obj.items():
+            _non_finite_paths(v, f"{path}.{k}" if path else str(k), out)
+    elif isinstance(obj, (list, tuple)):
+        for i, v in enumerate(obj):
+            _non_finite_paths(v, f"{path}.{i}", out)
+
+
+NON_FINITE_SHOWN = 10
+
+
+def json_safe(public: dict) -> dict:
+    """The JSON object with every non-finite number (inf, NaN) as null, and a warning naming where.
+
+    The last line of defence of what is printed or answered: a screening result should hold none
+    (each source is fixed where it is found), but if one does, the reader is told which values are
+    missing instead of the whole answer failing (JSON has no inf or NaN)."""
+    paths: list[str] = []
+    _non_finite_paths(public, "", paths)
+    if not paths:
+        return public
+    out = finite_or_null(public)
+    shown = ", ".join(paths[:NON_FINITE_SHOWN]) + (f" and {len(paths) - NON_FINITE_SHOWN} more"
+                                                    if len(paths) > NON_FINITE_SHOWN else "")
+    warnings = list(out.get("warnings") or [])
+    warnings.append(f"The result held values that are not finite numbers (infinite or NaN) at {shown}; they are "
+                    f"given as null. This is a fault of the tool's numerics for this case: do not rely on those "
+                    f"values, and report the case.")
+    out["warnings"] = warnings
+    return out
+
+
 def memo_view(result: dict) -> dict:
     """The object the memo writer takes: JSON keys plus history, heat balance, recovery path."""
     out = public_result(result)

@@ -226,6 +226,16 @@ def prepare_case(spec: CaseSpec, inputs: list[dict] | None = None) -> PreparedCa
     if c.boiling_point is not None:
         venting = spec.vessel.venting if spec.vessel is not None else "closed"
         boiling = m.BoilingData(c.boiling_point.si, c.latent_heat.si, venting)
+        if c.boiling_point.si < c.initial_temperature.si:
+            if venting == "open":
+                raise CaseError([FieldProblem("contents.boiling_point", (
+                    f"{c.boiling_point.text} is below the initial temperature ({c.initial_temperature.text}): the "
+                    f"contents of an open vessel cannot start above their boiling point; check both values and "
+                    f"their units"))])
+            warnings.append(f"The boiling point ({c.boiling_point.text}) is below the initial temperature "
+                            f"({c.initial_temperature.text}): the contents start superheated, which a closed vessel "
+                            f"holds only under pressure. The tool does not model pressure and takes no credit for "
+                            f"boiling in a closed vessel; check both values and their units.")
     cond = conduction_shape(shape) if c.mixing == "unstirred" else None
     char_length = None
     if liquid_volume is not None and geometry.get("wetted_area_m2"):
@@ -255,6 +265,14 @@ def prepare_case(spec: CaseSpec, inputs: list[dict] | None = None) -> PreparedCa
             prepared.detection_delay = spec.detection.delay.si
     if spec.recovery is not None:
         prepared.recovery = (spec.recovery.medium_temperature.si, spec.recovery.ua.si)
+        hotter = [lim for lim in spec.limits if spec.recovery.medium_temperature.si > lim.temperature.si]
+        if hotter:
+            names = ", ".join(f"'{lim.name}' ({lim.temperature.text})" for lim in hotter)
+            prepared.warnings.append(
+                f"Recovery: the recovery medium ({spec.recovery.medium_temperature.text}) is hotter than the limit"
+                f"{'s' if len(hotter) > 1 else ''} {names}: restored cooling drives the contents towards the "
+                f"medium's temperature, so it cannot hold them below {'those limits' if len(hotter) > 1 else 'it'}; "
+                f"the recovery result shows where the contents go, not a safe state.")
     if spec.uncertainty is not None:
         prepared.uncertainty_plan = plan_uncertainty(spec)
     return prepared

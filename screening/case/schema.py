@@ -77,6 +77,9 @@ def _make_quantity_validator(dimension: str, check: str | None):
             raise ValueError(f"must be greater than zero (got {parsed.text}); expected {DIMENSION_WORDS[dimension]}")
         if check == "nonnegative" and si < 0:
             raise ValueError(f"must not be negative (got {parsed.text}); expected {DIMENSION_WORDS[dimension]}")
+        if check == "unit_fraction" and not 0 < si <= 1:
+            raise ValueError(f"must be above 0 and at most 1 (100 %) (got {parsed.text}); expected "
+                             f"{DIMENSION_WORDS[dimension]}")
         if check == "absolute" and not si > 0:
             raise ValueError(f"{parsed.text} is at or below absolute zero; expected {DIMENSION_WORDS[dimension]}")
         return Quantity(si, parsed.text, source, dimension)
@@ -267,7 +270,7 @@ class ArrheniusSpec(_Source):
 
 class FireSpec(_Source):
     kind: Literal["fire"]
-    environment_factor: Q("fraction", "nonnegative") = None
+    environment_factor: Q("fraction", "unit_fraction") = None  # API 521: 1 for a bare vessel, less with credit
     drainage_and_firefighting: bool = True
     wetted_area: Q("area", "positive") = None
     elevation: Q("length", "nonnegative") = None
@@ -504,11 +507,16 @@ def validate_case_data(data: Any) -> CaseSpec:
             if len(src.tested_range) != 2:
                 problems.append(FieldProblem(f"heat_sources.{i}.tested_range", "expected [low, high] temperatures"))
             else:
+                ends = []
                 for j, v in enumerate(src.tested_range):
                     try:
-                        _make_quantity_validator("temperature", "absolute")(v)
+                        ends.append(_make_quantity_validator("temperature", "absolute")(v))
                     except ValueError as exc:
                         problems.append(FieldProblem(f"heat_sources.{i}.tested_range.{j}", str(exc)))
+                if len(ends) == 2 and ends[0].si > ends[1].si:
+                    problems.append(FieldProblem(f"heat_sources.{i}.tested_range",
+                                                 f"the low end ({ends[0].text}) is above the high end "
+                                                 f"({ends[1].text}); expected [low, high]"))
     if problems:
         raise CaseError(problems)
     return spec

@@ -558,7 +558,10 @@ def _run_phase(bal, boiling, z0, events, grid, step_budget):
         if steps >= step_budget:
             return _PhaseResult(zs, fired, None, "step-limit", steps)
         s_a, z_a = solver.t, solver.y.copy()
-        solver.step()
+        try:
+            solver.step()
+        except (ValueError, ArithmeticError):  # rates beyond floating-point range (inf or NaN in a step)
+            return _PhaseResult(zs, fired, None, "solver-failure", steps)
         steps += 1
         if solver.status == "failed":
             return _PhaseResult(zs, fired, None, "solver-failure", steps)

@@ -1366,6 +1366,8 @@ def first_crossing_times_arrhenius(params: ArrheniusSamples, limits, horizon, *,
     if workers is None:
         workers = min(2, os.cpu_count() or 1)
     workers = max(1, int(workers))
+    if multiprocessing.current_process().daemon:
+        workers = 1  # a daemonic process (e.g. a service worker) cannot start processes of its own
 
     todo = np.flatnonzero(inp.T0 < inp.stop)
     times, peakT, peakt, pstop, status, steps = _initial_out(inp)

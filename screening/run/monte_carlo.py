@@ -258,6 +258,12 @@ def analyse(prepared: PreparedCase, plan: UncertaintyPlan | None = None) -> dict
         values = values[keep]
         arrays = sample_arrays(prepared, plan, values)
     n = values.shape[0]
+    if n == 0:
+        raise CaseError([FieldProblem("uncertainty.inputs", f"all {plan.samples} samples were rejected as physically "
+                                                            f"impossible (for example a negative mass or heat "
+                                                            f"capacity): the distributions of "
+                                                            f"{', '.join(inp.path for inp in plan.inputs)} give no "
+                                                            f"value the case can take")])
     st = screen_samples(prepared, arrays)
     model = prepared.model
     limits_out = []

@@ -260,9 +260,12 @@ def _frank_kamenetskii(model: ScreeningModel, X0, warnings, unit) -> dict | None
     delta = rc.frank_kamenetskii_parameter(model.ambient_temperature, rho, model.arrhenius_sources, r, k, conversion=X0)
     warnings.append(f"Unstirred contents: the lumped temperature history assumes one temperature for the whole mass "
                     f"and is not valid for conduction-limited contents; the Frank-Kamenetskii criterion (geometry "
-                    f"{model.conduction_geometry}, radius {r:.3g} m, surface Biot number {biot:.3g}) governs. A "
+                    f"{model.conduction_geometry}, radius {r:.3g} m, surface Biot number "
+                    f"{'infinite (no surface coefficient)' if math.isinf(biot) else f'{biot:.3g}'}) governs. A "
                     f"cylinder is treated as infinitely long and a box as a slab, which is conservative.")
-    return {"geometry": model.conduction_geometry, "radius_m": r, "surface_biot_number": biot,
+    # JSON has no infinity: an infinite Biot number (surface held at ambient; its warning says so) is null
+    return {"geometry": model.conduction_geometry, "radius_m": r,
+            "surface_biot_number": None if math.isinf(biot) else biot,
             "delta": float(delta), "delta_critical": float(delta_c), "critical_ambient_K": ta_c}
 
 

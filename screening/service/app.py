@@ -7,6 +7,7 @@ cookie set by its own token form, so a browser can use it).
 """
 from __future__ import annotations
 
+import asyncio
 import hmac
 import ipaddress
 import logging
@@ -23,6 +24,7 @@ from screening import __version__
 from screening.service import CAUTION
 from screening.service.core import Service, ServiceError
 from screening.service.settings import Settings
+from screening.service.timeouts import FailureLimiter, header_timeout_protocol
 from screening.service.ui_cookie import UI_COOKIE, ui_cookie_value
 
 log = logging.getLogger("heatscreen.service")
@@ -43,6 +45,8 @@ class Gate:
         self.settings = settings
         self.token = settings.token
         self.cookie = ui_cookie_value(settings.token) if settings.token else None
+        self.hosts = allowed_hosts(settings)
+        self.failures = FailureLimiter(settings.auth_failures_burst, settings.auth_failures_per_s)
 
     def limit_for(self, path: str) -> int:
         s = self.settings
@@ -79,9 +83,24 @@ class Gate:
         headers = {k.decode("latin-1").lower(): v.decode("latin-1") for k, v in scope["headers"]}
         send = self._with_headers(send, path)
         limit = self.limit_for(path)
+        if self.hosts is not None and not host_allowed(headers.get("host", ""), self.hosts,
+                                                       self.settings.bind_port):
+            return await self._refuse(scope, receive, send, 400, "(host)",
+                                      "the Host header names an address this service is not bound to (a page "
+                                      "on another site may be trying to reach it); use the address it listens on")
+        client = (scope.get("client") or ("?", 0))[0]
         if self.token and path not in ("/health", "/ui/login") and not self.authorized(headers, path):
             await _drain(receive, limit)
+            if "authorization" in headers:  # a wrong token, not merely none: a guess
+                if not self.failures.allowed(client):
+                    return await self._too_many(scope, receive, send, client)
+                self.failures.failed(client)
             return await self._unauthorized(scope, receive, send, path)
+        if path == "/ui/login" and scope["method"] == "POST" and self.token:
+            if not self.failures.allowed(client):
+                await _drain(receive, limit)
+                return await self._too_many(scope, receive, send, client)
+            send = self._count_login_failure(send, client)
         if scope["method"] in ("POST", "PUT", "PATCH", "DELETE"):
             declared = headers.get("content-length", "")
             if declared.isdigit() and int(declared) > limit:
@@ -91,7 +110,12 @@ class Gate:
             body = bytearray()
             more = True
             while more:
-                message = await receive()
+                try:
+                    message = await asyncio.wait_for(receive(), self.settings.body_timeout or None)
+                except asyncio.TimeoutError:
+                    return await self._refuse(scope, receive, send, 408, "(body)",
+                                              f"no part of the request body arrived for "
+                                              f"{self.settings.body_timeout:g} s", close=True)
                 if message["type"] == "http.disconnect":
                     return
                 body += message.get("body", b"")
@@ -102,12 +126,39 @@ class Gate:
             receive = _replay(bytes(body), receive)
         return await self.app(scope, receive, send)
 
+    def _count_login_failure(self, send, client: str):
+        """A login form answered 401 (a wrong token) counts as a failed attempt of its client."""
+
+        async def wrapped(message):
+            if message["type"] == "http.response.start" and message.get("status") == 401:
+                self.failures.failed(client)
+            await send(message)
+
+        return wrapped
+
+    async def _refuse(self, scope, receive, send, status: int, field: str, message: str, close: bool = False):
+        headers = {"Connection": "close"} if close else None
+        response = JSONResponse({"errors": [{"field": field, "message": message}]}, status_code=status,
+                                headers=headers)
+        await response(scope, receive, send)
+
+    async def _too_many(self, scope, receive, send, client: str):
+        wait = self.failures.retry_after(client)
+        response = JSONResponse({"errors": [{"field": "(authorization)",
+                                             "message": f"too many wrong tokens from this address; try again in "
+                                                        f"{wait} s"}]},
+                                status_code=429, headers={"Retry-After": str(wait)})
+        await response(scope, receive, send)
+
     def _with_headers(self, send, path):
         async def wrapped(message):
             if message["type"] == "http.response.start":
                 hdrs = list(message.get("headers", []))
                 names = {k.lower() for k, _ in hdrs}
-                extra = [(b"x-content-type-options", b"nosniff"), (b"referrer-policy", b"no-referrer"),
+                # same-origin, not no-referrer, for the web page: a form posted under no-referrer carries
+                # "Origin: null", which the forms refuse (it is also what a page on another site can send)
+                policy = b"same-origin" if _ui_path(path) else b"no-referrer"
+                extra = [(b"x-content-type-options", b"nosniff"), (b"referrer-policy", policy),
                          (b"x-frame-options", b"DENY"), (b"cache-control", b"no-store")]
                 if _ui_path(path):
                     extra.append((b"content-security-policy",
@@ -246,6 +297,42 @@ def _safe_url(url: str) -> str:
     return url
 
 
+_LOOPBACK_NAMES = ("localhost", "127.0.0.1", "::1")
+_WILDCARDS = ("0.0.0.0", "::", "")
+
+
+def allowed_hosts(settings: Settings) -> set[str] | None:
+    """Host names (lower case, without port) requests may give; None: any (no bound address known,
+    or a wildcard bind without HEATSCREEN_ALLOWED_HOSTS)."""
+    extra = {h.strip().lower().strip("[]") for h in settings.allowed_hosts.split(",") if h.strip()}
+    bound = (settings.bind_host or "").strip().lower().strip("[]")
+    if settings.bind_host is None or (bound in _WILDCARDS and not extra):
+        return None
+    names = set(extra)
+    if bound not in _WILDCARDS:
+        names.add(bound)
+    if bound in _WILDCARDS or _is_loopback(bound):
+        names.update(_LOOPBACK_NAMES)
+    return names
+
+
+def host_allowed(header: str, names: set[str], port: int | None) -> bool:
+    """Whether a Host header names one of ``names`` (a port, if given, must be the bound one)."""
+    value = header.strip().lower()
+    if not value:
+        return False
+    if value.startswith("["):  # [v6]:port
+        host, _, rest = value[1:].partition("]")
+        given_port = rest[1:] if rest.startswith(":") else None
+    elif value.count(":") == 1:
+        host, given_port = value.split(":")
+    else:
+        host, given_port = value, None
+    if given_port is not None and port is not None and given_port != str(port):
+        return False
+    return host.rstrip(".") in names
+
+
 def _is_loopback(host: str) -> bool:
     if host == "localhost":
         return True
@@ -260,6 +347,7 @@ def serve(host: str = "127.0.0.1", port: int = 8000, db: str | None = None, toke
     import uvicorn
 
     settings = Settings.from_env(db=db, token=token)
+    settings.bind_host, settings.bind_port = host, port
     logging.basicConfig(level=logging.INFO, format="%(asctime)s %(levelname)s %(name)s: %(message)s",
                         stream=sys.stderr)
     for var in ("OMP_NUM_THREADS", "OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS"):
@@ -272,5 +360,6 @@ def serve(host: str = "127.0.0.1", port: int = 8000, db: str | None = None, toke
     config = uvicorn.Config(create_app(settings), host=host, port=port, lifespan="on", log_level="info",
                             access_log=False, server_header=False, proxy_headers=False,
                             limit_concurrency=settings.limit_concurrency,
-                            timeout_graceful_shutdown=int(settings.shutdown_grace) or None, timeout_keep_alive=5)
+                            timeout_graceful_shutdown=int(settings.shutdown_grace) or None, timeout_keep_alive=5,
+                            http=header_timeout_protocol(settings.header_timeout))
     uvicorn.Server(config).run()

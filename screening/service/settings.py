@@ -30,6 +30,12 @@ class Settings:
     batch_timeout: float = 900.0      # one register job
     queue_wait: float = 60.0          # longest wait for a free worker before 503
     shutdown_grace: float = 30.0      # how long a shutdown waits for work in flight
+    header_timeout: float = 10.0      # a request's line and headers, from their first byte; then the connection closes
+    body_timeout: float = 30.0        # longest wait for the next part of a request body; then 408
+
+    # failed token attempts (login form and Authorization header), per client address
+    auth_failures_burst: int = 20     # allowed at once
+    auth_failures_per_s: float = 2.0  # allowed again per second; beyond: 429
 
     # queues
     max_queue: int = 256              # requests waiting for a worker; beyond: 503
@@ -44,6 +50,12 @@ class Settings:
     max_xlsx_members: int = 500
     max_xlsx_ratio: int = 150         # uncompressed / compressed, for members over 1 MB
 
+    # the Host header: names (besides the bound address and, on loopback, localhost) requests may use,
+    # comma-separated; a wildcard bind (0.0.0.0, ::) without them accepts any Host
+    allowed_hosts: str = ""
+    bind_host: str | None = None      # set by serve(): the address and port the service listens on
+    bind_port: int | None = None
+
     @property
     def is_sqlite(self) -> bool:
         return self.db_url.startswith("sqlite")
@@ -54,7 +66,7 @@ class Settings:
         s = cls()
         for f in fields(cls):
             key = "HEATSCREEN_" + f.name.upper()
-            if f.name in ("db_url", "token", "data_dir") or key not in env:
+            if f.name in ("db_url", "token", "data_dir", "bind_host", "bind_port") or key not in env:
                 continue
             raw = env[key].strip()
             kind = type(getattr(s, f.name))
@@ -76,5 +88,12 @@ class Settings:
             s.db_url = f"sqlite:///{path}"
             s.data_dir = Path(env.get("HEATSCREEN_DATA_DIR") or path.with_name(path.stem + "-jobs"))
         tok = token if token is not None else env.get("HEATSCREEN_TOKEN")
+        if tok is not None and not tok.strip():
+            # an empty token would silently turn authentication off
+            raise SystemExit(f"heatscreen serve: {EMPTY_TOKEN}")
         s.token = tok or None
         return s
+
+
+EMPTY_TOKEN = ("the token is empty (--token '' or HEATSCREEN_TOKEN=''); give a token, or leave out both --token "
+               "and HEATSCREEN_TOKEN to run without one")

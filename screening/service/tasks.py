@@ -200,7 +200,7 @@ def task_check(raw: bytes, kind: str, rules_path: str | None, sde: int, memo: bo
     """
     from screening.case.schema import CaseError
     from screening.report.memo import render_memo
-    from screening.result import memo_view, public_result
+    from screening.result import json_safe, memo_view, public_result
     from screening.run.pipeline import screen_file
 
     if kind not in ("yaml", "json", "toml"):
@@ -217,7 +217,7 @@ def task_check(raw: bytes, kind: str, rules_path: str | None, sde: int, memo: bo
         raise
     finally:
         path.unlink(missing_ok=True)
-    public = public_result(result)
+    public = json_safe(public_result(result))  # JSON has no inf or NaN: null, with a warning naming the key
     # the memo is rendered from the stored form of its view, so that the record regenerates it exactly
     view_json = json.dumps(memo_view(result), ensure_ascii=False, allow_nan=True, separators=(",", ":"))
     pdf = None

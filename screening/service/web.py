@@ -114,11 +114,15 @@ def _svc(request: Request):
 
 
 def _same_origin(request: Request) -> None:
+    """A form must come from this service's own page: an Origin of another site, or "null" (what a
+    sandboxed or local-file page sends), is refused. The page's referrer policy (same-origin) makes
+    browsers send its real origin."""
     origin = request.headers.get("origin")
-    if origin and origin != "null":
+    if origin:
         host = request.headers.get("host", "")
         if origin not in (f"http://{host}", f"https://{host}"):
-            raise ServiceError(403, [("(origin)", "form posted from another site")])
+            raise ServiceError(403, [("(origin)", "form posted from another site" if origin != "null" else
+                                      "form posted from a page without an origin (Origin: null)")])
 
 
 def _rule_options(svc, chosen: str = "default") -> str:
