@@ -167,15 +167,9 @@ def _check_xlsx_size(path: Path) -> None:
             if total > MAX_XLSX_UNCOMPRESSED:
                 raise RegisterError(f"{name} unpacks to {total} bytes, more than the limit of "
                                     f"{MAX_XLSX_UNCOMPRESSED}")
-            for info in infos:
-                if info.filename.lower().endswith((".xml", ".rels", ".vml")):
-                    with z.open(info) as fh:
-                        head = fh.read(_PROLOGUE_BYTES)
-                    if _declares_doctype(head):
-                        raise RegisterError(f"{name}: the part {short_path(info.filename)} declares a document type "
-                                            f"(<!DOCTYPE>), which workbooks do not use; it is refused, since it "
-                                            f"could expand entities without bound or read other files. Save the "
-                                            f"workbook again from a spreadsheet program.")
+            part = part_declaring_doctype(z)
+            if part is not None:
+                raise RegisterError(f"{name}: {doctype_message(part)}")
     except (zipfile.BadZipFile, zipfile.LargeZipFile, EOFError, NotImplementedError, ValueError) as exc:
         raise RegisterError(f"{name} is not a valid .xlsx file ({exc})") from None
     except OSError as exc:
@@ -183,6 +177,23 @@ def _check_xlsx_size(path: Path) -> None:
 
 
 _PROLOGUE_BYTES = 1 << 16  # a document type declaration comes before the root element
+
+
+def part_declaring_doctype(z: zipfile.ZipFile) -> str | None:
+    """The first XML part of a workbook that declares a document type (reads only each part's start)."""
+    for info in z.infolist():
+        if info.filename.lower().endswith((".xml", ".rels", ".vml")):
+            with z.open(info) as fh:
+                head = fh.read(_PROLOGUE_BYTES)
+            if _declares_doctype(head):
+                return info.filename
+    return None
+
+
+def doctype_message(part: str) -> str:
+    return (f"the part {short_path(part)} declares a document type (<!DOCTYPE>), which workbooks do not use; it is "
+            f"refused, since it could expand entities without bound or read other files. Save the workbook again "
+            f"from a spreadsheet program.")
 
 
 def _declares_doctype(head: bytes) -> bool:

@@ -67,6 +67,14 @@ def check_xlsx(data: bytes, limits: RegisterLimits, field: str = "register") -> 
                                          f"{limits.max_uncompressed} are accepted")])
         if "[Content_Types].xml" not in zf.namelist():
             raise LimitExceeded([(field, "not an .xlsx workbook (no [Content_Types].xml)")], status=422)
+        from screening.register.reading import doctype_message, part_declaring_doctype
+
+        try:
+            part = part_declaring_doctype(zf)
+        except (zipfile.BadZipFile, EOFError, NotImplementedError, ValueError, OSError) as exc:
+            raise LimitExceeded([(field, f"not a readable .xlsx file ({exc})")], status=422) from None
+        if part is not None:
+            raise LimitExceeded([(field, doctype_message(part))], status=422)
 
 
 def csv_line_count(data: bytes) -> int:
@@ -88,7 +96,10 @@ def check_xlsx_rows(path, limits: RegisterLimits, field: str = "register") -> No
     """Count worksheet rows (read-only, streaming) and refuse more than the limit. Runs in a worker."""
     import openpyxl
 
-    wb = openpyxl.load_workbook(path, read_only=True, data_only=True)
+    try:
+        wb = openpyxl.load_workbook(path, read_only=True, data_only=True)
+    except Exception as exc:  # noqa: BLE001 - whatever a malformed workbook makes the XML or zip reader raise
+        raise LimitExceeded([(field, f"the workbook cannot be read ({type(exc).__name__})")], status=422) from None
     try:
         for ws in wb.worksheets:
             n = 0

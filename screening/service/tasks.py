@@ -128,6 +128,12 @@ def _failure(exc: BaseException):
         pass
     if type(exc).__name__ == "TemplateError":
         return ("template", {"message": str(exc)})
+    from screening.errors import InputError
+
+    if isinstance(exc, InputError) and type(exc).__name__ != "MemoInputError":
+        # a register that cannot be read (a cell over the limit, a broken workbook ...): the user's input
+        field = "register" if type(exc).__name__ == "RegisterError" else "(input)"
+        return ("case", {"problems": [(field, getattr(exc, "message", None) or str(exc))], "lines": {}})
     if isinstance(exc, MemoryError):
         return ("internal", {"message": "the worker ran out of memory on this input"})
     traceback.print_exception(exc, file=sys.stderr)

@@ -419,6 +419,15 @@ def _case_bytes(change: Callable[[dict], None], base: str = "fw-t204-hold-tank.y
     return yaml.safe_dump(c, width=10 ** 9).encode("utf-8")
 
 
+def _built(build, name: str) -> bytes:
+    """The bytes a file builder writes (for a request body)."""
+    import tempfile
+
+    with tempfile.TemporaryDirectory() as tmp:
+        build(Path(tmp))
+        return (Path(tmp) / name).read_bytes()
+
+
 def service_entries() -> list[Entry]:
     Y = {"Content-Type": "application/yaml"}
     J = {"Content-Type": "application/json"}
@@ -460,6 +469,13 @@ def service_entries() -> list[Entry]:
               service=post(_case_bytes(lambda c: c.__setitem__("uncertainty", {"samples": 20000, "inputs": {
                   "heat_loss.ambient_temperature": {"distribution": "normal", "sd": "2 K"}}}),
                   base="fw-r301-reactor.yaml"), 200, ('"accepted":20000',)), timeout=120),
+        Entry("service: register with an entity bomb", "2 XML bomb inside xlsx", [],
+              service={"register": ("bomb.xlsx", _built(_xlsx("reg.xlsx", XML_BOMB, b"&lol9;"), "reg.xlsx")),
+                       "status": 422, "names": ("DOCTYPE",)}),
+        Entry("service: register cell of 140,000 characters", "2 cell over 131 KB", [],
+              service={"register": ("reg.csv", _built(_register("reg.csv", [["V-1", "t", "4" * 140_000, "20", "80",
+                                                                              "50"]]), "reg.csv")),
+                       "status": "invalid", "names": ("line 2", "131072")}),
         Entry("service: a Host header of another site", "4 Host header", [],
               service={"method": "GET", "path": "/v1/rules", "body": None, "headers": {"Host": "attacker.example"},
                        "status": 400, "names": ("(host)",)}),

@@ -14,7 +14,7 @@ from __future__ import annotations
 import argparse
 import contextlib
 import fnmatch
-import hashlib
+import json
 import os
 import resource
 import shutil
@@ -146,8 +146,8 @@ def run_entry(entry: Entry, folder: Path, special: dict, server=None) -> Outcome
         names = tuple(entry.service.get("names", ()))
         if status is None:
             return Outcome(entry, "hang", output, seconds)
-        if status >= 500:
-            return Outcome(entry, "traceback", f"HTTP {status}: {output[:300]}", seconds)
+        if status == "failed" or (isinstance(status, int) and status >= 500):
+            return Outcome(entry, "traceback", f"{status}: {output[:300]}", seconds)
     else:
         code, output, hung = _run_cli(entry, folder, special)
         seconds = time.monotonic() - t0
@@ -213,6 +213,15 @@ def _run_service(entry: Entry, server) -> tuple[int | None, str]:
     headers = dict(spec.get("headers") or {})
     with server.client(timeout=entry.timeout) as client:
         try:
+            if spec.get("register") is not None:  # a register job: its final state ("done", "invalid" ...)
+                from service_helpers import wait_job
+
+                name, data = spec["register"]
+                r = client.post("/v1/batch", files={"register": (name, data)})
+                if r.status_code != 202:
+                    return r.status_code, r.text
+                doc = wait_job(client, r.json()["job"], entry.timeout)
+                return doc["state"], json.dumps(doc)
             if spec.get("form") is not None:
                 r = client.request(spec["method"], spec["path"], data=spec["form"], headers=headers)
             else:
