@@ -63,7 +63,7 @@ from scipy.optimize import brentq
 
 from screening.core.arrhenius import log_arrhenius_rate
 from screening.core.model import GAS_CONSTANT, ScreeningModel
-from screening.core.terms import conductance_and_drive, constant_power
+from screening.core.terms import conductance_and_drive, constant_power, model_start_temperature
 
 #: Default temperature at which a runaway is no longer followed, K.
 DEFAULT_CEILING = 2000.0
@@ -597,9 +597,9 @@ def _sample(bal, boiling, grid, s_a, s_b, t_a, t_b, dense, zs, extra):
 def _source_warnings(model: ScreeningModel) -> tuple[list[str], list[str]]:
     """Cautions on the Arrhenius data: (all of them, those that also bear on times to limits)."""
     out, on_times = [], []
-    T0 = model.initial_temperature
+    T0 = model_start_temperature(model)
     for j, s in enumerate(model.arrhenius_sources, start=1):
-        tag = f"Arrhenius source {j}"
+        tag = s.label or f"Arrhenius source {j}"
         if s.specific_heat_of_reaction is None:
             if s.order != 0:
                 out.append(f"{tag}: order {s.order:g} given without a heat of reaction; conversion cannot "
@@ -711,7 +711,7 @@ def integrate_history(model: ScreeningModel, stop_temperature: float | None = No
 
 def _integrate(model: ScreeningModel, stop_temperature: float | None) -> NumericHistory:
     bal = _Balance(model)
-    T0 = float(model.initial_temperature)
+    T0 = float(model_start_temperature(model))
     horizon = float(model.horizon)
     limits = list(model.limits)
     highest = max([lim.temperature for lim in limits], default=T0)

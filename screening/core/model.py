@@ -45,10 +45,14 @@ class ConstantSource:
 
 @dataclass(frozen=True)
 class DecayingSource:
-    """Heat released as ``power * exp(-t / time_constant)``; power in W, time constant in s."""
+    """Heat released as ``power * exp(-t / time_constant)``; power in W, time constant in s.
+
+    ``role`` is "synthesis" for the remaining heat of the desired reaction given without kinetics, else None.
+    """
 
     power: float
     time_constant: float
+    role: str | None = None
 
 
 @dataclass(frozen=True)
@@ -68,7 +72,8 @@ class ArrheniusSource:
     ``specific_power`` is the rate at ``reference_temperature`` and zero conversion.
     Conversion X starts at ``1 - accumulated_fraction`` and advances at
     dX/dt = q / specific_heat_of_reaction.  Without a heat of reaction (order 0
-    only) release is unbounded.
+    only) release is unbounded.  ``role`` is "synthesis" (the desired reaction: its
+    accumulated heat sets the MTSR) or "decomposition" (sets T_D24 and TMRad).
     """
 
     specific_power: float  # W/kg at reference temperature, zero conversion
@@ -79,6 +84,21 @@ class ArrheniusSource:
     accumulated_fraction: float = 1.0
     gas_generating: bool = False
     tested_range: tuple[float, float] | None = None  # K, where the kinetics were measured
+    role: str = "decomposition"  # "synthesis" | "decomposition"
+    label: str | None = None
+
+
+@dataclass(frozen=True)
+class StartRelease:
+    """A synthesis given without kinetics: its accumulated heat is released at once at t = 0.
+
+    Releasing it at once is conservative for the temperature history; the heat per kg of
+    contents is ``accumulated_fraction * specific_heat_of_reaction``.
+    """
+
+    specific_heat_of_reaction: float  # J/kg
+    accumulated_fraction: float = 1.0
+    label: str | None = None
 
 
 @dataclass(frozen=True)
@@ -134,6 +154,8 @@ class ScreeningModel:
     conduction_radius: float | None = None  # m, half-thickness or radius (unstirred)
     density: float | None = None  # kg/m^3
     surface_coefficient: float | None = None  # W/(m^2 K), for the Biot number
+    released_at_start: tuple[StartRelease, ...] = ()  # syntheses without kinetics (see core.terms.start_temperature)
+    scenario: str = "heat-up"  # "cooling-failure" | "storage" | "heat-up"
 
     @property
     def heat_capacity(self) -> float:

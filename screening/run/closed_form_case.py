@@ -14,7 +14,7 @@ from screening.case.prepare import PreparedCase
 from screening.core.closed_form_history import balance_of, heat_rates, temperature
 from screening.core.model import ScreeningModel
 from screening.core.root_finding import brent_root as brentq
-from screening.core.terms import constant_power, model_terms
+from screening.core.terms import constant_power, model_start_temperature, model_terms
 from screening.core.time_to_limit import first_crossing, history_shape
 from screening.result import HISTORY_POINTS
 from screening.run.recovery import detection_and_recovery
@@ -158,7 +158,7 @@ def _conductance_and_steady(model: ScreeningModel) -> tuple[float, float | None]
         steady = Q0 / G
         return G, steady if math.isfinite(steady) else None
     if Q0 == 0:
-        return G, model.initial_temperature + sum(s.power * s.time_constant for s in model.decaying_sources) / \
+        return G, model_start_temperature(model) + sum(s.power * s.time_constant for s in model.decaying_sources) / \
             model.heat_capacity
     return G, None
 
