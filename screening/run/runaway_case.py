@@ -85,7 +85,7 @@ def screen_with_arrhenius(prepared: PreparedCase) -> dict:
     steady, ws = rc.steady_states(m, sources, P, model.ua, Ta, model.heating_media, conversion=X0, full_output=True)
     transient = bool(model.decaying_sources or model.fire_sources or T0 > Ta)
     if scenario != "cooling-failure" and model.mixing == "stirred":
-        add(w for w in ws if w != rc.WARNING_TRANSIENT_SOURCES or transient)
+        add(w for w in ws if w != rc.WARNING_TRANSIENT_SOURCES or (transient and scenario == "storage"))
     runs_away = hist.peak_is_ceiling or (hist.rising_at_end and steady.stable is None)
     stable = steady.stable if not runs_away else None
     final_X = [x if x is not None else x0 for x, x0 in zip(hist.final_conversion, X0)]
@@ -98,7 +98,7 @@ def screen_with_arrhenius(prepared: PreparedCase) -> dict:
     if scenario != "cooling-failure" and model.mixing == "stirred":
         _steady_state_statements(model, hist, steady, runs_away, T0, unit, warnings)
 
-    facts = HistoryFacts(hist.peak_temperature, hist.peak_time, bool(runs_away), bool(hist.rising_at_end), T0)
+    facts = HistoryFacts(hist.peak_temperature, hist.peak_time, bool(runs_away), bool(hist.rising_at_end), T0, stable)
     criteria, ws, used = scenario_criteria(prepared, facts)
     add(ws)
     _, decomposition = roles_of(model)

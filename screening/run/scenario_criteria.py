@@ -63,6 +63,7 @@ class HistoryFacts:
     runs_away: bool  # reaches the integration ceiling, or keeps rising with no stable state
     rising_at_end: bool  # still rising at the horizon
     start_temperature: float  # K, at t = 0 after any heat released at once
+    steady_temperature: float | None = None  # K, the stable state the history settles toward, if any
 
 
 def empty_criteria(scenario: str | None = None) -> dict:
@@ -219,8 +220,7 @@ def _cooling_failure(prepared, facts, out, decomposition, used) -> list[str]:
         warnings.append("No maximum technical temperature (MTT) is given (maximum_technical_temperature, or boiling "
                         "data for an open vessel): the criticality class is not determined.")
     td24 = out["t_d24_K"]
-    if not decomposition:
-        warnings.append(T_D24_MISSING)
+    if not decomposition:  # said in the summary, next to the MTSR
         if mtt is not None:
             out["criticality_classes_possible"] = list(rc.possible_criticality_classes(mtsr, mtt))
     else:
@@ -418,6 +418,10 @@ def _history_sentence(facts: HistoryFacts, unit: str) -> str:
     if facts.runs_away:
         return (f"In the computed history (with the heat loss as stated) the contents run away: they reach "
                 f"{temp(facts.peak_temperature, unit)} after {duration(facts.peak_time)}.")
+    if facts.rising_at_end and facts.steady_temperature is not None \
+            and abs(facts.peak_temperature - facts.steady_temperature) < 0.5:
+        return (f"In the computed history (with the heat loss as stated) the contents approach their stable steady "
+                f"state ({temp(facts.steady_temperature, unit)}) by the end of the horizon.")
     if facts.rising_at_end:
         return (f"In the computed history (with the heat loss as stated) the contents are still rising at the end of "
                 f"the horizon ({temp(facts.peak_temperature, unit)}).")

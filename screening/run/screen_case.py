@@ -9,6 +9,7 @@ from __future__ import annotations
 from screening import __version__
 from screening.case.prepare import PreparedCase
 from screening.core.fire_exposure import FIRE_CAUTIONS
+from screening.case.display import temp
 from screening.core.terms import model_start_temperature
 from screening.run.closed_form_case import ClosedFormValues, screen_closed_form
 from screening.run.monte_carlo import analyse
@@ -45,6 +46,7 @@ def screen_prepared(prepared: PreparedCase, input_hash: str | None = None,
         ua_W_per_K=model.ua,
         limit_exceeded_at_start=any(r["time_s"] == 0.0 for r in core["limits"]),
     )
+    result["start_release"] = _start_release(prepared)
     if result.get("maximum_technical_temperature_K") is None:
         result["maximum_technical_temperature_K"] = model.maximum_technical_temperature
     biot_and_validity(prepared, result)
@@ -76,6 +78,21 @@ def screen_prepared(prepared: PreparedCase, input_hash: str | None = None,
     return result
 
 
+def _start_release(prepared: PreparedCase) -> dict | None:
+    """Where the history starts when a synthesis without kinetics is released at t = 0 (said next to the history)."""
+    model = prepared.model
+    if not model.released_at_start:
+        return None
+    start = model_start_temperature(model)
+    unit = prepared.display_temperature_unit
+    names = ", ".join(r.label for r in model.released_at_start if r.label)
+    return {"temperature_K": start,
+            "note": (f"The history starts at {temp(start, unit)}, not at the process temperature "
+                     f"({temp(model.initial_temperature, unit)}): the synthesis given without kinetics ({names}) is "
+                     f"released at once at t = 0 (conservative: the times to the limits, the peak and the "
+                     f"alarm time assume the heat is there from the start; the real release is slower).")}
+
+
 def _closed_form_criteria(prepared: PreparedCase, core: dict) -> dict:
     """The scenario keys of a closed-form case: empty for a heat-up; MTSR and what follows for a cooling failure
     (a synthesis given as a decaying source, or a stated cooling failure)."""
@@ -83,7 +100,8 @@ def _closed_form_criteria(prepared: PreparedCase, core: dict) -> dict:
         return empty_criteria(prepared.model.scenario)
     start = model_start_temperature(prepared.model)
     rising = core["peak_time_s"] >= prepared.model.horizon * (1 - 1e-12) and core["peak_temperature_K"] > start
-    facts = HistoryFacts(core["peak_temperature_K"], core["peak_time_s"], False, rising, start)
+    facts = HistoryFacts(core["peak_temperature_K"], core["peak_time_s"], False, rising, start,
+                         core.get("steady_temperature_K"))
     criteria, warnings, _ = scenario_criteria(prepared, facts)
     core["warnings"].extend(w for w in warnings if w not in core["warnings"])
     return criteria
