@@ -23,7 +23,7 @@ def _pct(x) -> str:
     return "—" if x is None else f"{x * 100:.4g} %"
 
 
-def _criteria_rows(r: dict, u: str) -> list[tuple[str, str]]:
+def criteria_rows(r: dict, u: str) -> list[tuple[str, str]]:
     """The runaway criteria of the result's scenario, labelled for the reader."""
     scenario = r.get("scenario")
     has_decomposition = bool(r.get("decomposition_sources"))
@@ -129,6 +129,8 @@ def format_result(r: dict) -> str:
             det_text = f"at {duration(det)}" if det is not None else "never (alarm not reached)"
         resp = r.get("response_time_s")
         lines.append(f"Detection {det_text}; response time {duration(resp) if resp is not None else 'not given'}")
+    if r.get("detection_note"):
+        lines.append(_wrap(r["detection_note"], "  "))
     lines.append("")
     lines.append("Limits:")
     width = max(len(l["name"]) for l in r["limits"])
@@ -153,7 +155,7 @@ def format_result(r: dict) -> str:
                  for a in ad.get("limits", [])]
         lines.append(f"Adiabatic bound (UA = 0): {'; '.join(parts)}; rise from decaying sources "
                      f"{dtemp(ad.get('temperature_rise_K'), u)}")
-    rows = _criteria_rows(r, u)
+    rows = criteria_rows(r, u)
     if rows or r.get("runaway_summary"):
         lines.append("")
         lines.append(f"Runaway criteria ({r.get('scenario') or 'all sources'}):")

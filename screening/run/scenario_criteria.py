@@ -202,10 +202,12 @@ def _cooling_failure(prepared, facts, out, decomposition, used) -> list[str]:
                       "temperature_rise_K": float(rc.accumulated_temperature_rise(
                           cp, r.specific_heat_of_reaction, r.accumulated_fraction))})
     decaying_rise = 0.0
+    decaying_names = [source_name(s, i) for i, s in enumerate(prepared.spec.heat_sources) if s.kind == "decaying"]
     for j, d in enumerate(model.decaying_sources):
         rise = rc.decaying_temperature_rise(m, cp, d.power, d.time_constant)
         decaying_rise += rise
-        parts.append({"source": f"decaying source {j + 1}", "kind": "decaying" + (" (synthesis)" if d.role else ""),
+        name = decaying_names[j] if j < len(decaying_names) else f"decaying source {j + 1}"
+        parts.append({"source": name, "kind": "decaying, synthesis" if d.role else "decaying",
                       "accumulated_fraction": None, "temperature_rise_K": rise})
     synthesis_rise = sum((p["temperature_rise_K"] for p in parts if p["kind"].startswith("synthesis")), 0.0)
     mtsr = rc.mtsr(T0, synthesis_rise + decaying_rise)
@@ -434,10 +436,9 @@ def _history_sentence(facts: HistoryFacts, unit: str) -> str:
 
 def _cooling_failure_summary(model, facts, out, unit) -> str:
     T0, mtsr = model.initial_temperature, out["mtsr_K"]
-    text = [f"Cooling failure: MTSR {temp(mtsr, unit)} (process temperature {temp(T0, unit)} + "
-            f"{dtemp(out['synthesis_temperature_rise_K'], unit)} from the accumulated synthesis"
-            + (f" + {dtemp(out['decaying_temperature_rise_K'], unit)} from decaying sources"
-               if out["decaying_temperature_rise_K"] else "") + ")."]
+    terms = "; ".join(f"{p['source']} {dtemp(p['temperature_rise_K'], unit)}" for p in out["mtsr_parts"])
+    text = [f"Cooling failure: MTSR {temp(mtsr, unit)} = process temperature {temp(T0, unit)} + "
+            f"{dtemp(mtsr - T0, unit)} of accumulated heat" + (f" ({terms})." if terms else ".")]
     mtt = out["maximum_technical_temperature_K"]
     td24 = out["t_d24_K"]
     if not out["decomposition_sources"]:
