@@ -49,8 +49,8 @@ def response_beyond_horizon_warning(horizon: float) -> str:
 
 
 # Detection: never silently instant.
-DETECTION_ASSUMED = ("No detection block: detection is assumed at t = 0, the moment cooling is lost, so each margin is "
-                     "the time to the limit less the response time alone. That holds only if the failure is noticed "
+DETECTION_ASSUMED = ("No detection block: detection is assumed at t = 0, the start of the scenario, so each margin is "
+                     "the time to the limit less the response time alone. That holds only if the event is noticed "
                      "at once; state detection.alarm_temperature or detection.delay.")
 DETECTION_UNMONITORED = ("Storage without monitoring (no detection block): nobody is assumed to notice a rise, so the "
                          "time-to-limit check is against the storage period (the horizon): a limit reached within it "
