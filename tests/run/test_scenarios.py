@@ -520,3 +520,21 @@ def test_a_mix_of_sources_must_state_the_scenario():
     with pytest.raises(CaseError) as exc:  # storage has no synthesis
         screen(reactor([arrhenius(12, 80, 70, 160, role="synthesis")], scenario="storage"))
     assert exc.value.problems[0].field == "scenario"
+
+
+def test_monte_carlo_starts_where_the_history_starts():
+    # a synthesis released at t = 0 moves the start temperature of every sample (core.terms.start_temperature)
+    syn = {"kind": "arrhenius", "role": "synthesis", "specific_heat_of_reaction": "200 kJ/kg",
+           "accumulated_fraction": "30 %"}
+    data = reactor([syn, {"kind": "constant", "power": "10 kW"}], t0=60, ta=20, ua=50,
+                   maximum_technical_temperature="110 degC", limits=[{"name": "limit", "temperature": "100 degC"}],
+                   horizon="48 h")
+    data["uncertainty"] = {"samples": 2000, "seed": 3,
+                           "inputs": {"heat_loss.ua": {"distribution": "uniform", "low": "49.999 W/K",
+                                                       "high": "50.001 W/K"}}}
+    r = screen(data, rules=False)
+    # closed form from 60 + 30 = 90 degC (no wall): t = C/UA ln((T_inf - 363.15) / (T_inf - 373.15))
+    t_inf = 293.15 + 10e3 / 50.0
+    exact = 2e6 / 50.0 * math.log((t_inf - 363.15) / (t_inf - 373.15))
+    assert r["limits"][0]["time_s"] == pytest.approx(exact, rel=1e-9)
+    assert r["uncertainty"]["limits"][0]["p50_time_s"] == pytest.approx(exact, rel=1e-4)
