@@ -62,6 +62,17 @@ def write_atomic_text(path: Path, text: str) -> None:
         raise
 
 
+def _write_output_text(path: Path, text: str, option: str) -> None:
+    """Write a one-file output atomically; a path that cannot be written is the user's input problem."""
+    try:
+        write_atomic_text(path, text)
+    except OSError as exc:
+        from screening.case.schema import CaseError, FieldProblem
+
+        raise CaseError([FieldProblem(option, f"cannot write {path}: {exc.strerror or exc}; expected a path in an "
+                                              f"existing, writable folder")]) from None
+
+
 def history_csv(result: dict) -> str:
     from io import StringIO
 
@@ -96,6 +107,11 @@ def _guard(fn):
         template_error = _template_error(exc)
         if template_error:
             typer.echo(f"templates: {template_error}", err=True)
+            raise typer.Exit(EXIT_INVALID)
+        from screening.errors import InputError
+
+        if isinstance(exc, InputError):  # e.g. an output path that would replace a user's files
+            typer.echo(str(exc), err=True)
             raise typer.Exit(EXIT_INVALID)
         _fail_internal(exc)
 
@@ -135,6 +151,10 @@ def check(case: str = typer.Argument(..., help="Case file (YAML, TOML or JSON)."
     def body():
         from screening.run.pipeline import screen_file
 
+        if history is not None:
+            from screening.register.output_set import check_single_output
+
+            check_single_output(history, "--history", inputs=(case, rules))
         result = screen_file(case, rules)
         if history is not None:
             try:
@@ -162,8 +182,10 @@ def memo(case: str = typer.Argument(..., help="Case file (YAML, TOML or JSON).")
     """Write a PDF review memo for one case."""
 
     def body():
+        from screening.register.output_set import check_single_output
         from screening.run.pipeline import screen_file
 
+        check_single_output(output, "--output", inputs=(case, rules))
         result = screen_file(case, rules)
         from screening.report.memo import write_memo
         from screening.result import memo_view
@@ -247,10 +269,14 @@ def diff(old: Path = typer.Argument(..., help="Output folder of the earlier batc
     def body():
         from screening.register.diff import diff_runs, format_table, to_csv
 
+        if csv_out is not None:
+            from screening.register.output_set import check_single_output
+
+            check_single_output(csv_out, "--csv", inputs=(Path(old) / "results.json", Path(new) / "results.json"))
         changes = diff_runs(old, new, margin_tolerance_s=margin_tolerance * 3600.0)
         typer.echo(format_table(changes))
         if csv_out is not None:
-            write_atomic_text(csv_out, to_csv(changes))
+            _write_output_text(csv_out, to_csv(changes), "--csv")
         return EXIT_REVIEW if changes else EXIT_OK
 
     raise typer.Exit(_guard(body))
@@ -283,8 +309,8 @@ def margin(case: str = typer.Argument(..., help="Case file (YAML, TOML or JSON).
         spec = loaded.spec.model_copy(update={"uncertainty": None})
         prepared = prepare_case(spec)
         _, q, _ = locate_input(prepared.spec, vary)
-        lo = parse_bound(low, q) if low is not None else None
-        hi = parse_bound(high, q) if high is not None else None
+        lo = parse_bound(low, q, "--low") if low is not None else None
+        hi = parse_bound(high, q, "--high") if high is not None else None
         report = find_allowable_values(prepared, vary, lo, hi, points, rules)
         if json_out:
             typer.echo(json.dumps(report, indent=2, ensure_ascii=False, allow_nan=False))
@@ -313,14 +339,32 @@ def serve(host: str = typer.Option("127.0.0.1", "--host", help="Address to bind 
 
 
 @app.command()
-def example(output: Optional[Path] = typer.Argument(None, help="Where to write it (default: print).")):
+def example(output: Optional[Path] = typer.Argument(None, help="Where to write it (default: print); an existing "
+                                                                "file is not replaced.")):
     """Write an annotated example case to start from."""
     text = demo_cases().joinpath("example_case.yaml").read_text(encoding="utf-8")
     if output is None:
         typer.echo(text, nl=False)
-    else:
-        write_atomic_text(output, text)
+        return
+
+    def body():
+        from screening.register.output_set import check_single_output
+
+        check_single_output(output, "OUTPUT")
+        try:
+            same = output.exists() and output.read_bytes() == text.encode("utf-8")
+        except OSError:
+            same = False
+        if output.exists() and not same:
+            # the example is a starting point: a file already there is likely a case being edited
+            typer.echo(f"OUTPUT {output} already exists; heatscreen example does not replace a file. Give a new "
+                       f"file name, or delete the file first.", err=True)
+            return EXIT_INVALID
+        _write_output_text(output, text, "OUTPUT")
         typer.echo(f"wrote {output}")
+        return EXIT_OK
+
+    raise typer.Exit(_guard(body))
 
 
 @app.command()
@@ -339,7 +383,16 @@ def demo(out: Path = typer.Option(Path("heatscreen-demo"), "--out", help="Folder
     from screening.run.pipeline import screen_file
 
     def body():
-        out.mkdir(parents=True, exist_ok=True)
+        from screening.register.batch import run_batch
+        from screening.register.output_set import (
+            check_output_folder,
+            discard,
+            new_build_folder,
+            swap_in,
+            write_marker,
+        )
+
+        target = check_output_folder(out)  # the demo's files go in as one set, like a register's
         folder = demo_cases()
         names = sorted(p.name for p in folder.iterdir() if p.name.endswith(".yaml") and p.name != "example_case.yaml")
         results = []
@@ -349,26 +402,33 @@ def demo(out: Path = typer.Option(Path("heatscreen-demo"), "--out", help="Folder
             results.append(result)
             typer.echo(format_result(result))
             typer.echo("")
-        if memos:
-            try:
-                from screening.report.memo import write_memo
-            except ImportError:
-                write_memo = None
-            if write_memo is not None:
-                from screening.result import memo_view
+        build = new_build_folder(target)
+        try:
+            wrote_memos = False
+            if memos:
+                try:
+                    from screening.report.memo import write_memo
+                except ImportError:
+                    write_memo = None
+                if write_memo is not None:
+                    from screening.result import memo_view
 
-                demo_templates = Path(str(folder.joinpath("templates")))
-                for r in results:
-                    target = out / f"{r['id']}.pdf"
-                    write_memo(memo_view(r), target, templates_dir=demo_templates)
-                typer.echo(f"wrote {len(results)} memos to {out}/")
-        from screening.register.batch import run_batch
-
-        registers = folder.joinpath("registers")
+                    demo_templates = Path(str(folder.joinpath("templates")))
+                    for r in results:
+                        write_memo(memo_view(r), build / f"{r['id']}.pdf", templates_dir=demo_templates)
+                    wrote_memos = True
+            registers = folder.joinpath("registers")
+            summary = run_batch(Path(str(registers.joinpath("fenmarsh-register.csv"))), build / "register",
+                                base_path=Path(str(registers.joinpath("fenmarsh-base.yaml"))), memos=memos,
+                                templates_dir=Path(str(folder.joinpath("templates"))))
+            write_marker(build, "demo")
+            swap_in(build, target)
+        except BaseException:
+            discard(build)
+            raise
         reg_out = out / "register"
-        summary = run_batch(Path(str(registers.joinpath("fenmarsh-register.csv"))), reg_out,
-                            base_path=Path(str(registers.joinpath("fenmarsh-base.yaml"))), memos=memos,
-                            templates_dir=Path(str(folder.joinpath("templates"))))
+        if wrote_memos:
+            typer.echo(f"wrote {len(results)} memos to {out}/")
         counts = summary["verdict_counts"]
         typer.echo(f"Demo register: {summary['rows']} rows, {summary['valid']} screened ({counts['pass']} pass, "
                    f"{counts['review']} review, {counts['fail']} fail), {summary['invalid']} invalid on purpose "

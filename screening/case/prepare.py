@@ -100,7 +100,7 @@ def display_unit_from_texts(texts) -> str:
 
 def _shape(spec: CaseSpec) -> VesselShape | None:
     v = spec.vessel
-    if v is None:
+    if v is None or v.shape is None:  # a vessel block may give only its wall and venting
         return None
     val = lambda q: q.si if q is not None else None  # noqa: E731
     return VesselShape(v.shape, val(v.diameter), val(v.length), val(v.width), val(v.height), v.heads,
@@ -296,8 +296,8 @@ def _fire_source(s: FireSpec, index: int, shape, liquid_volume, problems, warnin
                                 liquid_height(shape, liquid_volume), elevation)
     else:
         problems.append(FieldProblem(f"heat_sources.{index}.wetted_area",
-                                     "a fire source needs wetted_area, or a vessel and the liquid volume "
-                                     "(contents.density) to compute it"))
+                                     "a fire source needs wetted_area, or the vessel's geometry (vessel.shape "
+                                     "and its dimensions) and the liquid volume (contents.density) to compute it"))
         return m.FireExposure(0.0, 0.0, F, s.drainage_and_firefighting)
     fire = api521_fire_heat_input(area, F, s.drainage_and_firefighting)
     warnings.extend(c for c in fire.cautions if c not in warnings)

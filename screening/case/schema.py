@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import difflib
 import reprlib
+import typing
 from dataclasses import dataclass
 from typing import Annotated, Any, Literal, Union
 
@@ -25,7 +26,14 @@ from pydantic import (
     model_validator,
 )
 
-from screening.case.units import DIMENSION_WORDS, DIMENSIONS, UnitError, parse_quantity
+from screening.case.units import (
+    DIMENSION_WORDS,
+    DIMENSIONS,
+    UnitError,
+    non_finite,
+    not_finite_message,
+    parse_quantity,
+)
 from screening.errors import InputError
 
 DEFAULT_HORIZON_TEXT = "72 h"
@@ -115,15 +123,21 @@ def quantity_field(owner: BaseModel, name: str) -> QuantityField | None:
 
 
 class Strict(BaseModel):
-    model_config = ConfigDict(extra="forbid", frozen=True, arbitrary_types_allowed=True)
+    # allow_inf_nan=False: plain-number fields (order) refuse inf and nan like quantities do
+    model_config = ConfigDict(extra="forbid", frozen=True, arbitrary_types_allowed=True, allow_inf_nan=False)
 
 
 ShapeName = Literal["vertical-cylinder", "horizontal-cylinder", "sphere", "box"]
 HeadName = Literal["flat", "hemispherical", "ellipsoidal", "torispherical"]
 
 
+GEOMETRY_FIELDS = ("diameter", "length", "width", "height", "heads", "crown_radius", "knuckle_radius")
+
+
 class VesselSpec(Strict):
-    shape: ShapeName
+    """The vessel: its geometry (optional where the contents' mass and UA are given), wall and venting."""
+
+    shape: ShapeName | None = None
     diameter: Q("length", "positive") = None
     length: Q("length", "positive") = None
     width: Q("length", "positive") = None
@@ -137,11 +151,12 @@ class VesselSpec(Strict):
 
     @model_validator(mode="after")
     def _dimensions(self):
-        need = {"vertical-cylinder": ("diameter", "length"), "horizontal-cylinder": ("diameter", "length"),
-                "sphere": ("diameter",), "box": ("length", "width", "height")}[self.shape]
-        missing = [n for n in need if getattr(self, n) is None]
-        if missing:
-            raise ValueError(f"a {self.shape} vessel needs {', '.join(missing)}")
+        if self.shape is not None:
+            need = {"vertical-cylinder": ("diameter", "length"), "horizontal-cylinder": ("diameter", "length"),
+                    "sphere": ("diameter",), "box": ("length", "width", "height")}[self.shape]
+            missing = [n for n in need if getattr(self, n) is None]
+            if missing:
+                raise ValueError(f"a {self.shape} vessel needs {', '.join(missing)}")
         if (self.wall_mass is None) != (self.wall_specific_heat is None):
             raise ValueError("wall_mass and wall_specific_heat go together: give both or neither")
         if self.heads != "torispherical" and (self.crown_radius or self.knuckle_radius):
@@ -409,11 +424,6 @@ class CaseSpec(Strict):
 
     @model_validator(mode="after")
     def _needs_vessel(self):
-        if self.vessel is None:
-            if self.contents.fill is not None:
-                raise ValueError("contents.fill needs a vessel to take the volume from")
-            if self.heat_loss.area in ("wetted", "total"):
-                raise ValueError(f"heat_loss.area: {self.heat_loss.area} needs a vessel to take the area from")
         names = [lim.name for lim in self.limits]
         dupes = sorted({n for n in names if names.count(n) > 1})
         if dupes:
@@ -569,6 +579,9 @@ def problems_from_validation_error(exc: ValidationError, data: Any = None) -> li
             msg = "must not be empty"
         elif etype in ("string_type",):
             msg = f"expected text, got {_show(err.get('input'))}"
+        elif etype == "finite_number" or (etype in ("float_parsing", "float_type", "greater_than_equal",
+                                                     "less_than_equal") and non_finite(err.get("input"))):
+            msg = not_finite_message(err.get("input"))
         elif etype in ("float_parsing", "float_type"):
             msg = f"expected a number, got {_show(err.get('input'))}"
         elif etype in ("bool_parsing", "bool_type"):
@@ -618,7 +631,7 @@ def validate_case_data(data: Any) -> CaseSpec:
         spec = CaseSpec.model_validate(data)
     except ValidationError as exc:
         raise CaseError(problems_from_validation_error(exc, data)) from None
-    problems = []
+    problems = _geometry_problems(spec)
     area = spec.heat_loss.area
     if area is not None:
         try:
@@ -641,6 +654,32 @@ def validate_case_data(data: Any) -> CaseSpec:
     if problems:
         raise CaseError(problems)
     return spec
+
+
+_SHAPES = ", ".join(typing.get_args(ShapeName))
+
+
+def _geometry_problems(spec: CaseSpec) -> list[FieldProblem]:
+    """What needs the vessel's geometry (shape and dimensions), each on its own field."""
+    problems = []
+    vessel = spec.vessel
+    has_shape = vessel is not None and vessel.shape is not None
+    if vessel is not None and not has_shape:
+        given = [n for n in GEOMETRY_FIELDS if n in vessel.model_fields_set and getattr(vessel, n) is not None]
+        if given:
+            problems.append(FieldProblem("vessel.shape", (
+                f"required with {', '.join(f'vessel.{n}' for n in given)} (they describe the vessel's geometry); "
+                f"expected one of: {_SHAPES}")))
+    if not has_shape:
+        need = "vessel.shape and its dimensions" if vessel is not None else "a vessel (shape and dimensions)"
+        if spec.contents.fill is not None:
+            problems.append(FieldProblem("contents.fill", (
+                f"needs {need} to take the volume from; or give contents.mass (or volume with density)")))
+        if spec.heat_loss.area in ("wetted", "total"):
+            problems.append(FieldProblem("heat_loss.area", (
+                f"'{spec.heat_loss.area}' needs {need} to take the area from; or give an area such as "
+                f"'12 m^2', or ua")))
+    return problems
 
 
 def case_json_schema() -> dict:

@@ -16,12 +16,14 @@ import numpy as np
 
 from screening.case.paths import locate_quantity, path_parts
 from screening.case.schema import CaseError, CaseSpec, FieldProblem
-from screening.case.units import UnitError, parse_quantity
+from screening.case.units import FINITE_EXPECTED, UnitError, non_finite, not_finite_message, parse_quantity
 
 DEFAULT_SAMPLES = 10_000
 DEFAULT_SEED = 20261201
 MAX_SAMPLES = 1_000_000
 DISTRIBUTIONS = ("uniform", "normal", "triangular", "lognormal")
+DISTRIBUTION_PARAMETERS = {"uniform": {"low", "high", "half_width"}, "triangular": {"low", "mode", "high", "half_width"},
+                           "normal": {"mean", "sd"}, "lognormal": {"median", "gsd"}}
 
 
 # ------------------------------------------------------------------ parsing the block
@@ -52,6 +54,10 @@ def _param(raw, dimension: str, nominal: float, where: str, problems: list, rela
     """Parse one distribution parameter; relative '%' values are a fraction of the nominal value."""
     if raw is None:
         return None
+    if non_finite(raw):
+        problems.append(FieldProblem(where, not_finite_message(raw, "a quantity with its unit" + (
+            ", or a spread as a percentage of the case's own value (e.g. '10 %')" if relative_ok else ""))))
+        return None
     text = raw if isinstance(raw, str) else None
     if isinstance(raw, (int, float)) and not isinstance(raw, bool):
         if dimension == "fraction":
@@ -72,7 +78,12 @@ def _param(raw, dimension: str, nominal: float, where: str, problems: list, rela
         except ValueError:
             problems.append(FieldProblem(where, f"'{text}' is not a percentage"))
             return None
-        return abs(nominal) * pct / 100.0
+        spread = abs(nominal) * pct / 100.0
+        if not math.isfinite(spread):
+            problems.append(FieldProblem(where, f"'{text}' of the case's own value is not a finite number; "
+                                                f"{FINITE_EXPECTED}"))
+            return None
+        return spread
     dim = "temperature_difference" if (difference and dimension == "temperature") else dimension
     try:
         return parse_quantity(text, dim).value
@@ -130,8 +141,7 @@ def plan_uncertainty(spec: CaseSpec) -> UncertaintyPlan | None:
             problems.append(FieldProblem(f"{where}.distribution", f"'{kind}' is not allowed; expected one of "
                                                                   f"{', '.join(DISTRIBUTIONS)}"))
             continue
-        keys = {"uniform": {"low", "high", "half_width"}, "triangular": {"low", "mode", "high", "half_width"},
-                "normal": {"mean", "sd"}, "lognormal": {"median", "gsd"}}[kind]
+        keys = DISTRIBUTION_PARAMETERS[kind]
         for k in dist:
             if k != "distribution" and k not in keys:
                 problems.append(FieldProblem(f"{where}.{k}", f"unknown parameter '{k}' for a {kind} distribution; "
@@ -169,7 +179,11 @@ def plan_uncertainty(spec: CaseSpec) -> UncertaintyPlan | None:
         else:
             median = _param(dist.get("median"), dim, nominal, f"{where}.median", problems, False)
             gsd = dist.get("gsd")
-            if isinstance(gsd, bool) or not isinstance(gsd, (int, float)) or not gsd > 1:
+            if non_finite(gsd):
+                problems.append(FieldProblem(f"{where}.gsd", not_finite_message(
+                    gsd, "the geometric standard deviation, a number greater than 1 (e.g. 1.5)")))
+                gsd = None
+            elif isinstance(gsd, bool) or not isinstance(gsd, (int, float)) or not gsd > 1:
                 problems.append(FieldProblem(f"{where}.gsd", f"the geometric standard deviation must be a number "
                                                              f"greater than 1, got {gsd!r}"))
             median = nominal if median is None else median

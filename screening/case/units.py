@@ -3,7 +3,10 @@
 This is the only module that touches pint.  Quantities are written as text
 (``"2.4 m"``, ``"75 degF"``, ``"1.2e5 Btu/h"``).  A temperature unit inside a
 compound unit (``Btu/(lb*degF)``, ``W/(m^2*degC)``) means a temperature
-*difference* and is converted as such.
+*difference* and is converted as such.  A temperature field (and a temperature
+difference field) takes exactly one temperature unit, from the accepted spellings
+below, optionally in redundant parentheses; anything else is refused, never read
+as a multiplier.
 """
 from __future__ import annotations
 
@@ -59,29 +62,55 @@ DIMENSION_WORDS = {
     "fraction": "a fraction (e.g. 70 %, 0.7)",
 }
 
-_OFFSET_TEMPERATURES = {
-    "degC": "delta_degC", "°C": "delta_degC", "celsius": "delta_degC", "degree_Celsius": "delta_degC",
-    "degF": "delta_degF", "°F": "delta_degF", "fahrenheit": "delta_degF", "degree_Fahrenheit": "delta_degF",
-    "C": "delta_degC", "F": "delta_degF",
+# Temperature scales: scale -> (K per degree, offset in K), so that T[K] = value * scale + offset.
+# By definition of the scales: T[K] = T[degC] + 273.15; T[K] = (T[degF] + 459.67) * 5/9;
+# T[K] = T[degR] * 5/9; T[K] = T[degRe] * 5/4 + 273.15.
+_SCALES: dict[str, tuple[float, float]] = {
+    "K": (1.0, 0.0),
+    "degC": (1.0, 273.15),
+    "degF": (5.0 / 9.0, 459.67 * 5.0 / 9.0),
+    "degR": (5.0 / 9.0, 0.0),
+    "degRe": (5.0 / 4.0, 273.15),
 }
-_TEMPERATURE_UNITS = {
-    # single temperature unit text -> (scale to K, offset in K)
-    "K": (1.0, 0.0), "kelvin": (1.0, 0.0),
-    "degC": (1.0, 273.15), "°C": (1.0, 273.15), "C": (1.0, 273.15), "celsius": (1.0, 273.15),
-    "degree_Celsius": (1.0, 273.15),
-    "degF": (5.0 / 9.0, 459.67 * 5.0 / 9.0), "°F": (5.0 / 9.0, 459.67 * 5.0 / 9.0),
-    "F": (5.0 / 9.0, 459.67 * 5.0 / 9.0), "fahrenheit": (5.0 / 9.0, 459.67 * 5.0 / 9.0),
-    "degree_Fahrenheit": (5.0 / 9.0, 459.67 * 5.0 / 9.0),
-    "degR": (5.0 / 9.0, 0.0), "°R": (5.0 / 9.0, 0.0), "rankine": (5.0 / 9.0, 0.0), "R": (5.0 / 9.0, 0.0),
+# The spellings of one temperature, by scale: pint's name, symbol and aliases of kelvin,
+# degree_Celsius, degree_Fahrenheit, degree_Rankine and degree_Reaumur, plus C, F and R, which a
+# temperature field has always read as degC, degF and degR.  A temperature field takes exactly one
+# of these (optionally in redundant parentheses) and nothing else: no prefixes (mK), no other
+# temperature units of pint's (planck_temperature, atomic_unit_of_temperature), no expressions
+# (degC*m/m).  tests/case/test_temperature_units.py checks this table against pint's registry.
+_TEMPERATURE_SPELLINGS: dict[str, tuple[str, ...]] = {
+    "K": ("K", "kelvin", "degK", "°K", "degree_Kelvin", "degreeK"),
+    "degC": ("degC", "°C", "celsius", "degree_Celsius", "degreeC", "C"),
+    "degF": ("degF", "°F", "fahrenheit", "degree_Fahrenheit", "degreeF", "F"),
+    "degR": ("degR", "°R", "rankine", "degree_Rankine", "degreeR", "R"),
+    "degRe": ("degRe", "°Re", "reaumur", "degree_Reaumur", "degreeRe", "degree_Réaumur", "réaumur"),
 }
-_DIFFERENCE_UNITS = {
-    "K": 1.0, "kelvin": 1.0, "delta_degC": 1.0, "degC": 1.0, "°C": 1.0, "C": 1.0,
-    "delta_degF": 5.0 / 9.0, "degF": 5.0 / 9.0, "°F": 5.0 / 9.0, "F": 5.0 / 9.0,
-    "degR": 5.0 / 9.0, "R": 5.0 / 9.0, "°R": 5.0 / 9.0, "rankine": 5.0 / 9.0,
+# pint's difference units of the offset scales (a temperature difference field also takes these).
+_DIFFERENCE_SPELLINGS: dict[str, tuple[str, ...]] = {
+    "degC": ("delta_degC", "delta_celsius", "delta_degree_Celsius", "delta_degreeC",
+             "Δ°C", "ΔdegC", "Δcelsius", "ΔdegreeC"),
+    "degF": ("delta_degF", "delta_fahrenheit", "delta_degree_Fahrenheit", "delta_degreeF",
+             "Δ°F", "ΔdegF", "Δfahrenheit", "ΔdegreeF"),
+    "degRe": ("delta_degRe", "delta_reaumur", "delta_degree_Reaumur", "delta_degreeRe", "delta_degree_Réaumur",
+              "delta_réaumur", "Δ°Re", "ΔdegRe", "Δreaumur", "ΔdegreeRe", "Δdegree_Réaumur", "Δréaumur"),
 }
+_SCALE_OF = {spelling: scale for scale, spellings in _TEMPERATURE_SPELLINGS.items() for spelling in spellings}
+_DIFFERENCE_SCALE_OF = {spelling: scale for scale, spellings in _DIFFERENCE_SPELLINGS.items()
+                        for spelling in spellings}
+# Inside a compound unit of another dimension every temperature unit is a difference: the spellings of the
+# offset scales are swapped for pint's difference units (C and F stay coulomb and farad there).
+_OFFSET_TO_DIFFERENCE = {spelling: _DIFFERENCE_SPELLINGS[scale][0] for scale in ("degC", "degF", "degRe")
+                         for spelling in _TEMPERATURE_SPELLINGS[scale] if spelling not in ("C", "F")}
+# The same spellings with case and spaces ignored, to suggest the right one for 'Celsius', 'deg C', '°c'.
+_SPELLING_GUESS: dict[str, str] = {}
+for _spelling in (*_SCALE_OF, *_DIFFERENCE_SCALE_OF):
+    _SPELLING_GUESS.setdefault(_spelling.casefold(), _spelling)
 
 _NUMBER = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*?)\s*$")
-_TOKEN = re.compile(r"[A-Za-z_°µμ][A-Za-z_0-9°µμ]*")
+_WORD = re.compile(r"(?:[^\W\d]|°)(?:\w|°)*")  # a unit name: letters (any script), digits, _, °
+# infinity and not-a-number as YAML, JSON, TOML and Python spell them (.inf, -.Inf, Infinity, nan, .NaN ...)
+_NON_FINITE = re.compile(r"^\s*[-+]?\.?(?:inf(?:inity)?|nan)(?![A-Za-z0-9_])|^\s*[-+]?∞", re.IGNORECASE)
+FINITE_EXPECTED = "a finite number is expected"
 
 
 class UnitError(InputError, ValueError):
@@ -116,13 +145,98 @@ def _normalise_unit_text(unit: str) -> str:
 
 def _compound_to_differences(unit: str) -> str:
     """Inside a compound unit every temperature unit is a difference."""
+    return _WORD.sub(lambda m: _OFFSET_TO_DIFFERENCE.get(m.group(0), m.group(0)), unit)
 
-    def swap(m: re.Match) -> str:
-        word = m.group(0)
-        return _OFFSET_TEMPERATURES.get(word, word) if word in ("degC", "°C", "celsius", "degree_Celsius",
-                                                               "degF", "°F", "fahrenheit", "degree_Fahrenheit") else word
 
-    return _TOKEN.sub(swap, unit)
+def strip_parentheses(unit: str) -> str:
+    """The unit text without redundant outer parentheses: '((degC))' -> 'degC'; '(K)*(K)' is left alone."""
+    text = unit.strip()
+    while text.startswith("(") and text.endswith(")"):
+        depth = 0
+        for i, ch in enumerate(text):
+            depth += ch == "("
+            depth -= ch == ")"
+            if depth == 0 and i < len(text) - 1:
+                return text  # the first parenthesis closes before the end
+        text = text[1:-1].strip()
+    return text
+
+
+def temperature_scale(unit: str) -> str | None:
+    """The scale ("K", "degC", "degF", "degR", "degRe") of one accepted temperature unit text, else None."""
+    return _SCALE_OF.get(strip_parentheses(unit))
+
+
+def _accepted_temperature_units(dimension: str) -> str:
+    text = "; ".join(f"{scale} (also {', '.join(spellings[1:])})"
+                     for scale, spellings in _TEMPERATURE_SPELLINGS.items())
+    if dimension == "temperature_difference":
+        text += "; or a difference unit: " + "; ".join(
+            f"{spellings[0]} (also {', '.join(spellings[1:])})" for spellings in _DIFFERENCE_SPELLINGS.values())
+    return text
+
+
+def _temperature_factor(unit: str, dimension: str) -> tuple[float, float]:
+    """(scale, offset) of a temperature or temperature-difference field: exactly one temperature unit."""
+    text = strip_parentheses(unit)
+    scale = _SCALE_OF.get(text)
+    if scale is not None:
+        factor, offset = _SCALES[scale]
+        return (factor, offset) if dimension == "temperature" else (factor, 0.0)
+    scale = _DIFFERENCE_SCALE_OF.get(text)
+    if scale is not None and dimension == "temperature_difference":
+        return (_SCALES[scale][0], 0.0)
+    raise UnitError(f"{_why_not_a_temperature_unit(unit, text, dimension)}; expected {DIMENSION_WORDS[dimension]}, "
+                    f"written with one of the accepted units: {_accepted_temperature_units(dimension)}")
+
+
+def _why_not_a_temperature_unit(unit: str, text: str, dimension: str) -> str:
+    """What is wrong with a unit text refused in a temperature field (pint is loaded only to say so)."""
+    if text == "":
+        return "a number without a unit"
+    if text in _DIFFERENCE_SCALE_OF:
+        return f"'{unit}' is a temperature difference, not a temperature"
+    guess = _SPELLING_GUESS.get("".join(text.split()).casefold())
+    if guess is not None:
+        return f"'{unit}' is not a unit as written (units are case-sensitive; did you mean '{guess}'?)"
+    import pint
+
+    ureg = registry()
+    try:
+        dimensionality = ureg.get_dimensionality(_normalise_unit_text(text))
+    except pint.errors.UndefinedUnitError as exc:
+        bad = ", ".join(f"'{u}'" for u in getattr(exc, "unit_names", ()) or ()) or f"'{unit}'"
+        return f"unknown unit {bad}"
+    except Exception:
+        return f"cannot read the unit '{unit}'"
+    if dimensionality != ureg.get_dimensionality("[temperature]"):
+        return f"'{unit}' is not {DIMENSION_WORDS[dimension].split(' (')[0]}"
+    if _WORD.fullmatch(text):
+        return (f"'{unit}' is not one of the temperature units accepted here (prefixed units such as mK and units "
+                f"far from process temperatures are refused)")
+    return f"'{unit}' is an expression, not one temperature unit"
+
+
+def _refuse_odd_temperature_units(ureg, unit: str, text: str, dimension: str) -> None:
+    """Refuse a compound unit holding a temperature unit that is not one of the accepted spellings
+    (``W/mK`` is watts per millikelvin, ``W/planck_temperature`` is absurd)."""
+    import pint
+
+    temperature = ureg.get_dimensionality("[temperature]")
+    for word in _WORD.findall(text):
+        if word in _SCALE_OF or word in _DIFFERENCE_SCALE_OF:
+            continue
+        try:
+            if ureg.get_dimensionality(word) != temperature:
+                continue
+        except (pint.errors.PintError, ValueError, TypeError, KeyError, AttributeError):
+            continue
+        hint = ""
+        if word.startswith("m") and word[1:] in _SCALE_OF:
+            hint = f" ('{word}' reads as milli-{word[1:]}; for metre times {word[1:]} write m*{word[1:]})"
+        raise UnitError(f"'{unit}' contains '{word}', which is not one of the accepted temperature units{hint}; "
+                        f"expected {DIMENSION_WORDS[dimension]}, with K, degC, degF, degR or degRe (or another "
+                        f"spelling of one of them) as its temperature unit")
 
 
 # Units common on data sheets, by dimension. Their SI factors are computed with pint once and
@@ -188,14 +302,9 @@ def unit_factor(unit: str, dimension: str) -> tuple[float, float]:
 
 
 def _pint_factor(unit: str, dimension: str) -> tuple[float, float]:
+    if dimension in ("temperature", "temperature_difference"):
+        return _temperature_factor(unit, dimension)
     unit = _normalise_unit_text(unit)
-    if dimension == "temperature":
-        if unit in _TEMPERATURE_UNITS:
-            return _TEMPERATURE_UNITS[unit]
-        if unit.startswith("delta_") or unit in ("delta_degC", "delta_degF"):
-            raise UnitError(f"'{unit}' is a temperature difference; expected {DIMENSION_WORDS[dimension]}")
-    if dimension == "temperature_difference" and unit in _DIFFERENCE_UNITS:
-        return (_DIFFERENCE_UNITS[unit], 0.0)
     if dimension == "fraction":
         if unit in ("%", "percent"):
             return (0.01, 0.0)
@@ -217,6 +326,7 @@ def _pint_factor(unit: str, dimension: str) -> tuple[float, float]:
         raise UnitError(f"cannot read the unit '{unit}'; expected {DIMENSION_WORDS[dimension]}") from None
     if q.dimensionality != ureg.get_dimensionality(dim_text):
         raise UnitError(f"'{unit}' is not {DIMENSION_WORDS[dimension].split(' (')[0]}; expected {DIMENSION_WORDS[dimension]}")
+    _refuse_odd_temperature_units(ureg, unit, text, dimension)
     try:
         scale = float(q.to(ureg.parse_units(si_text.replace("K", "kelvin")) if dimension != "fraction" else "dimensionless").magnitude)
     except Exception:  # pragma: no cover
@@ -224,8 +334,42 @@ def _pint_factor(unit: str, dimension: str) -> tuple[float, float]:
     return (scale, 0.0)
 
 
+def non_finite(value) -> bool:
+    """Whether a number, or a text that starts with one, is infinite or not a number.
+
+    Every spelling counts: a float or int from any file format, ``inf``, ``-.inf``, ``Infinity``,
+    ``nan``, ``.NaN`` or ``1e999`` (too large for a float) at the start of a text such as ``"inf kg"``.
+    """
+    if isinstance(value, bool):
+        return False
+    if isinstance(value, (int, float)):
+        try:
+            return not math.isfinite(value)
+        except OverflowError:  # an integer too large for a float
+            return True
+    if isinstance(value, str):
+        if _NON_FINITE.match(value):
+            return True
+        m = _NUMBER.match(value.strip().rstrip("%"))
+        return bool(m) and not math.isfinite(float(m.group(1)))
+    return False
+
+
+def not_finite_message(value, expected: str | None = None) -> str:
+    """'<value> is not a finite number; a finite number is expected[: <expected>]'."""
+    if isinstance(value, str):
+        shown = f"'{value}'" if len(value) <= 60 else f"'{value[:57]}...'"
+    elif isinstance(value, float):
+        shown = str(value)
+    else:
+        shown = "a whole number of more than 308 digits"
+    return f"{shown} is not a finite number; {FINITE_EXPECTED}" + (f": {expected}" if expected else "")
+
+
 def split_number(text: str) -> tuple[float, str]:
-    """Split '12.5 kg' into (12.5, 'kg'); raises UnitError if there is no leading number."""
+    """Split '12.5 kg' into (12.5, 'kg'); raises UnitError if there is no leading finite number."""
+    if non_finite(text):
+        raise UnitError(not_finite_message(text))
     m = _NUMBER.match(text)
     if not m:
         raise UnitError(f"'{text}' does not start with a number")
@@ -239,6 +383,8 @@ def parse_quantity(value, dimension: str) -> Parsed:
     """
     if isinstance(value, bool):
         raise UnitError(f"expected {DIMENSION_WORDS[dimension]}, got {value!r}")
+    if non_finite(value):
+        raise UnitError(not_finite_message(value, DIMENSION_WORDS[dimension]))
     if isinstance(value, (int, float)):
         if dimension == "fraction":
             v = float(value)
@@ -261,16 +407,8 @@ def temperature_unit_of(text: str) -> str | None:
         _, unit = split_number(text)
     except UnitError:
         return None
-    unit = unit.strip()
-    if unit in ("degC", "°C", "C", "celsius", "degree_Celsius"):
-        return "degC"
-    if unit in ("degF", "°F", "F", "fahrenheit", "degree_Fahrenheit"):
-        return "degF"
-    if unit in ("K", "kelvin"):
-        return "K"
-    if unit in ("degR", "°R", "R", "rankine"):
-        return "degR"
-    return None
+    scale = temperature_scale(unit)
+    return scale if scale in ("degC", "degF", "K", "degR") else None
 
 
 def kelvin_to(value_k: float, unit: str) -> float:

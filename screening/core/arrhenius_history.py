@@ -49,8 +49,12 @@ time to maximum rate).
 Semenov, N. N. (1928), thermal explosion theory for a well-stirred mass.
 
 Hairer, E. and Wanner, G., *Solving Ordinary Differential Equations II*,
-Springer (1996), section IV.8 (Radau IIA, as implemented in
+2nd ed., Springer (1996), section IV.8 (Radau IIA, as implemented in
 ``scipy.integrate.Radau``).
+
+Hairer, E., Lubich, C. and Wanner, G., *Geometric Numerical Integration*, 2nd
+ed., Springer (2006), section VIII.2 (time transformations, as the stretched
+time s here).
 """
 from __future__ import annotations
 
@@ -99,10 +103,14 @@ N_GRID = 401
 class LimitCrossing:
     """First time the contents reach one limit temperature.
 
+    Attributes
+    ----------
     name : str
-    temperature : float, K
-    time : float or None, s (None: not reached within the horizon)
-    warnings : tuple of str, cautions that apply to this time
+    temperature : float, [K]
+    time : float or None, [s]
+        None: not reached within the horizon.
+    warnings : tuple of str
+        Cautions that apply to this time.
     """
 
     name: str
@@ -113,19 +121,32 @@ class LimitCrossing:
 
 @dataclass(frozen=True)
 class BoilingSummary:
-    """What boiling did to the history.
+    r"""What boiling did to the history.
 
-    boiling_point : K
-    latent_heat : J/kg
-    venting : "open" or "closed"
-    tempering_credited : bool, True when the temperature was held at the boiling point
-    time_to_boil : s or None, first time the boiling point was reached
-    flash_mass : kg, flashed at t = 0 when the contents start above the boiling point
-    peak_boil_off_rate : kg/s (0 if never boiled; the flash is not a rate)
-    boiled_off_mass : kg within the horizon, flash included
-    time_to_dry : s or None, when all contents had boiled off
-    boiling_at_end : bool, still boiling when the horizon ended
+    Attributes
+    ----------
+    boiling_point : float, [K]
+    latent_heat : float, [J/kg]
+    venting : {"open", "closed"}
+    tempering_credited : bool
+        True when the temperature was held at the boiling point.
+    time_to_boil : float or None, [s]
+        First time the boiling point was reached.
+    flash_mass : float, [kg]
+        Flashed at t = 0 when the contents start above the boiling point.
+    peak_boil_off_rate : float, [kg/s]
+        0 if never boiled; the flash is not a rate.
+    boiled_off_mass : float, [kg]
+        Within the horizon, flash included.
+    time_to_dry : float or None, [s]
+        When all contents had boiled off.
+    boiling_at_end : bool
+        Still boiling when the horizon ended.
     warnings : tuple of str
+
+    Notes
+    -----
+    While tempered, :math:`\dot m_{vap} = (Q_{gen} - Q_{loss}) / L` at :math:`T = T_b`.
     """
 
     boiling_point: float
@@ -143,42 +164,53 @@ class BoilingSummary:
 
 @dataclass(frozen=True)
 class NumericHistory:
-    """Temperature history of one vessel, SI.
+    """Temperature history of one vessel, SI (returned by :func:`integrate_history`).
 
-    Sampled arrays (one entry per sample, solver steps plus an even grid plus
+    Sampled arrays have one entry per sample (solver steps plus an even grid plus
     event times, increasing time; at a boiling transition two samples may share
-    a time):
+    a time), shape (n_samples,) unless stated.
 
-    time : s
-    temperature : K
-    heat_generation : W, constant + decaying + fire + Arrhenius sources
-    heat_loss : W, to ambient and to heating media, UA (T - Ta) + sum ua_k (T - Tm_k)
-        (negative when the media heat the contents)
-    heat_loss_ambient : W, UA (T - Ta) only
-    conversion : array (n_arrhenius, n_samples), dimensionless; rows of sources
-        without a heat of reaction are NaN (their conversion is not tracked)
-    contents_mass : kg (falls while boiling)
-    boil_off_rate : kg/s
-    energy_generated, energy_lost : J, running integrals of the two powers
-
-    Scalars:
-
-    limits : tuple of LimitCrossing, in the order of ``model.limits``
-    peak_temperature : K, highest temperature within [0, stop_time]
-    peak_time : s, first time it was reached
-    peak_is_ceiling : bool, the runaway passed the ceiling, so the true peak is
-        higher than ``peak_temperature``
-    rising_at_end : bool, dT/dt > 0 when the integration stopped at the horizon
-        (also True for contents still creeping up towards a stable steady state;
-        see ``end_heating_rate``)
-    end_heating_rate : K/s, dT/dt at the last sample
-    stop_reason : "horizon", "ceiling", "dry", "step-limit" or "solver-failure"
-    stop_time : s
-    ceiling_temperature : K
+    Attributes
+    ----------
+    time : numpy.ndarray, [s]
+    temperature : numpy.ndarray, [K]
+    heat_generation : numpy.ndarray, [W]
+        Constant + decaying + fire + Arrhenius sources.
+    heat_loss : numpy.ndarray, [W]
+        To ambient and to heating media, UA (T - Ta) + sum ua_k (T - Tm_k)
+        (negative when the media heat the contents).
+    heat_loss_ambient : numpy.ndarray, [W]
+        UA (T - Ta) only.
+    conversion : numpy.ndarray, shape (n_arrhenius, n_samples), [-]
+        Rows of sources without a heat of reaction are NaN (their conversion is not tracked).
+    contents_mass : numpy.ndarray, [kg]
+        Falls while boiling.
+    boil_off_rate : numpy.ndarray, [kg/s]
+    energy_generated, energy_lost : numpy.ndarray, [J]
+        Running integrals of the two powers.
+    limits : tuple of LimitCrossing
+        In the order of ``model.limits``.
+    peak_temperature : float, [K]
+        Highest temperature within [0, stop_time].
+    peak_time : float, [s]
+        First time it was reached.
+    peak_is_ceiling : bool
+        The runaway passed the ceiling, so the true peak is higher than ``peak_temperature``.
+    rising_at_end : bool
+        dT/dt > 0 when the integration stopped at the horizon (also True for contents
+        still creeping up towards a stable steady state; see ``end_heating_rate``).
+    end_heating_rate : float, [K/s]
+        dT/dt at the last sample.
+    stop_reason : {"horizon", "ceiling", "dry", "step-limit", "solver-failure"}
+    stop_time : float, [s]
+    ceiling_temperature : float, [K]
     boiling : BoilingSummary or None
-    final_conversion : tuple of float or None per Arrhenius source
-    warnings : tuple of str, cautions that apply to the whole history
-    peak_warnings : tuple of str, cautions on the peak temperature
+    final_conversion : tuple of (float or None), [-]
+        One per Arrhenius source.
+    warnings : tuple of str
+        Cautions that apply to the whole history.
+    peak_warnings : tuple of str
+        Cautions on the peak temperature.
     """
 
     time: np.ndarray
@@ -206,14 +238,14 @@ class NumericHistory:
     peak_warnings: tuple[str, ...] = ()
 
     def time_to(self, name: str) -> float | None:
-        """Time to the limit called ``name``, s (None if not reached)."""
+        """Time to the limit called ``name``, [s] (None if not reached; KeyError if no such limit)."""
         for lim in self.limits:
             if lim.name == name:
                 return lim.time
         raise KeyError(name)
 
     def limit(self, name: str) -> LimitCrossing:
-        """The :class:`LimitCrossing` called ``name``."""
+        """The :class:`LimitCrossing` called ``name`` (KeyError if there is none)."""
         for lim in self.limits:
             if lim.name == name:
                 return lim
@@ -289,10 +321,14 @@ class _Balance:
         return x
 
     def conversion_of_state(self, j, v):
-        """Conversion of tracked source j from its state variable (float or array)."""
+        """Conversion of tracked source j from its state variable (float or array), within [0, 1].
+
+        The integrator may carry X a few rounding errors past 1 as a reaction runs to
+        completion (the rate there is floored, not zero); the conversion reported is clipped.
+        """
         if self.u_mode[j]:
-            return 1.0 - np.maximum(v, 0.0) ** (1.0 / (1.0 - self.order[j]))
-        return v
+            return np.clip(1.0 - np.maximum(v, 0.0) ** (1.0 / (1.0 - self.order[j])), 0.0, 1.0)
+        return np.clip(v, 0.0, 1.0)
 
     def heat_capacity(self, mb):
         """C = (m0 - m_boiled) c + C_wall, J/K."""
@@ -665,16 +701,23 @@ def integrate_history(model: ScreeningModel, stop_temperature: float | None = No
     Parameters
     ----------
     model : ScreeningModel
-        The vessel in SI units (kg, J/(kg K), J/K, W/K, K, s, W, W/kg, J/mol, J/kg).
-    stop_temperature : float, optional, K
+        The vessel in SI units ([kg], [J/(kg K)], [J/K], [W/K], [K], [s], [W], [W/kg],
+        [J/mol], [J/kg]).
+    stop_temperature : float, optional, [K]
         Stop once the contents reach this temperature.  Default: the ceiling
         max(2000 K, highest limit + 100 K, initial temperature + 100 K).
 
     Returns
     -------
     NumericHistory
-        Sampled history, first time to each limit (s), peak temperature (K),
+        Sampled history, first time to each limit [s], peak temperature [K],
         boiling summary and warning texts.
+
+    Raises
+    ------
+    ValueError
+        A model value out of range (non-positive mass, specific heat or temperature,
+        negative UA, an Arrhenius parameter out of range, ...).
 
     Notes
     -----
@@ -696,10 +739,43 @@ def integrate_history(model: ScreeningModel, stop_temperature: float | None = No
     most (ceiling / 1e9 K/s), about 2e-6 s, and a warning is attached to that
     limit.
 
+    Well stirred: one temperature for contents and wall (the lumped model); for
+    unstirred contents this understates the hot spot and a warning says so.
+
     References
     ----------
     Townsend, D. I. and Tou, J. C., Thermochimica Acta 37 (1980) 1-30.
     Semenov, N. N. (1928), thermal explosion of a well-stirred mass.
+    Hairer, E. and Wanner, G., *Solving Ordinary Differential Equations II*, 2nd ed.,
+    Springer (1996), section IV.8 (Radau IIA).
+
+    Examples
+    --------
+    Incropera et al., Example 5.1 (from memory), without any Arrhenius source: the
+    thermocouple junction (D = 0.706 mm, rho = 8500 kg/m^3, c = 400 J/(kg K),
+    h = 400 W/(m^2 K), tau = 1 s) from 25 degC in gas at 200 degC reaches 199 degC at
+    tau ln(175) = 5.164786 s (by hand):
+
+    >>> import math
+    >>> from screening.core.model import Limit
+    >>> D = 6 * 400.0 * 1.0 / (8500.0 * 400.0)
+    >>> junction = ScreeningModel(8500.0 * math.pi * D**3 / 6, 400.0, 0.0, 400.0 * math.pi * D**2,
+    ...                           473.15, 298.15, 60.0, limits=(Limit("199 degC", 472.15),))
+    >>> round(integrate_history(junction).time_to("199 degC"), 6)
+    5.164786
+
+    By hand, a first-order reaction with no temperature dependence (E = 0), q_ref =
+    10 W/kg, Delta h = 200 kJ/kg, in 1000 kg at c_p = 2000 J/(kg K) without heat loss:
+    X = 1 - exp(-t q_ref / Delta h) and T = T0 + X Delta h / c_p, so half the 100 K rise
+    takes (Delta h / q_ref) ln 2 = 20000 ln 2 = 13862.944 s:
+
+    >>> from screening.core.model import ArrheniusSource
+    >>> src = ArrheniusSource(10.0, 300.0, 0.0, order=1.0, specific_heat_of_reaction=200e3)
+    >>> batch = ScreeningModel(1000.0, 2000.0, 0.0, 0.0, 300.0, 300.0, 1e6, arrhenius_sources=(src,),
+    ...                        limits=(Limit("half", 350.0),))
+    >>> h = integrate_history(batch)
+    >>> round(h.time_to("half"), 3), round(h.peak_temperature, 6)
+    (13862.944, 400.0)
     """
     _validate(model)
     # Underflow to zero is benign here (scipy's step-size floor at t = 0 and decayed

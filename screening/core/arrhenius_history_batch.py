@@ -57,7 +57,7 @@ its own adaptive step in one set of array operations:
   w = 1 - X; for n < 1 it is :math:`u = (1 - X)^{1 - n}`, which falls at the
   smooth rate :math:`-(1 - n) k(T)/\Delta h` and reaches 0 at full
   conversion in finite time.  Steps are aimed at u = 0 (no longer than
-  u / |du/ds|), a step that would carry u below zero is shortened to the root
+  u / abs(du/ds)), a step that would carry u below zero is shortened to the root
   of its continuous extension, and the reaction is switched off once u is
   within 1e-3 of its absolute tolerance of zero.
 * **Events.**  After each accepted step the continuous extension gives the
@@ -223,31 +223,34 @@ class ArrheniusSamples:
 
     Attributes
     ----------
-    heat_capacity : float or (N,), J/K
+    heat_capacity : float or array (N,), [J/K]
         Total heat capacity C = m c + C_wall (> 0).
-    contents_mass : float or (N,), kg
+    contents_mass : float or array (N,), [kg]
         Mass m on which the Arrhenius sources act (> 0).
-    ua : float or (N,), W/K
+    ua : float or array (N,), [W/K]
         Heat-loss conductance to ambient (>= 0).
-    ambient_temperature : float or (N,), K
-    initial_temperature : float or (N,), K
-    constant_power : float or (N,), W
+    ambient_temperature : float or array (N,), [K]
+    initial_temperature : float or array (N,), [K]
+    constant_power : float or array (N,), [W]
         Sum of the constant sources (fire exposure included), default 0.
-    decaying_power, decay_time : (N, kd) or (kd,), W and s
+    decaying_power, decay_time : array (N, kd) or (kd,), [W] and [s]
         Sources P_d exp(-t / a_d) (a_d > 0).  Default: none.
-    media_ua, media_temperature : (N, km) or (km,), W/K and K
+    media_ua, media_temperature : array (N, km) or (km,), [W/K] and [K]
         Heating media left on, ua_k (T_m,k - T).  Default: none.
-    specific_power : (N, J) or (J,), W/kg
+    specific_power : array (N, J) or (J,), [W/kg]
         q_ref,j, the rate at the reference temperature and zero conversion
         (>= 0; 0 switches the source off).  Default: no Arrhenius source.
-    reference_temperature : (N, J) or (J,), K
-    activation_energy : (N, J) or (J,), J/mol (>= 0)
-    order : (N, J) or (J,), dimensionless in [0, 10], default 0; taken as 0
-        for a source without a heat of reaction (as the single-case engine does)
-    heat_of_reaction : (N, J) or (J,), J/kg (> 0), default NaN: none, the
-        release is zero order and unbounded (conservative)
-    initial_conversion : (N, J) or (J,), dimensionless in [0, 1], default 0;
-        X_0 = 1 - accumulated fraction
+    reference_temperature : array (N, J) or (J,), [K]
+    activation_energy : array (N, J) or (J,), [J/mol]
+        E_j >= 0.
+    order : array (N, J) or (J,), [-]
+        In [0, 10], default 0; taken as 0 for a source without a heat of reaction
+        (as the single-case engine does).
+    heat_of_reaction : array (N, J) or (J,), [J/kg]
+        Delta h_j > 0; default NaN: none, the release is zero order and unbounded
+        (conservative).
+    initial_conversion : array (N, J) or (J,), [-]
+        X_0 = 1 - accumulated fraction, in [0, 1], default 0.
 
     Temperatures are within [1, 1e6] K; capacities, masses, powers,
     conductances, rates, heats of reaction and time constants at most 1e30 in
@@ -277,15 +280,15 @@ class ArrheniusScreen(NamedTuple):
 
     Attributes
     ----------
-    times : numpy.ndarray, shape (N, L), s
+    times : numpy.ndarray, shape (N, L), [s]
         First time each limit is reached; 0 when the initial temperature is at
         or above it; NaN when not reached within the horizon (status
         ``STATUS_HORIZON``) or not reached before the step cap
         (``STATUS_FAILED``: no conclusion).
-    peak_temperature : numpy.ndarray, shape (N,), K
+    peak_temperature : numpy.ndarray, shape (N,), [K]
         Highest temperature within [0, horizon]; the stop temperature when the
         sample reached it (the true peak is then higher, see ``peak_is_stop``).
-    peak_time : numpy.ndarray, shape (N,), s
+    peak_time : numpy.ndarray, shape (N,), [s]
         First time the peak temperature is reached.
     peak_is_stop : numpy.ndarray of bool, shape (N,)
         The sample reached the stop temperature (a runaway); the peak is a lower bound.
@@ -1247,17 +1250,17 @@ def first_crossing_times_arrhenius(params: ArrheniusSamples, limits, horizon, *,
     ----------
     params : ArrheniusSamples
         Parameters of the samples, SI units (see :class:`ArrheniusSamples`).
-    limits : array, shape (L,) or (N, L), K
+    limits : array, shape (L,) or (N, L), [K]
         Limit temperatures, shared or per sample.
-    horizon : float or array (N,), s
+    horizon : float or array (N,), [s]
         Time span examined, within [1e-9, 1e12] s.
-    stop_temperature : float or array (N,), K, optional
+    stop_temperature : float or array (N,), [K], optional
         A sample is no longer followed once its temperature reaches this value,
         which must be at or above its highest limit.  Default, as in the
         single-case engine: max(2000 K, highest limit + 100 K, initial
         temperature + 100 K).  Passing the highest limit saves the steps of a
         runaway above it; the peak is then only known to exceed it.
-    rtol : float, default 1e-9
+    rtol : float, [-], default 1e-9
         Relative tolerance of the local error per step, within [1e-14, 1e-3].
         The accuracy of the times it gives is measured, not implied: below
         1e-7 relative with the default on 900 random cases (see the module
@@ -1276,9 +1279,9 @@ def first_crossing_times_arrhenius(params: ArrheniusSamples, limits, horizon, *,
     Returns
     -------
     ArrheniusScreen
-        ``times`` (N, L), s: first time each limit is reached (0 when the
+        ``times`` (N, L) [s]: first time each limit is reached (0 when the
         initial temperature is at or above it, NaN when it is not reached
-        within the horizon); ``peak_temperature`` (K) and ``peak_time`` (s):
+        within the horizon); ``peak_temperature`` [K] and ``peak_time`` [s]:
         the highest temperature within the horizon and when it was first
         reached; ``peak_is_stop``, ``status`` and ``steps`` per sample.
 
@@ -1325,6 +1328,23 @@ def first_crossing_times_arrhenius(params: ArrheniusSamples, limits, horizon, *,
     2nd ed., Springer (2006), section VIII.2 (time transformations).
 
     Semenov, N. N. (1928), thermal explosion of a well-stirred mass.
+
+    Examples
+    --------
+    Two samples checked by hand: the Incropera et al. Example 5.1 junction (from memory;
+    C / UA = 1 s, no source) from 25 degC in gas at 200 degC reaches 199 degC at
+    ln(175) = 5.164786 s; a first-order reaction with E = 0, q_ref = 10 W/kg,
+    Delta h = 200 kJ/kg, in 1000 kg at 2000 J/(kg K) without heat loss rises by
+    Delta h (1 - exp(-t q_ref / Delta h)) / c_p and reaches half its 100 K rise at
+    20000 ln 2 = 13862.94 s:
+
+    >>> p = ArrheniusSamples(heat_capacity=[1.0, 2e6], contents_mass=[1.0, 1000.0], ua=[1.0, 0.0],
+    ...                      ambient_temperature=[473.15, 300.0], initial_temperature=[298.15, 300.0],
+    ...                      specific_power=[[0.0], [10.0]], reference_temperature=[300.0],
+    ...                      activation_energy=[0.0], order=[1.0], heat_of_reaction=[[np.nan], [200e3]])
+    >>> r = first_crossing_times_arrhenius(p, [[472.15], [350.0]], [60.0, 1e6])
+    >>> round(float(r.times[0, 0]), 6), round(float(r.times[1, 0]), 2), r.status.tolist()
+    (5.164786, 13862.94, [0, 0])
     """
     if on_failure not in ("raise", "flag"):
         raise ValueError("on_failure must be 'raise' or 'flag'")
@@ -1376,7 +1396,29 @@ def samples_from_models(models: Sequence[ScreeningModel]):
 
     Returns
     -------
-    (ArrheniusSamples, limits (N, L) in K, horizon (N,) in s)
+    params : ArrheniusSamples
+        Heat capacity C = m c_p + C_wall, constant power including fire
+        (:func:`screening.core.terms.constant_power`); sources padded to the largest
+        count with switched-off entries (zero power).
+    limits : numpy.ndarray, shape (N, L), [K]
+    horizon : numpy.ndarray, shape (N,), [s]
+
+    Raises
+    ------
+    ValueError
+        No models, different numbers of limits, or a model with boiling credit.
+
+    Examples
+    --------
+    By hand: 1000 kg at 2000 J/(kg K) and no wall give C = 2e6 J/K:
+
+    >>> from screening.core.model import ArrheniusSource, Limit
+    >>> src = ArrheniusSource(10.0, 300.0, 0.0, order=1.0, specific_heat_of_reaction=200e3)
+    >>> m = ScreeningModel(1000.0, 2000.0, 0.0, 0.0, 300.0, 300.0, 1e6, arrhenius_sources=(src,),
+    ...                    limits=(Limit("half", 350.0),))
+    >>> params, limits, horizon = samples_from_models([m, m])
+    >>> params.heat_capacity.tolist(), limits.tolist(), horizon.tolist()
+    ([2000000.0, 2000000.0], [[350.0], [350.0]], [1000000.0, 1000000.0])
     """
     models = list(models)
     if not models:

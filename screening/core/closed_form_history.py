@@ -21,11 +21,18 @@ time constant (:math:`b_i = \lambda`, where the term becomes
 All functions take SI floats or numpy arrays and broadcast; decaying-source
 parameters carry a trailing axis (one entry per source).
 
+Assumptions: the contents and the wall are at one temperature (well stirred, or
+a Biot number below 0.1 for a solid), UA, C and the medium temperatures are
+constant, and the heat input does not depend on temperature (temperature-
+dependent sources go to :mod:`screening.core.arrhenius_history`).
+
 References
 ----------
-Incropera, DeWitt, Bergman, Lavine, *Fundamentals of Heat and Mass Transfer*,
-ch. 5 (lumped capacitance).  The closed form follows from the Laplace transform
-of the linear first-order balance.
+Incropera, F. P., DeWitt, D. P., Bergman, T. L., Lavine, A. S., *Fundamentals of
+Heat and Mass Transfer*, 6th ed., Wiley (2007), ch. 5 (lumped capacitance;
+Example 5.1, the thermocouple junction, from memory).  The closed form follows
+from the Laplace transform of the linear first-order balance (checked against
+sympy's inverse Laplace transform and ``scipy.integrate.solve_ivp`` in the tests).
 """
 from __future__ import annotations
 
@@ -43,11 +50,28 @@ def relaxation(x):
 
     Parameters
     ----------
-    x : array_like, dimensionless, x >= 0
+    x : float or array_like, [-]
+        x >= 0 (any shape).
 
     Returns
     -------
-    numpy.ndarray
+    numpy.ndarray, [-]
+        Same shape as ``x``; in (0, 1].
+
+    Notes
+    -----
+    .. math:: g(x) = \frac{1 - e^{-x}}{x} = \int_0^1 e^{-x s}\,ds, \qquad g(0) = 1
+
+    Computed as ``-expm1(-x) / x``, so that small x loses no digits; g(x) t is the
+    time integral of :math:`e^{-\lambda t}` with :math:`x = \lambda t`.
+
+    Examples
+    --------
+    By hand: g(0) = 1, g(1) = 1 - 1/e = 0.632121, g(50) = 1/50 to within e^-50, and
+    g(1e-20) = 1 - 5e-21, which rounds to 1 (a naive (1 - exp(-x)) / x gives 0 there):
+
+    >>> [round(float(v), 6) for v in relaxation([0.0, 1.0, 50.0, 1e-20])]
+    [1.0, 0.632121, 0.02, 1.0]
     """
     x = np.asarray(x, dtype=float)
     small = x < 1e-300
@@ -57,14 +81,29 @@ def relaxation(x):
 
 @dataclass(frozen=True)
 class LinearBalance:
-    """Coefficients of the linear lumped balance, SI (arrays broadcast).
+    r"""Coefficients of the linear lumped balance, SI (arrays broadcast).
 
-    heat_capacity : C, J/K
-    conductance : G = UA + sum of heating-medium ua, W/K
-    drive : Q0 = UA Ta + sum ua_k Tm_k + constant power, W
-    initial_temperature : T0, K
-    decaying_power : P_i, W, trailing axis one per source (may be empty)
-    decay_rate : b_i = 1 / a_i, 1/s, same shape as decaying_power
+    Build one with :func:`linear_balance` (from physical inputs) or :func:`balance_of`
+    (from a :class:`~screening.core.model.ScreeningModel`).
+
+    Parameters
+    ----------
+    heat_capacity : float or array (n,), [J/K]
+        C > 0.
+    conductance : float or array (n,), [W/K]
+        G = UA + sum of heating-medium ua, >= 0.
+    drive : float or array (n,), [W]
+        Q0 = UA T_a + sum ua_k T_m,k + constant power.
+    initial_temperature : float or array (n,), [K]
+        T0.
+    decaying_power : array (k,) or (n, k), [W]
+        P_i, trailing axis one per source (may be empty).
+    decay_rate : array like ``decaying_power``, [1/s]
+        b_i = 1 / a_i >= 0 (0: the source does not decay).
+
+    Notes
+    -----
+    .. math:: C \frac{dT}{dt} = Q_0 - G T + \sum_i P_i e^{-b_i t}, \qquad T(0) = T_0
     """
 
     heat_capacity: np.ndarray
@@ -76,22 +115,60 @@ class LinearBalance:
 
     @property
     def rate(self):
-        """lambda = G / C, 1/s."""
+        """lambda = G / C, [1/s]: the reciprocal of the vessel's time constant."""
         return np.asarray(self.conductance) / np.asarray(self.heat_capacity)
 
 
 def linear_balance(heat_capacity, ua, ambient_temperature, initial_temperature, constant_power=0.0,
                    decaying_power=(), decay_time_constant=(), medium_ua=(), medium_temperature=()):
-    """Build a :class:`LinearBalance` from physical inputs.
+    r"""Build a :class:`LinearBalance` from physical inputs.
 
     Parameters
     ----------
-    heat_capacity : float or array, J/K
-    ua : float or array, W/K, loss to ambient
-    ambient_temperature, initial_temperature : float or array, K
-    constant_power : float or array, W (sum of constant sources)
-    decaying_power, decay_time_constant : sequences or arrays with a trailing source axis, W and s
-    medium_ua, medium_temperature : sequences or arrays with a trailing axis, W/K and K
+    heat_capacity : float or array (n,), [J/K]
+        C = m c_p + C_wall, > 0.
+    ua : float or array (n,), [W/K]
+        Loss to ambient, >= 0.
+    ambient_temperature : float or array (n,), [K]
+    initial_temperature : float or array (n,), [K]
+    constant_power : float or array (n,), [W], default 0
+        Sum of the constant sources (and fire heat input).
+    decaying_power : sequence or array (k,) or (n, k), [W], default ()
+        P_i, trailing axis one per decaying source.
+    decay_time_constant : like ``decaying_power``, [s], default ()
+        a_i > 0 (``inf``: the source does not decay).
+    medium_ua : sequence or array (km,) or (n, km), [W/K], default ()
+        ua_k of each heating medium.
+    medium_temperature : like ``medium_ua``, [K], default ()
+        T_m,k of each heating medium.
+
+    Returns
+    -------
+    LinearBalance
+        With :math:`G` and :math:`Q_0` from
+        :func:`screening.core.terms.conductance_and_drive` and :math:`b_i = 1 / a_i`.
+
+    Notes
+    -----
+    .. math:: G = UA + \sum_k ua_k, \qquad Q_0 = UA\,T_a + \sum_k ua_k T_{m,k} + P_0
+
+    References
+    ----------
+    Incropera, F. P. et al., *Fundamentals of Heat and Mass Transfer*, 6th ed., Wiley (2007),
+    sections 5.1-5.3 (lumped capacitance; section numbers from memory).
+
+    Examples
+    --------
+    Incropera et al., Example 5.1 (from memory): a spherical thermocouple junction with
+    h = 400 W/(m^2 K), c = 400 J/(kg K), rho = 8500 kg/m^3, sized for a 1 s time constant,
+    D = 6 h tau / (rho c) = 0.706 mm; by hand, its C / (h A) = rho c D / (6 h) = 1 s:
+
+    >>> import math
+    >>> D = 6 * 400.0 * 1.0 / (8500.0 * 400.0)
+    >>> C, UA = 8500.0 * 400.0 * math.pi * D**3 / 6, 400.0 * math.pi * D**2
+    >>> junction = linear_balance(C, UA, 473.15, 298.15)
+    >>> round(1 / float(junction.rate), 12), round(D * 1e3, 3)
+    (1.0, 0.706)
     """
     mua = np.asarray(medium_ua, dtype=float)
     mt = np.asarray(medium_temperature, dtype=float)
@@ -138,17 +215,46 @@ def temperature(balance: LinearBalance, t):
     ----------
     balance : LinearBalance
         Scalar coefficients, or arrays of shape (n,) for n vessels.
-    t : float or array, s, t >= 0
-        For scalar coefficients any shape; for n vessels shape (n,) (one time
+    t : float or array, [s]
+        t >= 0.  For scalar coefficients any shape; for n vessels shape (n,) (one time
         each) or (n, m) (m times each).
 
     Returns
     -------
-    numpy.ndarray, K
+    numpy.ndarray, [K]
+        Shape of ``t`` broadcast against the vessel axes.
 
     Notes
     -----
-    See the module docstring for the closed form.
+    .. math:: T(t) = T_0 e^{-\lambda t} + \frac{Q_0}{C}\, t\, g(\lambda t)
+              + \sum_i \frac{P_i}{C}\, e^{-\min(b_i, \lambda) t}\, t\, g(|\lambda - b_i| t)
+
+    with :math:`\lambda = G/C` and :math:`g` = :func:`relaxation`; exact for the linear
+    balance (see the module docstring), including :math:`\lambda = 0` and
+    :math:`b_i = \lambda`.
+
+    References
+    ----------
+    Incropera, F. P. et al., *Fundamentals of Heat and Mass Transfer*, 6th ed., Wiley (2007),
+    ch. 5: :math:`(T - T_\infty)/(T_0 - T_\infty) = e^{-t/\tau}` for a step in ambient.
+
+    Examples
+    --------
+    Incropera et al., Example 5.1 (from memory): the junction (tau = 1 s) from 25 degC in a
+    200 degC gas stream reaches 199 degC at t = tau ln(175 / 1) = 5.165 s; by hand, at 1 s it
+    is at 473.15 - 175 / e = 408.771 K:
+
+    >>> import math
+    >>> junction = linear_balance(1.0, 1.0, 473.15, 298.15)
+    >>> [round(float(T), 3) for T in temperature(junction, [0.0, 1.0, math.log(175.0)])]
+    [298.15, 408.771, 472.15]
+
+    A source decaying at the vessel's own rate (a = C / G = 1 s) gives, by hand,
+    :math:`T_0 + (P_1/C)\, t\, e^{-t/\tau}`, i.e. 300 + 1/e = 300.367879 K at t = 1 s:
+
+    >>> b = linear_balance(1.0, 1.0, 300.0, 300.0, 0.0, [1.0], [1.0])
+    >>> round(float(temperature(b, 1.0)), 6)
+    300.367879
     """
     t = np.asarray(t, dtype=float)
     lam_, C_, T0_, Q0_, _, sources = _broadcast(balance, t)
@@ -159,8 +265,23 @@ def temperature(balance: LinearBalance, t):
 
 
 def temperature_rate(balance: LinearBalance, t, temp=None):
-    r"""dT/dt, K/s.
+    r"""dT/dt of the contents, [K/s].
 
+    Parameters
+    ----------
+    balance : LinearBalance
+        Scalar coefficients, or arrays of shape (n,) for n vessels.
+    t : float or array, [s]
+        t >= 0, shaped as for :func:`temperature`.
+    temp : float or array or None, [K], optional
+        A temperature at which to evaluate the balance instead of the closed form.
+
+    Returns
+    -------
+    numpy.ndarray, [K/s]
+
+    Notes
+    -----
     Without ``temp``: the time derivative of the closed form,
 
     .. math:: \frac{dT}{dt} = \frac{Q_0 - G T_0}{C} e^{-\lambda t}
@@ -172,6 +293,23 @@ def temperature_rate(balance: LinearBalance, t, temp=None):
     order eps * G T / C once T has settled, which shows up as spurious sign
     changes of dT/dt late in the history.)  With ``temp`` given: the balance at
     that temperature.
+
+    References
+    ----------
+    Incropera, F. P. et al., *Fundamentals of Heat and Mass Transfer*, 6th ed., Wiley (2007), ch. 5
+    (lumped capacitance).
+
+    Examples
+    --------
+    By hand: the Incropera Example 5.1 junction (tau = 1 s, from memory) starts heating at
+    (473.15 - 298.15) / 1 s = 175 K/s, and at 1 s at 175 / e = 64.379 K/s; the balance at
+    400 K gives (473.15 - 400) / 1 s = 73.15 K/s:
+
+    >>> junction = linear_balance(1.0, 1.0, 473.15, 298.15)
+    >>> [round(float(r), 3) for r in temperature_rate(junction, [0.0, 1.0])]
+    [175.0, 64.379]
+    >>> round(float(temperature_rate(junction, 0.0, temp=400.0)), 9)
+    73.15
     """
     t = np.asarray(t, dtype=float)
     if temp is None:
@@ -195,11 +333,40 @@ def _closed_form_rate(balance: LinearBalance, t):
 
 
 def steady_temperature(balance: LinearBalance):
-    """Temperature the contents settle to as t -> infinity, K, or NaN when they never settle.
+    r"""Temperature the contents settle to as t -> infinity, or NaN when they never settle.
+
+    Parameters
+    ----------
+    balance : LinearBalance
+
+    Returns
+    -------
+    float or numpy.ndarray, [K]
+
+    Notes
+    -----
+    .. math:: T_\infty = \frac{Q_0}{G} \quad (G > 0), \qquad
+              T_\infty = T_0 + \frac{\sum_i P_i a_i}{C} \quad (G = 0,\ Q_0 = 0)
 
     With G > 0 it is the stable steady state Q0 / G (decaying sources have died
     away).  With G = 0 (adiabatic) the contents settle only when there is no
     constant drive: at T0 + sum P_i a_i / C.
+
+    References
+    ----------
+    Incropera, F. P. et al., *Fundamentals of Heat and Mass Transfer*, 6th ed., Wiley (2007), ch. 5
+    (lumped capacitance).
+
+    Examples
+    --------
+    By hand: 180 W/K to air at 305.15 K with a 2.2 kW agitator settles at
+    305.15 + 2200 / 180 = 317.372 K; adiabatic, 1 kW decaying with a = 3600 s into
+    C = 3.6e6 J/K adds 1000 x 3600 / 3.6e6 = 1 K:
+
+    >>> round(steady_temperature(linear_balance(3.1629e7, 180.0, 305.15, 303.15, 2200.0)), 3)
+    317.372
+    >>> round(steady_temperature(linear_balance(3.6e6, 0.0, 293.15, 293.15, 0.0, [1000.0], [3600.0])), 6)
+    294.15
     """
     G = np.asarray(balance.conductance, dtype=float)
     Q0 = np.asarray(balance.drive, dtype=float)
@@ -215,16 +382,74 @@ def steady_temperature(balance: LinearBalance):
 
 
 def decaying_energy(decaying_power, decay_time_constant):
-    """Total energy still to come from decaying sources, sum P_i a_i, J."""
+    r"""Total energy still to come from decaying sources.
+
+    Parameters
+    ----------
+    decaying_power : sequence or array, [W]
+        P_i.
+    decay_time_constant : like ``decaying_power``, [s]
+        a_i.
+
+    Returns
+    -------
+    float, [J]
+
+    Notes
+    -----
+    .. math:: E = \sum_i \int_0^\infty P_i e^{-t/a_i}\,dt = \sum_i P_i a_i
+
+    Examples
+    --------
+    By hand: 1 kW over a = 1 h and 0.5 kW over a = 10 min give 3.6e6 + 3.0e5 = 3.9e6 J:
+
+    >>> decaying_energy([1000.0, 500.0], [3600.0, 600.0])
+    3900000.0
+    """
     return float(np.sum(np.asarray(decaying_power, dtype=float) * np.asarray(decay_time_constant, dtype=float)))
 
 
 def balance_of(model: ScreeningModel, ua: float | None = None, initial_temperature: float | None = None,
                time_shift: float = 0.0, extra_media: tuple = ()) -> LinearBalance:
-    """The linear balance of a model's constant, decaying, fire and medium terms.
+    r"""The linear balance of a model's constant, decaying, fire and medium terms.
 
-    ``time_shift`` starts the clock later (decaying sources have decayed by
-    exp(-shift / a)); ``extra_media`` adds (temperature, ua) pairs such as restored cooling.
+    Parameters
+    ----------
+    model : ScreeningModel
+        Its Arrhenius sources, if any, are not included (they are not linear).
+    ua : float or None, [W/K], optional
+        Replaces the model's heat loss to ambient (0: the adiabatic bound).
+    initial_temperature : float or None, [K], optional
+        Replaces the model's initial temperature.
+    time_shift : float, [s], default 0
+        Starts the clock later: decaying sources have decayed by exp(-shift / a).
+    extra_media : tuple of (float, float), ([K], [W/K]), default ()
+        (temperature, ua) pairs added as heating media, such as restored cooling.
+
+    Returns
+    -------
+    LinearBalance
+
+    Notes
+    -----
+    .. math:: P_i' = P_i\, e^{-t_{shift}/a_i}
+
+    and the other terms as in :func:`screening.core.terms.model_terms`.
+
+    References
+    ----------
+    Incropera, F. P. et al., *Fundamentals of Heat and Mass Transfer*, 6th ed., Wiley (2007), ch. 5
+    (lumped capacitance).
+
+    Examples
+    --------
+    By hand: a 1 kW source with a = 1 h, one hour later, starts at 1000 / e = 367.879 W:
+
+    >>> from screening.core.model import DecayingSource
+    >>> m = ScreeningModel(1000.0, 4180.0, 0.0, 50.0, 293.15, 293.15, 86400.0,
+    ...                    decaying_sources=(DecayingSource(1000.0, 3600.0),))
+    >>> round(float(balance_of(m, time_shift=3600.0).decaying_power[0]), 3)
+    367.879
     """
     p_const = constant_power(model)
     powers = [s.power * math.exp(-time_shift / s.time_constant) for s in model.decaying_sources]
@@ -237,10 +462,49 @@ def balance_of(model: ScreeningModel, ua: float | None = None, initial_temperatu
 
 
 def heat_rates(model: ScreeningModel, t, temp, extra_media: tuple = (), time_shift: float = 0.0):
-    """(heat input, heat loss to ambient) in W at times t and temperatures temp.
+    r"""Heat input and heat loss to ambient at times t and temperatures temp.
+
+    Parameters
+    ----------
+    model : ScreeningModel
+    t : float or array, [s]
+    temp : float or array, [K]
+        Contents temperature at each t (same shape).
+    extra_media : tuple of (float, float), ([K], [W/K]), default ()
+        (temperature, ua) pairs added as heating media.
+    time_shift : float, [s], default 0
+        Decaying sources are evaluated at t + time_shift.
+
+    Returns
+    -------
+    (numpy.ndarray, numpy.ndarray), [W]
+        Heat input and heat loss to ambient, shaped like ``t``.
+
+    Notes
+    -----
+    .. math:: P_{in} = P_{const} + \sum_i P_i e^{-(t + t_{shift})/a_i} + \sum_k ua_k (T_{m,k} - T),
+              \qquad P_{loss} = UA (T - T_a)
 
     Heat input counts constant, decaying and fire sources and heating media
-    (a medium colder than the contents counts as negative input).
+    (a medium colder than the contents counts as negative input).  Arrhenius sources
+    are not included.
+
+    References
+    ----------
+    Incropera, F. P. et al., *Fundamentals of Heat and Mass Transfer*, 6th ed., Wiley (2007), ch. 5
+    (lumped capacitance).
+
+    Examples
+    --------
+    By hand: 50 W/K to air at 293.15 K with the contents at 303.15 K loses 500 W; a 1 kW
+    source with a = 1 h gives 1000 W at t = 0:
+
+    >>> from screening.core.model import DecayingSource
+    >>> m = ScreeningModel(1000.0, 4180.0, 0.0, 50.0, 293.15, 293.15, 86400.0,
+    ...                    decaying_sources=(DecayingSource(1000.0, 3600.0),))
+    >>> gen, loss = heat_rates(m, [0.0], [303.15])
+    >>> float(gen[0]), round(float(loss[0]), 9)
+    (1000.0, 500.0)
     """
     t = np.asarray(t, dtype=float)
     temp = np.asarray(temp, dtype=float)

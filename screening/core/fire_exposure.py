@@ -19,9 +19,12 @@ with every number this module returns.
 References
 ----------
 API Standard 521, *Pressure-relieving and Depressuring Systems*, American
-Petroleum Institute; ISO 23251, *Petroleum, petrochemical and natural gas
-industries - Pressure-relieving and depressuring systems* (fire exposure of
-vessels containing liquid; wetted-area correlation).
+Petroleum Institute, 5th ed. (2007) and 6th ed. (2014) (editions from memory;
+the 5th edition is identical to ISO 23251); ISO 23251:2006, *Petroleum,
+petrochemical and natural gas industries - Pressure-relieving and depressuring
+systems* (fire exposure of vessels containing liquid; wetted-area correlation;
+edition year from memory).  API Standard 2000 for atmospheric and low-pressure
+storage tanks.
 """
 from __future__ import annotations
 
@@ -53,13 +56,20 @@ FIRE_CAUTIONS = (
 
 @dataclass(frozen=True)
 class FireHeatInput:
-    """Fire heat input with the cautions that belong to it.
+    """Fire heat input with the cautions that belong to it (returned by :func:`api521_fire_heat_input`).
 
-    power : float or numpy.ndarray, W
-    wetted_area : float or numpy.ndarray, m^2 (as given)
-    environment_factor : float or numpy.ndarray, dimensionless
+    Attributes
+    ----------
+    power : float or numpy.ndarray, [W]
+        Q; a float for scalar input.  ``float(result)`` gives it for a scalar case.
+    wetted_area : float or numpy.ndarray, [m^2]
+        A_w, as given.
+    environment_factor : float or numpy.ndarray, [-]
+        F, as given.
     adequate_drainage_and_firefighting : bool or numpy.ndarray
+        As given (True: constant 43,200; False: 70,900).
     cautions : tuple of str
+        :data:`FIRE_CAUTIONS` and any that the inputs add; keep them next to the number.
     """
 
     power: float | np.ndarray
@@ -77,9 +87,10 @@ def api521_fire_heat_input(wetted_area, environment_factor=1.0, adequate_drainag
 
     Parameters
     ----------
-    wetted_area : float or array_like, m^2
-        Wetted area within 7.6 m of the fire base (see :func:`fire_wetted_area`), >= 0.
-    environment_factor : float or array_like, dimensionless, default 1.0
+    wetted_area : float or array_like, [m^2]
+        Wetted area within 7.6 m of the fire base (see :func:`fire_wetted_area`), >= 0;
+        any shape (broadcast with the other arguments).
+    environment_factor : float or array_like, [-], default 1.0
         F in (0, 1]; 1 for a bare vessel.  Values below 1 are credit for
         fire-proof insulation, water spray or similar and need justification.
     adequate_drainage_and_firefighting : bool or array_like of bool, default True
@@ -88,8 +99,13 @@ def api521_fire_heat_input(wetted_area, environment_factor=1.0, adequate_drainag
     Returns
     -------
     FireHeatInput
-        ``power`` in W (float for scalar input, array otherwise) and the
+        ``power`` in [W] (float for scalar input, array otherwise) and the
         caution texts; ``float(result)`` gives the power of a scalar case.
+
+    Raises
+    ------
+    ValueError
+        A negative or non-finite area, or F outside (0, 1].
 
     Notes
     -----
@@ -97,11 +113,41 @@ def api521_fire_heat_input(wetted_area, environment_factor=1.0, adequate_drainag
               fire-fighting) or } 70\,900 \text{ (without)}, \quad Q \text{ in W},\ A_w \text{ in m}^2
 
     SI form of the customary :math:`Q = 21\,000\, F A^{0.82}` and
-    :math:`34\,500\, F A^{0.82}` (Btu/h, ft^2).
+    :math:`34\,500\, F A^{0.82}` (Btu/h, ft^2); converted exactly (1 Btu/h =
+    0.29307107 W, 1 ft^2 = 0.09290304 m^2) they give 43,192 and 70,959, within 0.1 % of
+    the SI constants (from memory).  An empirical correlation from pool-fire tests on
+    liquid-filled vessels: a net heat input to the wetted wall (no credit for heat loss to
+    ambient on the exposed surface), not a relief-sizing calculation; the unwetted wall and
+    atmospheric storage tanks (API 2000) are outside it.
 
     References
     ----------
-    API Standard 521 / ISO 23251, fire exposure of vessels containing liquid.
+    API Standard 521, *Pressure-relieving and Depressuring Systems*, 5th ed. (2007) / 6th
+    ed. (2014), and ISO 23251:2006: fire exposure of vessels containing liquid, heat
+    absorption equations (editions and constants from memory; see the module docstring).
+
+    Examples
+    --------
+    By hand, for 100 m^2 of bare wetted wall: 100^0.82 = 10^1.64 = 43.6516, so
+    Q = 43,200 x 43.6516 = 1.8857e6 W with drainage and fire-fighting and
+    70,900 x 43.6516 = 3.0949e6 W without:
+
+    >>> round(api521_fire_heat_input(100.0).power)
+    1885748
+    >>> round(float(api521_fire_heat_input(100.0, adequate_drainage_and_firefighting=False)))
+    3094897
+
+    Arrays broadcast; by hand, F = 0.5 and 10 m^2 give 21,600 x 10^0.82 = 21,600 x 6.6069
+    = 142,710 W:
+
+    >>> [round(q) for q in api521_fire_heat_input([10.0, 100.0], 0.5).power]
+    [142710, 942874]
+
+    The customary constant, by hand: 21,000 Btu/h x 0.29307107 W/(Btu/h) x
+    (1 / 0.09290304)^0.82 = 43,192 W, within 0.02 % of 43,200:
+
+    >>> round(21_000 * (1055.05585262 / 3600) * (1 / 0.3048**2) ** AREA_EXPONENT)
+    43192
     """
     A = np.asarray(wetted_area, dtype=float)
     F = np.asarray(environment_factor, dtype=float)
@@ -134,19 +180,25 @@ def fire_wetted_area(area_below, liquid_level, elevation=0.0, fire_zone_height=F
     Parameters
     ----------
     area_below : callable
-        ``area_below(h)`` -> wetted wall area (m^2) from the vessel bottom up to
-        a height h (m) above the bottom, for 0 <= h <= liquid level (bottom
+        ``area_below(h)`` -> wetted wall area [m^2] from the vessel bottom up to
+        a height h [m] above the bottom, for 0 <= h <= liquid level (bottom
         included).  For example ``lambda h: vessel_geometry.wetted_area_below(shape, volume, h)``.
-    liquid_level : float, m
+    liquid_level : float, [m]
         Liquid height above the vessel bottom, >= 0.
-    elevation : float, m, default 0
+    elevation : float, [m], default 0
         Height of the vessel bottom above the fire base (grade, or a platform
         or other surface that can hold a pool fire), >= 0.
-    fire_zone_height : float, m, default 7.6 (25 ft)
+    fire_zone_height : float, [m], default 7.6 (25 ft)
 
     Returns
     -------
-    float, m^2
+    float, [m^2]
+
+    Raises
+    ------
+    ValueError
+        Negative level or elevation, a zone height <= 0, or ``area_below`` returning a
+        negative or non-finite area.
 
     Notes
     -----
@@ -157,7 +209,20 @@ def fire_wetted_area(area_below, liquid_level, elevation=0.0, fire_zone_height=F
 
     References
     ----------
-    API Standard 521 / ISO 23251 (wetted area up to 7.6 m above the fire base).
+    API Standard 521 / ISO 23251 (wetted area up to 7.6 m, 25 ft, above the fire base;
+    from memory).
+
+    Examples
+    --------
+    By hand, for a flat-bottomed vertical cylinder, D = 3 m, filled to 10 m on grade, with
+    :math:`A_{below}(h) = \pi D^2/4 + \pi D h`: only 7.6 m counts, so
+    A_w = pi (2.25 + 3 x 7.6) = 78.697 m^2; standing 2 m above grade, 5.6 m counts,
+    A_w = pi (2.25 + 16.8) = 59.847 m^2; 8 m above grade, nothing counts:
+
+    >>> import math
+    >>> below = lambda h: math.pi * 3.0**2 / 4 + math.pi * 3.0 * h
+    >>> [round(fire_wetted_area(below, 10.0, z), 3) for z in (0.0, 2.0, 8.0)]
+    [78.697, 59.847, 0.0]
     """
     if not (liquid_level >= 0 and elevation >= 0 and fire_zone_height > 0):
         raise ValueError("liquid_level and elevation must be >= 0, fire_zone_height > 0 (m)")

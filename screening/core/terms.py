@@ -23,7 +23,27 @@ __all__ = ["LumpedTerms", "conductance_and_drive", "constant_power", "fire_power
 
 
 class LumpedTerms(NamedTuple):
-    """C, G, Q0 and the time-dependent terms of one model (SI)."""
+    r"""C, G, Q0 and the time-dependent terms of one model (SI), as :func:`model_terms` returns them.
+
+    Attributes
+    ----------
+    heat_capacity : float, [J/K]
+        C = m c_p + C_wall.
+    conductance : float, [W/K]
+        G = UA + sum of heating-medium ua.
+    drive : float, [W]
+        Q0 = UA T_a + sum ua_k T_m,k + P_const.
+    constant_power : float, [W]
+        P_const, constant sources plus fire heat input.
+    decaying_power : tuple of float, [W]
+        P_i, one per decaying source.
+    decay_time : tuple of float, [s]
+        a_i, one per decaying source.
+
+    Notes
+    -----
+    .. math:: C \frac{dT}{dt} = Q_0 - G\,T + \sum_i P_i e^{-t/a_i}
+    """
 
     heat_capacity: float  #: C, J/K
     conductance: float  #: G = UA + sum of media ua, W/K
@@ -54,7 +74,15 @@ def conductance_and_drive(ua, ambient_temperature, constant_power=0.0, media_ua=
     -----
     .. math:: G = UA + \sum_k ua_k, \qquad Q_0 = UA\,T_a + \sum_k ua_k T_{m,k} + P_{const}
 
-    The balance :math:`C\,dT/dt = Q_0 - G T + \ldots` settles at :math:`Q_0 / G`.
+    The balance :math:`C\,dT/dt = Q_0 - G T + \ldots` settles at :math:`Q_0 / G`.  Linear
+    terms only: the loss to ambient with a constant UA (no radiation, no change of UA with
+    temperature) and media at a fixed temperature.
+
+    References
+    ----------
+    Incropera, F. P. et al., *Fundamentals of Heat and Mass Transfer*, 6th ed., Wiley (2007),
+    section 5.3 (general lumped capacitance analysis with heat generation; section number from
+    memory).
 
     Examples
     --------
@@ -71,12 +99,59 @@ def conductance_and_drive(ua, ambient_temperature, constant_power=0.0, media_ua=
 
 
 def fire_power(model: ScreeningModel) -> float:
-    """Fire heat input of a model, W (the sum of its fire sources, each already evaluated by the correlation)."""
+    r"""Fire heat input of a model: the sum of its fire sources, each already evaluated by the correlation.
+
+    Parameters
+    ----------
+    model : ScreeningModel
+
+    Returns
+    -------
+    float, [W]
+
+    Notes
+    -----
+    .. math:: P_{fire} = \sum_f Q_f
+
+    with each :math:`Q_f` from :func:`screening.core.fire_exposure.api521_fire_heat_input`.
+
+    Examples
+    --------
+    By hand: two exposures of 1.2 MW and 0.3 MW give 1.5 MW:
+
+    >>> from screening.core.model import FireExposure
+    >>> fires = (FireExposure(1.2e6, 60.0, 1.0, True), FireExposure(0.3e6, 10.0, 1.0, True))
+    >>> fire_power(ScreeningModel(1000.0, 4180.0, 0.0, 50.0, 293.15, 293.15, 3600.0, fire_sources=fires))
+    1500000.0
+    """
     return sum(f.power for f in model.fire_sources)
 
 
 def constant_power(model: ScreeningModel) -> float:
-    """Constant heat input of a model, W: its constant sources plus the fire heat input."""
+    r"""Constant heat input of a model: its constant sources plus the fire heat input.
+
+    Parameters
+    ----------
+    model : ScreeningModel
+
+    Returns
+    -------
+    float, [W]
+
+    Notes
+    -----
+    .. math:: P_{const} = \sum_c P_c + \sum_f Q_f
+
+    Examples
+    --------
+    By hand: a 2.2 kW agitator and a 1.5 kW pump give 3.7 kW:
+
+    >>> from screening.core.model import ConstantSource
+    >>> sources = (ConstantSource(2200.0), ConstantSource(1500.0))
+    >>> constant_power(ScreeningModel(1000.0, 4180.0, 0.0, 50.0, 293.15, 293.15, 3600.0,
+    ...                               constant_sources=sources))
+    3700.0
+    """
     return sum(s.power for s in model.constant_sources) + fire_power(model)
 
 
@@ -130,7 +205,40 @@ def model_start_temperature(model: ScreeningModel) -> float:
 
 
 def model_terms(model: ScreeningModel, ua: float | None = None) -> LumpedTerms:
-    """The terms of one model; ``ua`` replaces its heat loss (``ua=0`` gives the adiabatic bound)."""
+    r"""The terms C, G, Q0, P_const and the decaying sources of one model.
+
+    Parameters
+    ----------
+    model : ScreeningModel
+    ua : float or None, [W/K], optional
+        Replaces the model's heat loss to ambient (``ua=0`` gives the adiabatic bound).
+
+    Returns
+    -------
+    LumpedTerms
+
+    Notes
+    -----
+    .. math:: C = m c_p + C_{wall}, \quad G = UA + \sum_k ua_k, \quad
+              Q_0 = UA\,T_a + \sum_k ua_k T_{m,k} + P_{const}
+
+    (:func:`heat_capacity`, :func:`conductance_and_drive`, :func:`constant_power`).
+
+    Examples
+    --------
+    By hand, for 9000 kg at 3400 J/(kg K) with a 1.029e6 J/K wall, UA = 180 W/K to air at
+    305.15 K and a 2.2 kW agitator: C = 3.1629e7 J/K, G = 180 W/K,
+    Q0 = 180 x 305.15 + 2200 = 57127 W:
+
+    >>> from screening.core.model import ConstantSource
+    >>> m = ScreeningModel(9000.0, 3400.0, 2100.0 * 490.0, 180.0, 305.15, 303.15, 86400.0,
+    ...                    constant_sources=(ConstantSource(2200.0),))
+    >>> t = model_terms(m)
+    >>> t.heat_capacity, t.conductance, round(t.drive, 6), t.constant_power
+    (31629000.0, 180.0, 57127.0, 2200.0)
+    >>> model_terms(m, ua=0.0).drive
+    2200.0
+    """
     p_const = constant_power(model)
     g, q0 = conductance_and_drive(model.ua if ua is None else ua, model.ambient_temperature, p_const,
                                   [h.ua for h in model.heating_media],

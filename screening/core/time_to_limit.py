@@ -6,6 +6,14 @@ of distinct rates).  They are located as sign changes of dT/dt on a grid that
 resolves every time scale of the case and refined with Brent's method; between
 turning points the history is monotone, so each limit crossing is bracketed
 and the first one is found exactly (Brent's method to ~1e-13 relative).
+
+References
+----------
+Incropera, F. P., DeWitt, D. P., Bergman, T. L., Lavine, A. S., *Fundamentals of
+Heat and Mass Transfer*, 6th ed., Wiley (2007), ch. 5 (lumped capacitance).
+
+Brent, R. P., *Algorithms for Minimization without Derivatives*, Prentice-Hall
+(1973), ch. 4 (see :func:`screening.core.root_finding.brent_root`).
 """
 from __future__ import annotations
 
@@ -23,6 +31,22 @@ from screening.core.root_finding import brent_root
 
 @dataclass(frozen=True)
 class HistoryShape:
+    """Turning points, peak and end state of one closed-form history on [0, horizon].
+
+    Attributes
+    ----------
+    turning_times : tuple of float, [s]
+        Interior turning points (dT/dt changes sign) in (0, horizon), ascending.
+    peak_temperature : float, [K]
+        Maximum of T over [0, horizon].
+    peak_time : float, [s]
+        Time of that maximum.
+    end_temperature : float, [K]
+        T(horizon).
+    end_rate : float, [K/s]
+        dT/dt at the horizon.
+    """
+
     turning_times: tuple[float, ...]  # s, interior turning points in (0, horizon)
     peak_temperature: float  # K, maximum over [0, horizon]
     peak_time: float  # s
@@ -36,7 +60,29 @@ def _brent(f, a: float, b: float, fa: float, fb: float, tol: float) -> float:
 
 
 def time_scales(balance: LinearBalance, horizon: float) -> list[float]:
-    """Characteristic times of the history (vessel time constant and source time constants), s."""
+    r"""Characteristic times of the history: the vessel time constant and the source time constants.
+
+    Parameters
+    ----------
+    balance : LinearBalance
+        Scalar coefficients (one vessel).
+    horizon : float, [s]
+        Not used; kept for a uniform signature with :func:`sampling_grid`.
+
+    Returns
+    -------
+    list of float, [s]
+        :math:`\tau = C/G` (if G > 0), then :math:`a_i = 1/b_i` for each decaying source
+        with :math:`b_i > 0`.
+
+    Examples
+    --------
+    By hand: C = 1 J/K, G = 1 W/K gives tau = 1 s; a source with a = 2 s adds 2 s:
+
+    >>> from screening.core.closed_form_history import linear_balance
+    >>> time_scales(linear_balance(1.0, 1.0, 300.0, 300.0, 0.0, [1.0], [2.0]), 100.0)
+    [1.0, 2.0]
+    """
     scales = []
     lam = float(balance.rate)
     if lam > 0:
@@ -48,7 +94,34 @@ def time_scales(balance: LinearBalance, horizon: float) -> list[float]:
 
 
 def sampling_grid(balance: LinearBalance, horizon: float) -> np.ndarray:
-    """A time grid on [0, horizon] that resolves every time scale of the case, s."""
+    """A time grid on [0, horizon] that resolves every time scale of the case.
+
+    Parameters
+    ----------
+    balance : LinearBalance
+        Scalar coefficients (one vessel).
+    horizon : float, [s]
+
+    Returns
+    -------
+    numpy.ndarray, shape (M,), [s]
+        Sorted, unique, from 0 to ``horizon``: the ends, 400 geometric points from
+        1e-6 of the smallest time scale, 201 even points over the horizon, and 241 even
+        points up to 60 times each time scale of :func:`time_scales`.
+
+    Notes
+    -----
+    Used to find the sign changes of dT/dt (turning points) in :func:`history_shape`;
+    a sum of k + 1 exponentials has at most k of them, and each lies within a few time
+    scales of the others, which the grid resolves.
+
+    Examples
+    --------
+    >>> from screening.core.closed_form_history import linear_balance
+    >>> grid = sampling_grid(linear_balance(1.0, 1.0, 473.15, 298.15), 60.0)
+    >>> float(grid[0]), float(grid[-1]), bool(np.all(np.diff(grid) > 0))
+    (0.0, 60.0, True)
+    """
     scales = time_scales(balance, horizon)
     smallest = min(scales + [horizon])
     pieces = [np.array([0.0, horizon]),
@@ -62,7 +135,41 @@ def sampling_grid(balance: LinearBalance, horizon: float) -> np.ndarray:
 
 
 def history_shape(balance: LinearBalance, horizon: float) -> HistoryShape:
-    """Turning points, peak and end state of the history on [0, horizon]."""
+    r"""Turning points, peak and end state of the history on [0, horizon].
+
+    Parameters
+    ----------
+    balance : LinearBalance
+        Scalar coefficients (one vessel).
+    horizon : float, [s]
+
+    Returns
+    -------
+    HistoryShape
+
+    Notes
+    -----
+    Turning points are the sign changes of :math:`\dot T` on :func:`sampling_grid`, each
+    refined with Brent's method to full relative precision; the peak is the largest of
+    T at 0, at the horizon and at the turning points (the history is monotone between
+    them).
+
+    References
+    ----------
+    Brent, R. P., *Algorithms for Minimization without Derivatives*, Prentice-Hall (1973), ch. 4;
+    Incropera, F. P. et al., *Fundamentals of Heat and Mass Transfer*, 6th ed., Wiley (2007), ch. 5.
+
+    Examples
+    --------
+    By hand: with C = 1 J/K, G = 1 W/K, T0 = T_a and one source P = 1 W with a = 2 s,
+    :math:`T - T_0 = 2 (e^{-t/2} - e^{-t})`, whose maximum is at :math:`e^{t/2} = 2`,
+    t = 2 ln 2 = 1.386294 s, where T - T0 = 2 (1/2 - 1/4) = 0.5 K:
+
+    >>> from screening.core.closed_form_history import linear_balance
+    >>> shape = history_shape(linear_balance(1.0, 1.0, 300.0, 300.0, 0.0, [1.0], [2.0]), 100.0)
+    >>> [round(t, 6) for t in shape.turning_times], round(shape.peak_temperature, 9)
+    ([1.386294], 300.5)
+    """
     grid = sampling_grid(balance, horizon)
     rates = temperature_rate(balance, grid)
     scale = np.max(np.abs(rates)) if rates.size else 0.0
@@ -88,9 +195,47 @@ def history_shape(balance: LinearBalance, horizon: float) -> HistoryShape:
 
 def first_crossing(balance: LinearBalance, limit_temperature: float, horizon: float,
                    shape: HistoryShape | None = None) -> float | None:
-    """First time T(t) reaches ``limit_temperature`` on [0, horizon], s; None if it does not.
+    r"""First time T(t) reaches ``limit_temperature`` on [0, horizon]; None if it does not.
 
-    A limit at or below the initial temperature is reached at t = 0.
+    Parameters
+    ----------
+    balance : LinearBalance
+        Scalar coefficients (one vessel).
+    limit_temperature : float, [K]
+    horizon : float, [s]
+    shape : HistoryShape, optional
+        From :func:`history_shape`, if already computed.
+
+    Returns
+    -------
+    float or None, [s]
+        0 when the contents start at or above the limit; None when the limit is not
+        reached within the horizon (which is not the same as never).
+
+    Notes
+    -----
+    .. math:: t^* = \min\{t \in [0, H] : T(t) \ge T_{lim}\}
+
+    The history is monotone between consecutive turning points, so the first piece
+    whose larger end reaches the limit holds the first crossing, which is unique in it
+    and found by Brent's method to full relative precision.
+
+    References
+    ----------
+    Brent, R. P., *Algorithms for Minimization without Derivatives*, Prentice-Hall (1973), ch. 4;
+    Incropera, F. P. et al., *Fundamentals of Heat and Mass Transfer*, 6th ed., Wiley (2007), ch. 5.
+
+    Examples
+    --------
+    Incropera et al., Example 5.1 (from memory): tau = 1 s, from 25 degC in gas at
+    200 degC, 199 degC is reached at tau ln(175 / 1) = 5.164786 s (by hand):
+
+    >>> from screening.core.closed_form_history import linear_balance
+    >>> junction = linear_balance(1.0, 1.0, 473.15, 298.15)
+    >>> round(first_crossing(junction, 472.15, 60.0), 6)
+    5.164786
+    >>> first_crossing(junction, 290.0, 60.0), first_crossing(junction, 480.0, 60.0)
+    (0.0, None)
     """
     T0 = float(balance.initial_temperature)
     if T0 >= limit_temperature:
@@ -166,7 +311,7 @@ def time_to_limit(heat_capacity, conductance, drive, initial_temperature, limits
     ----------
     Incropera, F. P., DeWitt, D. P., Bergman, T. L., Lavine, A. S., *Fundamentals of Heat and Mass
     Transfer*, 6th ed., Wiley (2007), section 5.2 (lumped capacitance; the general lumped analysis
-    with a heat source, section 5.3).
+    with a heat source, section 5.3; section numbers from memory).
 
     Examples
     --------

@@ -70,8 +70,8 @@ intermediate result overflows, so no floating-point warning is raised.
 
 References
 ----------
-Incropera, DeWitt, Bergman, Lavine, *Fundamentals of Heat and Mass Transfer*,
-ch. 5 (lumped capacitance).
+Incropera, F. P., DeWitt, D. P., Bergman, T. L., Lavine, A. S., *Fundamentals of
+Heat and Mass Transfer*, 6th ed., Wiley (2007), ch. 5 (lumped capacitance).
 
 Pólya, G. and Szegő, G., *Problems and Theorems in Analysis II*, Springer (1976),
 Part Five, ch. 1 (Rolle's theorem and Descartes' rule of signs; from memory): a
@@ -123,16 +123,16 @@ class HistorySummary(NamedTuple):
 
     Attributes
     ----------
-    turning_times : numpy.ndarray, shape (N, k), s
+    turning_times : numpy.ndarray, shape (N, k), [s]
         Interior turning points (dT/dt = 0 with a change of sign) in (0, horizon),
         ascending, padded with NaN.
-    peak_temperature : numpy.ndarray, shape (N,), K
+    peak_temperature : numpy.ndarray, shape (N,), [K]
         Maximum of T over [0, horizon].
-    peak_time : numpy.ndarray, shape (N,), s
+    peak_time : numpy.ndarray, shape (N,), [s]
         Time of that maximum (0 when the initial temperature is the maximum).
-    end_temperature : numpy.ndarray, shape (N,), K
+    end_temperature : numpy.ndarray, shape (N,), [K]
         T(horizon).
-    end_rate : numpy.ndarray, shape (N,), K/s
+    end_rate : numpy.ndarray, shape (N,), [K/s]
         dT/dt at the horizon.
     """
 
@@ -144,7 +144,15 @@ class HistorySummary(NamedTuple):
 
 
 class RegisterScreen(NamedTuple):
-    """First crossing times and history shape of a register (see :func:`screen_register`)."""
+    """First crossing times and history shape of a register (see :func:`screen_register`).
+
+    Attributes
+    ----------
+    times : numpy.ndarray, shape (N,) or (N, L), [s]
+        As returned by :func:`first_crossing_times`.
+    summary : HistorySummary
+        As returned by :func:`history_summary`.
+    """
 
     times: np.ndarray
     summary: HistorySummary
@@ -155,11 +163,29 @@ class RegisterScreen(NamedTuple):
 # ---------------------------------------------------------------------------
 
 def within_engine_range(C, G, Q0, T0, P, b, horizon):
-    """Which vessels the engine accepts (bool array, shape (N,)); inputs as for :func:`first_crossing_times`,
-    already broadcast to (N,) and (N, k).
+    """Which vessels the engine accepts.
 
-    Accepted: all finite, 1e-30 <= C <= 1e30, 0 <= G, b, horizon <= 1e30 and |Q0|, |T0|, |P| <= 1e30.
+    Parameters
+    ----------
+    C, G, Q0, T0 : numpy.ndarray, shape (N,), [J/K], [W/K], [W], [K]
+        As for :func:`first_crossing_times`, already broadcast.
+    P, b : numpy.ndarray, shape (N, k), [W] and [1/s]
+    horizon : numpy.ndarray, shape (N,), [s]
+
+    Returns
+    -------
+    numpy.ndarray of bool, shape (N,)
+
+    Notes
+    -----
+    Accepted: all finite, 1e-30 <= C <= 1e30, 0 <= G, b, horizon <= 1e30 and abs(Q0), abs(T0), abs(P) <= 1e30.
     Callers with vessels outside it (absurd but valid inputs) use the scalar engine for those.
+
+    Examples
+    --------
+    >>> ones, none = np.ones(2), np.zeros((2, 1))
+    >>> within_engine_range(np.array([1.0, 1e-40]), ones, ones, ones, none, none, ones).tolist()
+    [True, False]
     """
     big = _MAX_MAGNITUDE
     with np.errstate(invalid="ignore"):
@@ -744,22 +770,22 @@ def first_crossing_times(C, G, Q0, T0, P, b, limits, horizon, *, chunk_size=DEFA
 
     Parameters
     ----------
-    C : array_like, shape (N,) or scalar, J/K
-        Heat capacity of the contents, C > 0.
-    G : array_like, shape (N,) or scalar, W/K
+    C : array_like, shape (N,) or scalar, [J/K]
+        Heat capacity of the contents and wall, C = m c_p + C_wall > 0.
+    G : array_like, shape (N,) or scalar, [W/K]
         Total conductance (loss to ambient plus heating media), G >= 0 (0: adiabatic).
-    Q0 : array_like, shape (N,) or scalar, W
+    Q0 : array_like, shape (N,) or scalar, [W]
         Constant drive: UA T_a + sum of medium ua T_m + constant power.
-    T0 : array_like, shape (N,) or scalar, K
+    T0 : array_like, shape (N,) or scalar, [K]
         Initial temperature.
-    P : array_like, shape (N, k) or (k,), W
+    P : array_like, shape (N, k) or (k,), [W]
         Initial power of each decaying source (pad unused slots with 0; may be negative).
-    b : array_like, shape like P, 1/s
+    b : array_like, shape like P, [1/s]
         Decay rate 1/a of each source, b >= 0 (b = 0: the source does not decay).
-    limits : array_like, shape (N,) or (N, L) or scalar, K
+    limits : array_like, shape (N,) or (N, L) or scalar, [K]
         Limit temperatures: one per vessel (N,), or L per vessel (N, L); NaN marks an
         unused slot (its result is NaN).
-    horizon : array_like, shape (N,) or scalar, s
+    horizon : array_like, shape (N,) or scalar, [s]
         End of the time window, >= 0.
     chunk_size : int, optional
         Vessels handled together (memory and cache use; the results do not depend on it).
@@ -768,7 +794,7 @@ def first_crossing_times(C, G, Q0, T0, P, b, limits, horizon, *, chunk_size=DEFA
 
     Returns
     -------
-    numpy.ndarray, shape (N,) or (N, L), s
+    numpy.ndarray, shape (N,) or (N, L), [s]
         First time T(t) >= limit on [0, horizon]; 0 when T0 >= limit; NaN when
         the limit is not reached within the horizon (which is not the same as never).
 
@@ -776,7 +802,7 @@ def first_crossing_times(C, G, Q0, T0, P, b, limits, horizon, *, chunk_size=DEFA
     ------
     ValueError
         Inconsistent shapes, or inputs outside the accepted range: all finite, with
-        1e-30 <= C <= 1e30, 0 <= G, b, horizon <= 1e30 and |Q0|, |T0|, |P| <= 1e30
+        1e-30 <= C <= 1e30, 0 <= G, b, horizon <= 1e30 and abs(Q0), abs(T0), abs(P) <= 1e30
         (within it no intermediate result overflows; limits may be any float).
 
     Notes
@@ -799,7 +825,21 @@ def first_crossing_times(C, G, Q0, T0, P, b, limits, horizon, *, chunk_size=DEFA
 
     References
     ----------
-    See the module docstring.
+    Incropera, F. P. et al., *Fundamentals of Heat and Mass Transfer*, 6th ed., Wiley (2007),
+    ch. 5 (lumped capacitance); Press, W. H. et al., *Numerical Recipes*, 3rd ed., Cambridge
+    University Press (2007), section 9.4 (``rtsafe``); see the module docstring.
+
+    Examples
+    --------
+    Incropera et al., Example 5.1 (from memory): tau = C / G = 1 s, from 25 degC in gas at
+    200 degC reaches 199 degC at tau ln(175 / 1) = 5.164786 s; by hand, 400 K is reached at
+    ln(175 / 73.15) = 0.872274 s, 480 K never and 290 K at once:
+
+    >>> none = np.zeros((2, 1))
+    >>> t = first_crossing_times([1.0, 1.0], [1.0, 1.0], [473.15, 473.15], [298.15, 298.15],
+    ...                          none, none, [[472.15, 480.0], [290.0, 400.0]], [60.0, 60.0])
+    >>> np.round(t, 6).tolist()
+    [[5.164786, nan], [0.0, 0.872274]]
     """
     if limits is None:
         raise ValueError("limits are required")
@@ -813,18 +853,38 @@ def history_summary(C, G, Q0, T0, P, b, horizon, *, chunk_size=DEFAULT_CHUNK, wo
     Parameters
     ----------
     C, G, Q0, T0, P, b, horizon, chunk_size, workers
-        As for :func:`first_crossing_times` (J/K, W/K, W, K, W, 1/s, s).
+        As for :func:`first_crossing_times` ([J/K], [W/K], [W], [K], [W], [1/s], [s]).
 
     Returns
     -------
     HistorySummary
-        turning_times (N, k) s, NaN padded; peak_temperature (N,) K; peak_time (N,) s;
-        end_temperature (N,) K; end_rate (N,) K/s.
+        turning_times (N, k) [s], NaN padded; peak_temperature (N,) [K]; peak_time (N,) [s];
+        end_temperature (N,) [K]; end_rate (N,) [K/s].
 
     Notes
     -----
     The maximum of T on [0, H] lies at 0, at H or at an interior turning point,
-    so it is the largest of T at those candidates (ties go to the earliest).
+    so it is the largest of T at those candidates (ties go to the earliest).  For one
+    decaying source the turning point has the closed form
+
+    .. math:: t^* = \frac{\ln\left(1 + (\lambda - b) A / c\right)}{\lambda - b},
+              \qquad A = \dot T(0), \quad c = P b / C.
+
+    References
+    ----------
+    Polya, G. and Szego, G., *Problems and Theorems in Analysis II*, Springer (1976), Part Five, ch. 1
+    (an exponential sum with n terms has at most n - 1 real zeros; from memory); Press, W. H. et al.,
+    *Numerical Recipes*, 3rd ed., Cambridge University Press (2007), section 9.4 (``rtsafe``).
+
+    Examples
+    --------
+    By hand: C = 1 J/K, G = 1 W/K (lambda = 1/s), T0 = Q0 / G, one source P = 1 W with
+    b = 0.5/s: A = 1 K/s, c = 0.5 K/s^2, t* = ln(1 + 0.5 x 1 / 0.5) / 0.5 = 2 ln 2 =
+    1.386294 s, and T - T0 = 2 (e^{-t/2} - e^{-t}) peaks at 2 (1/2 - 1/4) = 0.5 K:
+
+    >>> s = history_summary([1.0], [1.0], [300.0], [300.0], [[1.0]], [[0.5]], [100.0])
+    >>> round(float(s.turning_times[0, 0]), 6), round(float(s.peak_temperature[0]), 9)
+    (1.386294, 300.5)
     """
     _, summary = _run(C, G, Q0, T0, P, b, horizon, None, True, chunk_size, workers)
     return summary
@@ -833,7 +893,31 @@ def history_summary(C, G, Q0, T0, P, b, horizon, *, chunk_size=DEFAULT_CHUNK, wo
 def screen_register(C, G, Q0, T0, P, b, limits, horizon, *, chunk_size=DEFAULT_CHUNK, workers=1) -> RegisterScreen:
     """First crossing times and history summary in one pass (turning points found once).
 
-    Parameters and results as for :func:`first_crossing_times` and :func:`history_summary`.
+    Parameters
+    ----------
+    C, G, Q0, T0, P, b, limits, horizon, chunk_size, workers
+        As for :func:`first_crossing_times` ([J/K], [W/K], [W], [K], [W], [1/s], [K], [s]).
+
+    Returns
+    -------
+    RegisterScreen
+        ``times`` as :func:`first_crossing_times` returns them, ``summary`` as
+        :func:`history_summary`.
+
+    References
+    ----------
+    Polya, G. and Szego, G., *Problems and Theorems in Analysis II*, Springer (1976), Part Five, ch. 1
+    (an exponential sum with n terms has at most n - 1 real zeros; from memory); Press, W. H. et al.,
+    *Numerical Recipes*, 3rd ed., Cambridge University Press (2007), section 9.4 (``rtsafe``).
+
+    Examples
+    --------
+    By hand: for the history T - T0 = 2 (e^{-t/2} - e^{-t}) of :func:`history_summary`,
+    T - T0 = 0.25 K first at e^{-t/2} = (1 + sqrt(1/2)) / 2, t = 0.316694 s:
+
+    >>> r = screen_register([1.0], [1.0], [300.0], [300.0], [[1.0]], [[0.5]], [[300.25]], [100.0])
+    >>> round(float(r.times[0, 0]), 6), round(float(r.summary.peak_time[0]), 6)
+    (0.316694, 1.386294)
     """
     if limits is None:
         raise ValueError("limits are required")
@@ -842,8 +926,29 @@ def screen_register(C, G, Q0, T0, P, b, limits, horizon, *, chunk_size=DEFAULT_C
 
 
 def turning_times(C, G, Q0, T0, P, b, horizon, **kwargs):
-    """Interior turning points of each history in (0, horizon), s, shape (N, k), ascending, NaN padded.
+    """Interior turning points of each history in (0, horizon).
 
-    Parameters as for :func:`history_summary`.
+    Parameters
+    ----------
+    C, G, Q0, T0, P, b, horizon, **kwargs
+        As for :func:`history_summary`.
+
+    Returns
+    -------
+    numpy.ndarray, shape (N, k), [s]
+        Ascending, NaN padded.
+
+    References
+    ----------
+    Polya, G. and Szego, G., *Problems and Theorems in Analysis II*, Springer (1976), Part Five, ch. 1
+    (an exponential sum with n terms has at most n - 1 real zeros; from memory); Press, W. H. et al.,
+    *Numerical Recipes*, 3rd ed., Cambridge University Press (2007), section 9.4 (``rtsafe``).
+
+    Examples
+    --------
+    By hand (see :func:`history_summary`): 2 ln 2 = 1.386294 s:
+
+    >>> np.round(turning_times([1.0], [1.0], [300.0], [300.0], [[1.0]], [[0.5]], [100.0]), 6).tolist()
+    [[1.386294]]
     """
     return history_summary(C, G, Q0, T0, P, b, horizon, **kwargs).turning_times

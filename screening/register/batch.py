@@ -20,16 +20,15 @@ import json
 import math
 import os
 import shutil
-import tempfile
 from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass
 from pathlib import Path
 
 from screening import verdict as rules_mod
 from screening.register.chunks import ChunkResult, ChunkWork, RowOutcome, screen_chunk
+from screening.register.output_set import check_output_folder, discard, new_build_folder, swap_in, write_marker
 from screening.register.outputs import (
     _append_file,
-    _swap_in,
     _write_results_csv,
     errors_csv,
 )
@@ -58,21 +57,23 @@ def run_batch(register_path, out_dir, base_path=None, rules_path=None, memos=Fal
               progress=None, templates_dir=None, workers: int | None = None) -> dict:
     """Screen a register and write the output set; returns a summary dict.
 
-    Raises RegisterError (the file cannot be read at all), CaseError (the base
-    case cannot be read) or RuleSetError (bad rule file) before anything is written.
+    Raises OutputFolderError (``out_dir`` holds files that are not a previous output set),
+    RegisterError (the file cannot be read at all), CaseError (the base case cannot be read)
+    or RuleSetError (bad rule file) before anything is written.
     """
+    target = check_output_folder(out_dir)  # before any work: nothing is written into a folder it may not replace
     rules_mod.load_rule_set(rules_path)  # fail early, before any work
     register = read_register(register_path)
     base = load_base(base_path)
     out = Path(out_dir)
-    out.parent.mkdir(parents=True, exist_ok=True)
-    tmp = Path(tempfile.mkdtemp(prefix=f".{out.name}.tmp-", dir=str(out.parent)))
+    tmp = new_build_folder(target)
     try:
         summary = _run_into(register, base, tmp, out, rules_path, memos, allow_case_file_column, progress,
                             templates_dir, workers)
-        _swap_in(tmp, out)
+        write_marker(tmp, "batch")
+        swap_in(tmp, target)
     except BaseException:
-        shutil.rmtree(tmp, ignore_errors=True)
+        discard(tmp)
         raise
     return summary.as_dict()
 
@@ -120,10 +121,13 @@ def _run_into_body(register: Register, base: dict, tmp: Path, out: Path, rules_p
     parts_dir.mkdir()
 
     def work(a, b):
+        numbers = register.row_numbers[a:b]
+        cell_problems = {n: register.cell_problems[n] for n in numbers if n in register.cell_problems} \
+            if register.cell_problems else {}
         return ChunkWork(register.columns, base, str(register.path.parent), allow_case_file, rules_path,
-                         register.rows[a:b], register.row_numbers[a:b], id_col, register.bad_columns,
+                         register.rows[a:b], numbers, id_col, register.bad_columns,
                          str(memos_dir) if memos_dir else None, str(templates_dir) if templates_dir else None,
-                         base_digest, str(parts_dir / f"part-{a:09d}"))
+                         base_digest, str(parts_dir / f"part-{a:09d}"), cell_problems)
 
     outcomes: list[RowOutcome] = []
     chunks: list[ChunkResult] = []

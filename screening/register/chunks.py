@@ -59,6 +59,7 @@ class ChunkWork:
     templates_dir: str | None
     base_digest: str = ""
     part_stem: str | None = None  # this chunk writes <stem>.json (results.json items) and <stem>.csv (rows)
+    cell_problems: dict = field(default_factory=dict)  # row number -> cells that could not be read
 
 
 @dataclass
@@ -82,9 +83,10 @@ def screen_chunk(work: ChunkWork) -> ChunkResult:
             gc.enable()
 
 
-def _structural_problems(work: ChunkWork, cells: list[str]) -> list[FieldProblem]:
-    """Problems of a row that no schema sees: values under bad headers or under no header."""
-    problems = []
+def _structural_problems(work: ChunkWork, row_no: int, cells: list[str]) -> list[FieldProblem]:
+    """Problems of a row that no schema sees: cells that could not be read (a workbook's formulas without
+    stored values), values under bad headers or under no header."""
+    problems = list(work.cell_problems.get(row_no, ())) if work.cell_problems else []
     for index, header in work.bad_columns.items():
         if index < len(cells) and cells[index].strip():
             problems.append(FieldProblem(f"(column {index + 1})", f"a value under the header '{header}', "
@@ -121,7 +123,7 @@ def _screen_chunk(work: ChunkWork) -> ChunkResult:
             return members
         clean, others = [], []
         for i in members:
-            (others if _structural_problems(work, work.rows[i]) else clean).append(i)
+            (others if _structural_problems(work, work.row_numbers[i], work.rows[i]) else clean).append(i)
 
         def rep_result(values):
             return public_result(screen_prepared(rep, None, values=values, with_history=False))
@@ -158,7 +160,7 @@ def _screen_chunk(work: ChunkWork) -> ChunkResult:
                 spec = direct.spec
         rid = spec.id if spec is not None else _row_id(work, cells, data)
         outcome = RowOutcome(row_no, rid)
-        outcome.problems = list(problems) + _structural_problems(work, cells)
+        outcome.problems = list(problems) + _structural_problems(work, row_no, cells)
         if direct is not None and not outcome.problems:
             prepared_all[i] = (direct, _row_hash(work, cells))
             if not direct.model.arrhenius_sources:

@@ -8,6 +8,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from screening.case.schema import CaseError, FieldProblem
+from screening.register.outputs import people_text, without_people_prefix
 
 
 @dataclass(frozen=True)
@@ -32,7 +33,7 @@ def _load(folder: Path) -> dict[str, dict]:
         raise CaseError([FieldProblem(str(path), f"not valid JSON: {exc.msg} at line {exc.lineno}")]) from None
     out: dict[str, dict] = {}
     for r in data:
-        key = str(r.get("id"))
+        key = without_people_prefix(str(r.get("id")))  # ids compared as written, before any CSV guard
         if key in out:  # the same id twice in one register: keep them apart by row
             key = f"{key} (row {r.get('register_row')})"
         out[key] = r
@@ -107,8 +108,8 @@ def to_csv(changes: list[VesselChange]) -> str:
     w.writerow(["id", "change", "old_verdict", "new_verdict", "old_smallest_margin_h", "new_smallest_margin_h",
                 "changed_inputs", "notes"])
     for c in changes:
-        w.writerow([c.id, c.change, c.old_verdict or "", c.new_verdict or "",
+        w.writerow([people_text(c.id), c.change, people_text(c.old_verdict or ""), people_text(c.new_verdict or ""),
                     "" if c.old_margin_s is None else f"{c.old_margin_s / 3600:.6g}",
                     "" if c.new_margin_s is None else f"{c.new_margin_s / 3600:.6g}",
-                    ";".join(c.changed_inputs), c.notes])
+                    people_text(";".join(c.changed_inputs)), people_text(c.notes)])
     return buf.getvalue()

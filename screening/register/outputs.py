@@ -18,6 +18,39 @@ def dumps(obj) -> bytes:
     return orjson.dumps(obj)
 
 
+# ------------------------------------------------------------------ CSV for people
+
+# A spreadsheet program evaluates a cell that starts with one of these as a formula. In CSV files
+# written for people (results.csv, errors.csv, diff --csv) such TEXT cells get a leading apostrophe,
+# the usual defence against formula injection; numbers are written as they are, and results.json
+# is never altered. Ids read back (a register, a diff) are compared without the apostrophe.
+FORMULA_TRIGGERS = frozenset("=+-@\t\r")
+
+
+def people_text(value):
+    """A text cell as written to CSV for people: a leading apostrophe where a spreadsheet would evaluate it,
+    and a carriage return inside it written as a line feed (which the CSV writer quotes; with a "\n" line
+    ending it leaves a bare carriage return unquoted, and readers would split the row there)."""
+    if value.__class__ is str:
+        if value[:1] in FORMULA_TRIGGERS:
+            value = "'" + value
+        if "\r" in value:
+            value = one_line_ending(value)
+    return value
+
+
+def one_line_ending(text: str) -> str:
+    """Carriage returns (alone or before a line feed) as line feeds."""
+    return text.replace("\r\n", "\n").replace("\r", "\n")
+
+
+def without_people_prefix(text: str) -> str:
+    """The text a ``people_text`` cell was made from (an apostrophe before a trigger character removed)."""
+    if text[:1] == "'" and text[1:2] in FORMULA_TRIGGERS:
+        return text[1:]
+    return text
+
+
 # ------------------------------------------------------------------ outputs
 
 
@@ -41,9 +74,9 @@ def csv_parts(r: dict) -> tuple[list, dict, list]:
     reached = [l for l in r["limits"] if l["time_s"] is not None]
     first = min(reached, key=lambda l: l["time_s"]) if reached else None
     margins = [l["margin_s"] for l in r["limits"] if l.get("margin_s") is not None]
-    head = [r["id"], r.get("register_row", ""), r.get("verdict", ""), r.get("scenario") or "",
-            first["name"] if first else "",
-            _hours(first["time_s"]) if first else "", _hours(min(margins)) if margins else ""]
+    head = [people_text(r["id"]), r.get("register_row", ""), r.get("verdict", ""), r.get("scenario") or "",
+            people_text(first["name"]) if first else "", _hours(first["time_s"]) if first else "",
+            _hours(min(margins)) if margins else ""]
     limits = {l["name"]: _hours(l["time_s"]) for l in r["limits"]}
     tail = [_kelvin(r.get("peak_temperature_K")), _hours(r.get("peak_time_s")), _kelvin(r.get("steady_temperature_K")),
             _hours(r.get("time_constant_s")), _hours(r.get("tmr_adiabatic_s")),
@@ -57,7 +90,7 @@ def csv_parts(r: dict) -> tuple[list, dict, list]:
 
 
 def results_csv_header(limit_names: list[str]) -> list[str]:
-    return CSV_HEAD + [f"time_to_limit_h: {n}" for n in limit_names] + CSV_TAIL
+    return CSV_HEAD + [f"time_to_limit_h: {one_line_ending(n)}" for n in limit_names] + CSV_TAIL
 
 
 def results_csv_from_parts(parts: list, limit_names: list[str], header: bool = True) -> str:
@@ -65,8 +98,8 @@ def results_csv_from_parts(parts: list, limit_names: list[str], header: bool = T
     w = csv.writer(buf, lineterminator="\n")
     if header:
         w.writerow(results_csv_header(limit_names))
-    # The last cell (the reasons) is long and mostly one of a few texts: it is quoted once per text,
-    # by the same writer, and the rest of each row goes through the writer as usual.
+    # The last cell (the reasons) is long and mostly one of a few texts: it is guarded and quoted once
+    # per text, by the same writer, and the rest of each row goes through the writer as usual.
     lines: list[str] = []
     rows = csv.writer(_Lines(lines), lineterminator="\n")
     single = csv.writer(_Lines(quoted := []), lineterminator="\n")
@@ -76,7 +109,7 @@ def results_csv_from_parts(parts: list, limit_names: list[str], header: bool = T
         last = tail[-1]
         cell = escaped.get(last)
         if cell is None:
-            single.writerow([last])
+            single.writerow([people_text(last)])
             cell = escaped[last] = quoted.pop()[:-1] if last != "" else ""  # a lone "" is written '""'
         lines[-1] = f"{lines[-1][:-1]},{cell}\n"
     buf.write("".join(lines))
@@ -103,7 +136,7 @@ def errors_csv(errors: list[dict]) -> str:
     w = csv.writer(buf, lineterminator="\n")
     w.writerow(["row", "id", "field", "message"])
     for e in errors:
-        w.writerow([e["row"], e["id"] or "", e["field"], e["message"]])
+        w.writerow([e["row"], people_text(e["id"] or ""), people_text(e["field"]), people_text(e["message"])])
     return buf.getvalue()
 
 
@@ -160,16 +193,3 @@ def _write_results_csv(path: Path, chunks: list) -> None:  # ChunkResult items
             with open(chunk.csv_part, encoding="utf-8", newline="") as src:
                 fh.write(csv_text(row[:head] + [row[where[nm]] if nm in where else "" for nm in limit_names]
                                   + row[head + width:] for row in csv.reader(src)))
-
-
-def _swap_in(tmp: Path, out: Path) -> None:
-    """Replace ``out`` by the finished folder ``tmp`` (old contents moved aside, then removed)."""
-    old = None
-    if out.exists():
-        old = out.with_name(f".{out.name}.old-{os.getpid()}")
-        if old.exists():
-            shutil.rmtree(old)
-        os.replace(out, old)
-    os.replace(tmp, out)
-    if old is not None:
-        shutil.rmtree(old, ignore_errors=True)

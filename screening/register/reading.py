@@ -18,6 +18,7 @@ from pathlib import Path
 
 from screening.case.schema import FieldProblem
 from screening.errors import InputError
+from screening.register.outputs import without_people_prefix
 
 CASE_FILE_COLUMN = "case_file"
 MAX_ROWS = 1_000_000
@@ -54,6 +55,7 @@ class Register:
     row_numbers: list[int]  # spreadsheet row number (header = 1)
     header_problems: list[FieldProblem] = field(default_factory=list)  # bad headers, reported once as row 1
     bad_columns: dict = field(default_factory=dict)  # column index -> header text of a column that was not read
+    cell_problems: dict = field(default_factory=dict)  # row number -> problems of cells that could not be read
 
 
 def parse_header(text: str, index: int) -> tuple[Column | None, str | None]:
@@ -101,6 +103,10 @@ def _read_csv(path: Path) -> list[list[str]]:
         dialect = csv.Sniffer().sniff(sample, delimiters=",;\t")
     except csv.Error:
         dialect = csv.excel
+    if dialect.quotechar != '"':
+        # spreadsheet programs quote with '"'; the sniffer takes apostrophes at the start of cells (as in ids
+        # copied from heatscreen's own CSV files, '=A-1) for quotes
+        dialect = type("RegisterDialect", (csv.excel,), {"delimiter": dialect.delimiter})
     reader = csv.reader(io.StringIO(text, newline=""), dialect)
     return [[c.strip() for c in row] for row in reader]
 
@@ -115,7 +121,9 @@ def _check_xlsx_size(path: Path) -> None:
         raise RegisterError(f"{path.name} unpacks to {total} bytes, more than the limit of {MAX_XLSX_UNCOMPRESSED}")
 
 
-def _read_xlsx(path: Path) -> list[list[str]]:
+def _read_xlsx(path: Path) -> tuple[list[list[str]], dict]:
+    """The first worksheet's cells as text (a formula's value as the spreadsheet program stored it), and
+    the cells whose value cannot be used: {(row, column), 1-based: (cell reference, what is wrong)}."""
     _check_xlsx_size(path)
     import openpyxl
 
@@ -127,9 +135,88 @@ def _read_xlsx(path: Path) -> list[list[str]]:
             if i > MAX_ROWS + 1:
                 raise RegisterError(f"{path.name} has more than {MAX_ROWS} rows")
             rows.append([_cell_text(v) for v in row])
-        return rows
+        sheet_part = ws._worksheet_path  # the worksheet's part in the zip, as openpyxl found it
     finally:
         wb.close()
+    return rows, _unusable_cells(path, sheet_part)
+
+
+# a formula (<f>, also with a namespace prefix) or a cell holding a spreadsheet error (t="e"); plain
+# substring searches, several times faster than one regular expression (a false hit costs a second parse)
+_FORMULA_OR_ERROR = (b"<f>", b"<f ", b"<f/", b":f>", b":f ", b":f/", b't="e"', b"t='e'")
+_SCAN_BLOCK = 1 << 22
+
+
+def _may_hold_formulas(zf: zipfile.ZipFile, part: str) -> bool:
+    """A quick scan of the worksheet's bytes: most registers hold no formula, and need no second parse."""
+    tail = b""
+    with zf.open(part) as fh:
+        while True:
+            block = fh.read(_SCAN_BLOCK)
+            if not block:
+                return False
+            block = tail + block
+            if any(needle in block for needle in _FORMULA_OR_ERROR):
+                return True
+            tail = block[-8:]
+
+
+def _unusable_cells(path: Path, part: str) -> dict:
+    """Formula cells without a stored value (a program that does not calculate wrote the workbook) and
+    cells holding a spreadsheet error; openpyxl reads both as if they were plain (empty or text) cells."""
+    from openpyxl.utils.cell import column_index_from_string, coordinate_from_string
+    from openpyxl.xml.functions import iterparse
+
+    found: dict = {}
+    with zipfile.ZipFile(path) as zf:
+        if not _may_hold_formulas(zf, part):
+            return found
+        with zf.open(part) as fh:
+            row = col = 0
+            for event, el in iterparse(fh, events=("start", "end")):
+                tag = el.tag.rpartition("}")[2]
+                if event == "start":
+                    if tag == "row":
+                        r = el.get("r")
+                        row, col = (int(r) if r else row + 1), 0
+                    continue
+                if tag == "row":
+                    el.clear()
+                    continue
+                if tag != "c":
+                    continue
+                ref = el.get("r")
+                if ref:
+                    letters, row = coordinate_from_string(ref)
+                    col = column_index_from_string(letters)
+                else:
+                    col += 1
+                kids = {k.tag.rpartition("}")[2]: k for k in el}
+                value = kids.get("v")
+                kind = el.get("t", "n")
+                if "f" in kids and (value is None or (not value.text and kind != "str")):
+                    formula = kids["f"].text
+                    found[(row, col)] = (ref or f"row {row} column {col}",
+                                         "formula" if not formula else f"formula (={_short(formula)})")
+                elif kind == "e" and value is not None and value.text:
+                    found[(row, col)] = (ref or f"row {row} column {col}", f"error {_short(value.text)}")
+                el.clear()
+    return found
+
+
+def _short(text: str, n: int = 40) -> str:
+    text = " ".join(text.split())
+    return text if len(text) <= n else text[:n - 1] + "…"
+
+
+def _cell_problem(field_name: str, ref: str, what: str, consequence: str = "The row is not screened") -> FieldProblem:
+    if what.startswith("error "):
+        message = f"cell {ref} holds the spreadsheet error {what[6:]}; correct it in the workbook. {consequence}"
+    else:
+        message = (f"cell {ref} holds a {what} but the workbook stores no value for it (it was saved by a program "
+                   f"that does not calculate formulas). Open the workbook in a spreadsheet program and save it, or "
+                   f"paste the values in place of the formulas. {consequence}")
+    return FieldProblem(field_name, message)
 
 
 def read_register(path: str | Path) -> Register:
@@ -138,13 +225,14 @@ def read_register(path: str | Path) -> Register:
     if not p.is_file():
         raise RegisterError(f"no such register file: {p}")
     suffix = p.suffix.lower()
+    unusable: dict = {}
     if suffix in (".xlsx", ".xlsm"):
-        table = _read_xlsx(p)
+        table, unusable = _read_xlsx(p)
     elif suffix in (".csv", ".txt", ".tsv"):
         table = _read_csv(p)
     else:
         raise RegisterError(f"{p.name}: a register must be a .csv or .xlsx file")
-    if not table or not any(c for c in table[0]):
+    if not table or not (any(c for c in table[0]) or any(r == 1 for r, _ in unusable)):
         raise RegisterError(f"{p.name} has no header row")
     if len(table) - 1 > MAX_ROWS:
         raise RegisterError(f"{p.name} has more than {MAX_ROWS} rows")
@@ -153,6 +241,11 @@ def read_register(path: str | Path) -> Register:
     bad_columns: dict[int, str] = {}
     seen = {}
     for i, h in enumerate(header):
+        if (1, i + 1) in unusable:
+            ref, what = unusable[(1, i + 1)]
+            problems.append(_cell_problem(f"(column {i + 1})", ref, what, "The column is not read"))
+            bad_columns[i] = h or ref
+            continue
         col, err = parse_header(h, i)
         if err:
             problems.append(FieldProblem(f"(column {i + 1})", err))
@@ -166,10 +259,28 @@ def read_register(path: str | Path) -> Register:
             columns.append(col)
     rows, numbers = [], []
     width = len(header)
+    cell_problems = _row_cell_problems(unusable, columns, bad_columns)
     for n, row in enumerate(table[1:], start=2):
-        if not any(c.strip() for c in row):
+        if not any(c.strip() for c in row) and n not in cell_problems:
             continue  # blank line
         cells = row + [""] * (width - len(row)) if len(row) < width else row
         rows.append(cells)
         numbers.append(n)
-    return Register(p, columns, rows, numbers, problems, bad_columns)
+    id_index = next((c.index for c in columns if c.path == ("id",)), None)
+    if id_index is not None:  # ids as written, without the apostrophe heatscreen's own CSV files put before some
+        for cells in rows:
+            if cells[id_index][:1] == "'":
+                cells[id_index] = without_people_prefix(cells[id_index])
+    return Register(p, columns, rows, numbers, problems, bad_columns, cell_problems)
+
+
+def _row_cell_problems(unusable: dict, columns: list[Column], bad_columns: dict) -> dict:
+    """Spreadsheet row number -> problems of its cells that could not be read (formulas without values)."""
+    by_index = {c.index: c.dotted for c in columns}
+    out: dict[int, list[FieldProblem]] = {}
+    for (row, col), (ref, what) in sorted(unusable.items()):
+        if row == 1:
+            continue  # the header: reported with the columns
+        name = by_index.get(col - 1, f"(column {col})")
+        out.setdefault(row, []).append(_cell_problem(name, ref, what))
+    return out

@@ -7,6 +7,7 @@ bisection on the full screening (engine and rule set), to a relative width of
 """
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, replace
 
 from screening.case.paths import apply_updates, locate_quantity, path_parts
@@ -15,6 +16,8 @@ from screening.case.schema import CaseError, CaseSpec, FieldProblem, Quantity
 from screening.case.units import (
     UnitError,
     kelvin_to,
+    non_finite,
+    not_finite_message,
     parse_quantity,
     temperature_unit_of,
     unit_factor,
@@ -82,14 +85,24 @@ def default_range(q: Quantity, check: str | None) -> tuple[float, float]:
     return (0.0, 1.0)
 
 
-def parse_bound(text: str, q: Quantity) -> float:
+def parse_bound(text: str, q: Quantity, option: str = "--low/--high") -> float:
+    """A scan bound (``option`` names it in messages): a value with its unit, or a percentage of the case's value."""
     text = text.strip()
+    expected = f"a value with its unit, or a percentage of the case's value ({q.text})"
+    if non_finite(text):
+        raise CaseError([FieldProblem(option, not_finite_message(text, expected))])
     if text.endswith("%"):
-        return q.si * float(text[:-1]) / 100.0
+        try:
+            value = q.si * float(text[:-1]) / 100.0
+        except ValueError:
+            raise CaseError([FieldProblem(option, f"'{text}' is not a percentage; expected {expected}")]) from None
+        if not math.isfinite(value):
+            raise CaseError([FieldProblem(option, not_finite_message(text, expected))])
+        return value
     try:
         return parse_quantity(text, q.dimension).value
     except UnitError as exc:
-        raise CaseError([FieldProblem("--low/--high", str(exc))]) from None
+        raise CaseError([FieldProblem(option, str(exc))]) from None
 
 
 def find_allowable_values(prepared: PreparedCase, path: str, low: float | None = None, high: float | None = None,

@@ -21,6 +21,7 @@ from fastapi.responses import JSONResponse, Response
 from pydantic import BaseModel, Field
 
 from screening import __version__
+from screening.register.outputs import without_people_prefix
 from screening.service import CAUTION
 from screening.service.core import (
     CONTENT_TYPES,
@@ -401,7 +402,10 @@ async def job_errors_json(request: Request, job_id: str) -> dict:
     f = await svc.store.job_file(job_id, "errors.csv")
     if f is None:
         raise ServiceError(404, [("job_id", f"job {job_id} has no errors file (not finished)")])
-    return {"job": job_id, "errors": list(csv.DictReader(io.StringIO(f.data.decode("utf-8-sig"))))}
+    rows = csv.DictReader(io.StringIO(f.data.decode("utf-8-sig")))
+    # JSON for programs: the cells as they were, without the apostrophe the CSV adds for spreadsheets
+    return {"job": job_id, "errors": [{k: without_people_prefix(v) if isinstance(v, str) else v for k, v in r.items()}
+                                      for r in rows]}
 
 
 # ------------------------------------------------------------------ OpenAPI

@@ -17,6 +17,7 @@ from fastapi import APIRouter, Request
 from fastapi.responses import HTMLResponse, RedirectResponse, Response
 
 from screening import __version__
+from screening.register.outputs import without_people_prefix
 from screening.resources import demo_cases
 from screening.service import CAUTION
 from screening.service.core import CONTENT_TYPES, ServiceError
@@ -551,7 +552,8 @@ async def _job_rows_html(svc, job_id: str) -> str:
                    '<th>Warnings</th></tr>' + "".join(rows) + "</table>")
     e = await svc.store.job_file(job_id, "errors.csv")
     if e is not None:
-        rows = list(csv.reader(io.StringIO(e.data.decode("utf-8-sig", "replace"))))
+        rows = [[without_people_prefix(c) for c in row]  # shown as written, without the spreadsheet guard
+                for row in csv.reader(io.StringIO(e.data.decode("utf-8-sig", "replace")))]
         if len(rows) > 1:
             head = "".join(f"<th>{esc(c)}</th>" for c in rows[0])
             body = "".join("<tr>" + "".join(f"<td>{esc(c)}</td>" for c in row) + "</tr>" for row in rows[1:])

@@ -55,8 +55,9 @@ File layout
 Thresholds
     Quantities with a unit need a unit in the threshold ("8 h", "30 min",
     "10 K", "150 degC").  A temperature *difference* must be written in K (or
-    ``delta_degC``, ``delta_degF``, ``degR``); ``degC``/``degF`` are rejected there
-    because they denote a temperature, not a difference.  A threshold may also be
+    ``delta_degC``, ``delta_degF``, ``degR``); ``degC``/``degF`` (in any spelling,
+    and ``degRe``) are rejected there because they denote a temperature, not a
+    difference.  Either takes exactly one temperature unit, as a case file does.  A threshold may also be
     relative to another quantity of the same kind::
 
         threshold = { of = "response_time", times = 1.0, plus = "0 h" }
@@ -114,7 +115,7 @@ from typing import Any
 
 from pydantic import BaseModel, ConfigDict, ValidationError
 
-from screening.case.units import UnitError, unit_factor
+from screening.case.units import UnitError, non_finite, not_finite_message, temperature_scale, unit_factor
 from screening.errors import InputError
 from screening.resources import rule_set_candidates
 from screening.verdict.engine import (
@@ -239,6 +240,8 @@ def _parse_value(raw: Any, dim: str) -> Any:
         return raw
     if isinstance(raw, bool):
         raise ValueError(f"expected a {dim}, e.g. {_EXAMPLE[dim]}, got {raw!r}")
+    if non_finite(raw):  # inf, -inf, nan in any spelling, with or without a unit
+        raise ValueError(not_finite_message(raw, f"a {dim} such as {_EXAMPLE[dim]}"))
     if dim in (NUMBER, COUNT):
         if isinstance(raw, (int, float)):
             value = float(raw)
@@ -249,8 +252,8 @@ def _parse_value(raw: Any, dim: str) -> Any:
                 raise ValueError(f"expected a plain number, e.g. {_EXAMPLE[dim]}, got {raw!r}") from None
         else:
             raise ValueError(f"expected a number, e.g. {_EXAMPLE[dim]}, got {raw!r}")
-        if math.isnan(value):
-            raise ValueError("expected a number, got NaN")
+        if not math.isfinite(value):  # a text that float() reads as infinite, e.g. '1_0e400'
+            raise ValueError(not_finite_message(raw, f"a {dim} such as {_EXAMPLE[dim]}"))
         if dim == COUNT and not value.is_integer():
             raise ValueError(f"expected a whole number, got {raw!r}")
         return value
@@ -268,7 +271,7 @@ def _parse_value(raw: Any, dim: str) -> Any:
         raise ValueError(f"{raw!r} has no unit; expected a {dim} such as {_EXAMPLE[dim]}")
 
     if dim == DELTA_T:
-        if unit.strip() in ("degC", "°C", "C", "celsius", "degF", "°F", "F", "fahrenheit"):
+        if temperature_scale(unit) in ("degC", "degF", "degRe"):
             raise ValueError(f"{raw!r} is a temperature, not a temperature difference; write the difference "
                              f"in K (e.g. '10 K') or as delta_degC / delta_degF")
         dimension = "temperature_difference"
@@ -279,6 +282,8 @@ def _parse_value(raw: Any, dim: str) -> Any:
     except UnitError as exc:
         raise ValueError(f"{raw!r}: {exc}; here e.g. {_EXAMPLE[dim]}") from None
     value = number * scale + offset
+    if not math.isfinite(value):
+        raise ValueError(not_finite_message(raw, f"a {dim} such as {_EXAMPLE[dim]}"))
     if dim == TEMPERATURE and value < 0.0:
         raise ValueError(f"{raw!r} is below absolute zero")
     return value
@@ -457,7 +462,10 @@ def _compile_relative(raw: dict, q: Quantity, where: str, errors: list):
         errors.append((f"{where}.of", f"{of} is a {ref.dimension} but {q.name} is a {q.dimension}; "
                                       f"they cannot be compared"))
     times = raw.get("times", 1.0)
-    if isinstance(times, bool) or not isinstance(times, (int, float)) or math.isnan(times):
+    if non_finite(times):
+        errors.append((f"{where}.times", not_finite_message(times, "a number such as 1.0")))
+        times = 1.0
+    elif isinstance(times, bool) or not isinstance(times, (int, float)):
         errors.append((f"{where}.times", f"expected a number, got {times!r}"))
         times = 1.0
     if q.dimension == TEMPERATURE and times != 1.0:
@@ -581,6 +589,10 @@ def parse_rule_set(data: bytes, path: str | None = None) -> RuleSet:
         doc = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise RuleSetError([("(file)", f"TOML syntax error: {exc}")], path) from None
+    except ValueError as exc:  # e.g. an integer of more digits than Python converts
+        reason = str(exc).split("; use ")[0]  # not Python's advice on its own limits
+        raise RuleSetError([("(file)", f"TOML value not readable: {reason}; a finite number is expected")],
+                           path) from None
 
     errors: list[tuple[str, str]] = []
     for key in sorted(set(doc) - {"rule_set", "rule", "matrix"}):

@@ -86,7 +86,7 @@ BAD = [
      "contents.mass", ["sorce"]),
     ("misspelt field in a source", edit("time_constant: 1 h", "tim_constant: 1 h"),
      "heat_sources.1.tim_constant", ["did you mean 'time_constant'"]),
-    ("fill without a vessel", edit("mass: 1000 kg", "fill: 70 %\n  density: 1000 kg/m^3"), "(case)",
+    ("fill without a vessel", edit("mass: 1000 kg", "fill: 70 %\n  density: 1000 kg/m^3"), "contents.fill",
      ["needs a vessel"]),
     ("two amounts", edit("mass: 1000 kg", "mass: 1000 kg\n  volume: 1 m^3\n  density: 1000 kg/m^3"),
      "contents", ["only one of mass, fill and volume"]),

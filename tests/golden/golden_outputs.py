@@ -42,6 +42,7 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parents[2]
 DEMO = ROOT / "screening" / "demo_cases"
 MANIFEST = Path(__file__).resolve().parent / "manifest.json"
+sys.path.insert(0, str(ROOT))  # the in-process outputs (openapi.json) come from this tree, not an installed copy
 SOURCE_DATE_EPOCH = "1767225600"  # 2026-01-01T00:00:00Z, fixed so memos are reproducible
 
 

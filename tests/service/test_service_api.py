@@ -19,7 +19,7 @@ from pathlib import Path
 import pytest
 import yaml
 
-from service_helpers import DEMO, Server, demo_bytes, register_csv, wait_job
+from service_helpers import DEMO, Server, demo_bytes, register_csv, slow_case_bytes, wait_job
 
 httpx = pytest.importorskip("httpx")
 pytest.importorskip("fastapi")
@@ -308,7 +308,8 @@ def _register(rows=3, extra=()):
 
 def test_register_job_lifecycle(client):
     reg = _register(3, [{"id": "REG-BAD", "contents.mass": "heavy"},
-                        {"id": "REG-FILE", "case_file": "/etc/passwd"}])
+                        {"id": "REG-FILE", "case_file": "/etc/passwd"},
+                        {"id": "=REG-EQ", "contents.mass": "-5 kg"}])
     r = client.post("/v1/batch", files={"register": ("plant.csv", reg, "text/csv"),
                                         "base": ("base.yaml", demo_bytes("fw-t204-hold-tank.yaml"), "application/yaml")},
                     data={"memos": "true"})
@@ -318,7 +319,7 @@ def test_register_job_lifecycle(client):
     doc = wait_job(client, job)
     assert doc["state"] == "done", doc
     summary = {k: v for k, v in doc["summary"].items() if k in ("rows", "valid", "invalid", "verdict_counts")}
-    assert summary == {"rows": 5, "valid": 3, "invalid": 2, "verdict_counts": doc["summary"]["verdict_counts"]}
+    assert summary == {"rows": 6, "valid": 3, "invalid": 3, "verdict_counts": doc["summary"]["verdict_counts"]}
     assert "out_dir" not in doc["summary"]
     links = doc["links"]
     results = client.get(links["results_json"]).json()
@@ -326,9 +327,11 @@ def test_register_job_lifecycle(client):
     assert all(x["verdict"] in ("pass", "review", "fail") and "warnings" in x for x in results)
     assert client.get(links["results_csv"]).text.startswith("id,row,verdict")
     errors = client.get(links["errors_json"]).json()["errors"]
-    assert {e["id"] for e in errors} == {"REG-BAD", "REG-FILE"}
+    assert {e["id"] for e in errors} == {"REG-BAD", "REG-FILE", "=REG-EQ"}  # JSON: ids as written
     assert any(e["field"] == "case_file" for e in errors)
-    assert "REG-BAD" in client.get(links["errors_csv"]).text
+    errors_csv = client.get(links["errors_csv"]).text
+    assert "REG-BAD" in errors_csv
+    assert "'=REG-EQ" in errors_csv  # CSV for spreadsheets: formula guard (OWASP "CSV Injection")
     assert client.get(links["summary_pdf"]).content.startswith(b"%PDF")
     z = zipfile.ZipFile(io.BytesIO(client.get(links["memos_zip"]).content))
     assert sorted(z.namelist()) == ["REG-0-row2.pdf", "REG-1-row3.pdf", "REG-2-row4.pdf"]
@@ -474,7 +477,7 @@ def tight_server(tmp_path_factory):
 @pytest.mark.slow
 def test_runaway_computation_is_stopped_and_the_worker_replaced(tight_server):
     with tight_server.client() as c:
-        slow = demo_bytes("fw-r301-reactor.yaml")  # a stiff integration: well over 0.25 s
+        slow = slow_case_bytes()  # stiff integrations and Monte Carlo: well over 0.25 s
         r = c.post("/v1/check", content=slow, headers=YAML)
         assert r.status_code == 504, r.text
         run_id = r.headers["x-run-id"]
@@ -486,7 +489,7 @@ def test_runaway_computation_is_stopped_and_the_worker_replaced(tight_server):
 
 
 def test_flood_is_refused_with_503_and_the_server_stays_up(tight_server):
-    slow = demo_bytes("fw-r301-reactor.yaml")
+    slow = slow_case_bytes()
     codes: list[int] = []
     lock = threading.Lock()
 

@@ -7,6 +7,17 @@ Pure SI functions of temperatures, masses and :class:`screening.core.model.Arrhe
 - :mod:`~screening.core.runaway.semenov`: critical ambient and steady states of a well-stirred mass
 - :mod:`~screening.core.runaway.stoessel`: adiabatic rise, MTSR, criticality, probability and severity classes
 - :mod:`~screening.core.runaway.frank_kamenetskii`: critical conditions of unstirred contents with conduction
+
+Each function documents its equation, its assumptions (well stirred or conduction, zero
+order or n-th order at a given conversion, adiabatic) and its source, with a worked example.
+
+References
+----------
+Townsend, D. I. and Tou, J. C., Thermochimica Acta 37 (1980) 1-30 (TMRad).
+Semenov, N. N., Zeitschrift fuer Physik 48 (1928) 571-582 (volume and pages from memory).
+Frank-Kamenetskii, D. A., *Diffusion and Heat Exchange in Chemical Kinetics*, Princeton
+University Press (1955), 2nd ed. Plenum (1969).
+Stoessel, F., *Thermal Safety of Chemical Processes*, Wiley-VCH (2008) (from memory).
 """
 
 from screening.core.runaway.frank_kamenetskii import (

@@ -1,4 +1,19 @@
-"""Frank-Kamenetskii's criterion for unstirred contents with conduction."""
+r"""Frank-Kamenetskii's criterion for unstirred contents with conduction.
+
+Unstirred contents heat by reaction and lose heat by conduction to their surface.
+With the exponential approximation and :math:`\theta = E (T - T_a)/(R T_a^2)` the
+steady temperature field obeys
+:math:`\nabla^2\theta + \delta e^{\theta} = 0`; steady states exist only while the
+Frank-Kamenetskii parameter :math:`\delta` is below a critical value
+:math:`\delta_c` that depends on the shape and on the surface Biot number.
+
+References
+----------
+Frank-Kamenetskii, D. A., Acta Physicochimica URSS 10 (1939) 365 (from memory);
+*Diffusion and Heat Exchange in Chemical Kinetics*, Princeton University Press (1955),
+2nd ed. Plenum (1969).  Critical values at infinite Biot number 0.878 (slab), 2.000
+(cylinder), 3.322 (sphere) (from memory; reproduced numerically here).
+"""
 from __future__ import annotations
 
 import math
@@ -33,31 +48,45 @@ def frank_kamenetskii_parameter(ambient, density, sources, radius, conductivity,
 
     Parameters
     ----------
-    ambient : float or array, K
+    ambient : float or array, [K]
         Ambient (surroundings) temperature Ta.
-    density : float, kg/m^3
+    density : float, [kg/m^3]
     sources : sequence of :class:`screening.core.model.ArrheniusSource`
-    radius : float or array, m
-        Half-thickness of a slab, radius of a cylinder or sphere.
-    conductivity : float, W/(m K)
-    conversion : None, float or sequence of float, dimensionless
+    radius : float or array, [m]
+        Half-thickness of a slab, radius of a cylinder or sphere (broadcast with
+        ``ambient``).
+    conductivity : float, [W/(m K)]
+        Thermal conductivity k of the contents.
+    conversion : None, float or sequence of float, [-]
         None means zero conversion.
 
     Returns
     -------
-    float or array, dimensionless
+    float or array, [-]
 
     Notes
     -----
     .. math:: \delta = \frac{\rho r^2}{k R T_a^2} \sum_i q_i(T_a) E_i
 
     which for one source is :math:`(E / (R T_a^2)) \rho q(T_a) r^2 / k`
-    (Frank-Kamenetskii [1]_).
+    (Frank-Kamenetskii [1]_).  Zero order (the rate at the given conversion), the
+    rate taken at the ambient temperature.
 
     References
     ----------
     .. [1] Frank-Kamenetskii, D. A., Diffusion and Heat Exchange in Chemical
        Kinetics, Princeton University Press (1955).
+
+    Examples
+    --------
+    By hand: 1000 kg/m^3 releasing 1 mW/kg at 300 K with E = 100 kJ/mol, r = 0.5 m,
+    k = 0.2 W/(m K): delta = 100000 / (8.314462618 x 300^2) x 1000 x 0.001 x 0.5^2 / 0.2
+    = 0.16704:
+
+    >>> from screening.core.model import ArrheniusSource
+    >>> src = ArrheniusSource(1e-3, 300.0, 100e3)
+    >>> round(frank_kamenetskii_parameter(300.0, 1000.0, [src], 0.5, 0.2), 5)
+    0.16704
     """
     t = _positive_temperature(ambient, "ambient")
     for name, value in (("density", density), ("conductivity", conductivity)):
@@ -160,14 +189,14 @@ def frank_kamenetskii_critical(geometry, biot=math.inf):
     ----------
     geometry : {"slab", "cylinder", "sphere"}
         Infinite slab (half-thickness r), infinite cylinder, sphere.
-    biot : float, dimensionless, default inf
+    biot : float, [-], default inf
         Surface Biot number Bi = h r / k (h surface heat-transfer
-        coefficient to ambient, W/(m^2 K)).  ``inf``: surface held at
+        coefficient to ambient, [W/(m^2 K)]).  ``inf``: surface held at
         ambient.  0: insulated surface, delta_c = 0.
 
     Returns
     -------
-    float, dimensionless
+    float, [-]
         delta_c; for Bi = inf 0.8785 (slab), 2.0000 (cylinder), 3.3220
         (sphere).  Lower for finite Bi; for small Bi it tends to the Semenov
         (lumped) value (j + 1) Bi / e.
@@ -202,6 +231,24 @@ def frank_kamenetskii_critical(geometry, biot=math.inf):
     ----------
     .. [1] Frank-Kamenetskii, D. A., Diffusion and Heat Exchange in Chemical
        Kinetics, Princeton University Press (1955; 2nd ed. Plenum 1969).
+
+    Examples
+    --------
+    Frank-Kamenetskii's critical values for a surface held at ambient (infinite Biot
+    number): 0.878 (slab), 2.000 (cylinder), 3.322 (sphere) (from memory):
+
+    >>> [round(frank_kamenetskii_critical(g), 3) for g in ("slab", "cylinder", "sphere")]
+    [0.878, 2.0, 3.322]
+
+    A finite Biot number lowers them; for a small one they tend to Semenov's lumped value
+    (j + 1) Bi / e (by hand, j = 0, 1, 2 for slab, cylinder, sphere; the lumped criterion
+    with surface-to-volume ratio (j + 1) / r):
+
+    >>> frank_kamenetskii_critical("slab", 10.0) < frank_kamenetskii_critical("slab")
+    True
+    >>> import math
+    >>> round(frank_kamenetskii_critical("sphere", 1e-13) / (3e-13 / math.e), 9)
+    1.0
     """
     j = _geometry_index(geometry)
     biot = float(biot)
@@ -224,22 +271,23 @@ def frank_kamenetskii_critical_ambient(geometry, biot, density, sources, radius,
     Parameters
     ----------
     geometry : {"slab", "cylinder", "sphere"}
-    biot : float, dimensionless
+    biot : float, [-]
         Surface Biot number h r / k; ``inf`` for a surface held at ambient
         (not conservative, see :data:`WARNING_FK_SURFACE_AT_AMBIENT`).
-    density : float, kg/m^3
+    density : float, [kg/m^3]
     sources : sequence of :class:`screening.core.model.ArrheniusSource`
-    radius : float, m
-    conductivity : float, W/(m K)
-    conversion : None, float or sequence of float, dimensionless
-    temperature_range : (float, float), K
+    radius : float, [m]
+        Half-thickness of a slab, radius of a cylinder or sphere.
+    conductivity : float, [W/(m K)]
+    conversion : None, float or sequence of float, [-]
+    temperature_range : (float, float), [K], default (10, 5000)
         Range searched.
     full_output : bool
         Also return a list of warning texts.
 
     Returns
     -------
-    float or None, K
+    float or None, [K]
         The lowest ambient at which delta(Ta) reaches delta_c(Bi).  None
         when Bi = 0 (insulated: no steady state at any ambient), with no
         Arrhenius source, or when no crossing lies in the range
@@ -256,10 +304,25 @@ def frank_kamenetskii_critical_ambient(geometry, biot, density, sources, radius,
     while Ta < E/(2R); the lowest crossing is bracketed on a grid and refined
     with Brent's method.  The Biot number is held fixed, as given.
 
+    .. math:: \frac{E}{R T_{a,c}^2} \frac{\rho\, r^2}{k} \sum_i q_i(T_{a,c}) = \delta_c(Bi)
+
     References
     ----------
     .. [1] Frank-Kamenetskii, D. A., Diffusion and Heat Exchange in Chemical
        Kinetics, Princeton University Press (1955).
+
+    Examples
+    --------
+    By hand: for a sphere (r = 0.5 m, rho = 1000 kg/m^3, k = 0.2 W/(m K), E = 100 kJ/mol)
+    a rate at 300 K of q = 3.322 k R T^2 / (E rho r^2) = 0.019887 W/kg makes delta(300 K)
+    equal to the critical 3.322 (from memory), so the critical ambient is 300 K:
+
+    >>> from screening.core.model import ArrheniusSource
+    >>> q = 3.322 * 0.2 * GAS_CONSTANT * 300.0**2 / (100e3 * 1000.0 * 0.5**2)
+    >>> t = frank_kamenetskii_critical_ambient("sphere", math.inf, 1000.0,
+    ...                                        [ArrheniusSource(q, 300.0, 100e3)], 0.5, 0.2)
+    >>> round(t, 2)
+    300.0
     """
     sources = _check_sources(sources)
     delta_c = frank_kamenetskii_critical(geometry, biot)

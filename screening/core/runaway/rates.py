@@ -41,8 +41,8 @@ References
 .. [1] Townsend, D. I. and Tou, J. C., "Thermal hazard evaluation by an
    accelerating rate calorimeter", Thermochimica Acta 37 (1980) 1-30.
 .. [2] Semenov, N. N., "Zur Theorie des Verbrennungsprozesses", Zeitschrift
-   fuer Physik 48 (1928) 571-582.
-.. [3] Frank-Kamenetskii, D. A., Acta Physicochimica URSS 10 (1939) 365;
+   fuer Physik 48 (1928) 571-582 (volume and pages from memory).
+.. [3] Frank-Kamenetskii, D. A., Acta Physicochimica URSS 10 (1939) 365 (from memory);
    *Diffusion and Heat Exchange in Chemical Kinetics*, Princeton University
    Press (1955), 2nd ed. Plenum (1969).
 .. [4] Stoessel, F., *Thermal Safety of Chemical Processes: Risk Assessment
@@ -283,27 +283,49 @@ def heat_generation(temperature, mass, sources, constant_power=0.0, conversion=N
 
     Parameters
     ----------
-    temperature : float or array, K
-    mass : float, kg
+    temperature : float or array, [K]
+        Any shape; > 0.
+    mass : float, [kg]
         Contents mass m.
     sources : sequence of :class:`screening.core.model.ArrheniusSource`
-    constant_power : float, W, default 0
+    constant_power : float, [W], default 0
         Temperature-independent power P (sum of constant sources).
-    conversion : None, float or sequence of float, dimensionless
+    conversion : None, float or sequence of float, [-]
         Conversion X of each source (one value for all, or one per source);
         None means zero conversion.
 
     Returns
     -------
-    float or array, W
+    float or array, [W]
+        Shaped like ``temperature``.
 
     Notes
     -----
-    .. math:: Q_{gen}(T) = P + m \sum_i q_i(T, X_i)
+    .. math:: Q_{gen}(T) = P + m \sum_i q_i(T, X_i), \qquad
+              q_i = q_{ref,i} \exp\left[-\frac{E_i}{R}\left(\frac{1}{T}
+              - \frac{1}{T_{ref,i}}\right)\right] (1 - X_i)^{n_i}
 
     with :math:`q_i` the Arrhenius law of
     :func:`screening.core.arrhenius.arrhenius_specific_power`, evaluated in
-    logarithms; the total is capped at about 1e304 W so it never overflows.
+    logarithms; the total is capped at about 1e304 W so it never overflows.  The
+    generation curve of Semenov's analysis [1]_.
+
+    References
+    ----------
+    .. [1] Semenov, N. N., Zeitschrift fuer Physik 48 (1928) 571-582 (from memory).
+
+    Examples
+    --------
+    By hand: 1000 kg of a material releasing 1 W/kg at its reference temperature 400 K,
+    plus a 500 W agitator, generate 1000 x 1 + 500 = 1500 W at 400 K; first order at
+    half conversion, 1000 x 1 x 0.5 = 500 W:
+
+    >>> from screening.core.model import ArrheniusSource
+    >>> src = ArrheniusSource(1.0, 400.0, 100e3)
+    >>> round(heat_generation(400.0, 1000.0, [src], 500.0), 9)
+    1500.0
+    >>> round(heat_generation(400.0, 1000.0, [ArrheniusSource(1.0, 400.0, 100e3, order=1.0)], 0.0, 0.5), 9)
+    500.0
     """
     t = _positive_temperature(temperature)
     sources = _check_sources(sources)
@@ -316,14 +338,18 @@ def heat_generation_slope(temperature, mass, sources, conversion=None):
 
     Parameters
     ----------
-    temperature : float or array, K
-    mass : float, kg
+    temperature : float or array, [K]
+        Any shape; > 0.
+    mass : float, [kg]
+        Contents mass m.
     sources : sequence of :class:`screening.core.model.ArrheniusSource`
-    conversion : None, float or sequence of float, dimensionless
+    conversion : None, float or sequence of float, [-]
+        As in :func:`heat_generation`.
 
     Returns
     -------
-    float or array, W/K
+    float or array, [W/K]
+        Shaped like ``temperature``.
 
     Notes
     -----
@@ -331,7 +357,22 @@ def heat_generation_slope(temperature, mass, sources, conversion=None):
 
     .. math:: \frac{dQ_{gen}}{dT} = m \sum_i q_i(T) \frac{E_i}{R T^2}
 
-    Each term increases with T while T < E_i / (2 R).
+    Each term increases with T while T < E_i / (2 R).  Semenov's criticality is
+    where this slope reaches the loss conductance (:func:`semenov_critical_ambient`);
+    the adiabatic time to maximum rate is :math:`m c_p` over it (:func:`tmr_adiabatic`).
+
+    References
+    ----------
+    Semenov, N. N., Zeitschrift fuer Physik 48 (1928) 571-582 (from memory).
+
+    Examples
+    --------
+    By hand: 1000 kg releasing 1 W/kg at 400 K with E = 100 kJ/mol:
+    1000 x 1 x 100000 / (8.314462618 x 400^2) = 75.1702 W/K:
+
+    >>> from screening.core.model import ArrheniusSource
+    >>> round(heat_generation_slope(400.0, 1000.0, [ArrheniusSource(1.0, 400.0, 100e3)]), 4)
+    75.1702
     """
     t = _positive_temperature(temperature)
     sources = _check_sources(sources)
@@ -345,17 +386,19 @@ def heat_loss(temperature, ua, ambient, heating_media: Sequence[HeatingMedium] =
 
     Parameters
     ----------
-    temperature : float or array, K
-    ua : float, W/K
+    temperature : float or array, [K]
+        Any shape.
+    ua : float, [W/K]
         Loss coefficient to ambient.
-    ambient : float, K
+    ambient : float, [K]
     heating_media : sequence of :class:`screening.core.model.HeatingMedium`
         Jackets or coils left on; each adds ``ua_k (T_m,k - T)`` of heat,
         i.e. removes ``ua_k (T - T_m,k)``.
 
     Returns
     -------
-    float or array, W (negative when the media heat more than ambient cools)
+    float or array, [W]
+        Shaped like ``temperature``; negative when the media heat more than ambient cools.
 
     Notes
     -----
@@ -363,7 +406,21 @@ def heat_loss(temperature, ua, ambient, heating_media: Sequence[HeatingMedium] =
               = G (T - T_{eq})
 
     with :math:`G = UA + \sum_k ua_k` and
-    :math:`T_{eq} = (UA\,T_a + \sum_k ua_k T_{m,k}) / G`.
+    :math:`T_{eq} = (UA\,T_a + \sum_k ua_k T_{m,k}) / G`: the straight loss line of
+    Semenov's analysis (constant UA, no radiation).
+
+    References
+    ----------
+    Semenov, N. N., Zeitschrift fuer Physik 48 (1928) 571-582 (from memory).
+
+    Examples
+    --------
+    By hand: contents at 310 K, 50 W/K to air at 300 K and a 320 K jacket with
+    ua = 20 W/K: 50 x 10 + 20 x (310 - 320) = 300 W:
+
+    >>> from screening.core.model import HeatingMedium
+    >>> heat_loss(310.0, 50.0, 300.0, [HeatingMedium(320.0, 20.0)])
+    300.0
     """
     t = np.asarray(temperature, dtype=float)
     out = ua * (t - ambient)
@@ -397,19 +454,19 @@ def kinetics_warnings(sources, temperatures=(), conversion=None, tested_range=No
     Parameters
     ----------
     sources : sequence of :class:`screening.core.model.ArrheniusSource`
-    temperatures : iterable of float or None, K
+    temperatures : iterable of float or None, [K]
         Temperatures at which the kinetics were used for the result (None and
         non-finite values are skipped).
-    conversion : None, float or sequence, dimensionless
+    conversion : None, float or sequence, [-]
         Only documents that rates are at zero or given conversion.
-    tested_range : None, (low, high) or sequence of (low, high or None), K
+    tested_range : None, (low, high) or sequence of (low, high or None), [K]
         Temperature range over which each source's parameters were measured;
         one pair for all sources or one per source.  None: each source's own
         ``tested_range`` attribute if it has one, otherwise only the
         reference temperature is known and distances are measured from it.
-    max_extrapolation : float, K
+    max_extrapolation : float, [K]
         Distance beyond the range at which extrapolation is flagged
-        (default :data:`DEFAULT_MAX_EXTRAPOLATION`, a screening choice).
+        (default :data:`DEFAULT_MAX_EXTRAPOLATION`, 20 K, a screening choice).
 
     Returns
     -------
@@ -417,6 +474,26 @@ def kinetics_warnings(sources, temperatures=(), conversion=None, tested_range=No
         Empty when there are no sources with a non-zero rate.  Otherwise
         :data:`WARNING_ZERO_CONVERSION` and, per source, at most one
         extrapolation warning (for the farthest temperature).
+
+    Notes
+    -----
+    A rate measured at zero conversion understates an autocatalytic decomposition, and
+    Arrhenius parameters extrapolated far beyond the tested range are not conservative
+    (another reaction or a lower activation energy may dominate): both are cautions of
+    common practice in thermal-safety assessment.  The 20 K default is this module's
+    screening choice, not a published limit.
+
+    Examples
+    --------
+    Kinetics tested over 380-420 K used at 450 K are 30 K beyond the range, more than
+    the 20 K allowed:
+
+    >>> from screening.core.model import ArrheniusSource
+    >>> w = kinetics_warnings([ArrheniusSource(1.0, 400.0, 100e3, tested_range=(380.0, 420.0))], [450.0])
+    >>> len(w), w[0] == WARNING_ZERO_CONVERSION
+    (2, True)
+    >>> w[1][:67]
+    'Arrhenius source 1: kinetics used at 450.0 K, 30 K above its tested'
     """
     sources = _check_sources(sources)
     active = [s for s in sources if s.specific_power > 0]

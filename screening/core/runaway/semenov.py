@@ -1,4 +1,15 @@
-"""Semenov's thermal explosion theory for a well-stirred mass: critical ambient, steady states."""
+r"""Semenov's thermal explosion theory for a well-stirred mass: critical ambient, steady states.
+
+A well-stirred mass at one temperature T gains :math:`Q_{gen}(T) = P + m \sum_i q_i(T)`
+and loses :math:`G (T - T_{eq})`.  Steady states are the intersections of the two
+curves; the mass runs away when the loss line no longer meets the generation curve,
+and the critical ambient is where the line is tangent to it.
+
+References
+----------
+Semenov, N. N., "Zur Theorie des Verbrennungsprozesses", *Zeitschrift fuer Physik* 48
+(1928) 571-582 (volume and pages from memory).
+"""
 from __future__ import annotations
 
 import math
@@ -25,14 +36,30 @@ from screening.core.runaway.rates import (
 # --------------------------------------------------------------------------
 
 class SemenovCritical(NamedTuple):
-    """Critical point of the Semenov balance (both K, or None)."""
+    """Critical point of the Semenov balance (returned by :func:`semenov_critical_ambient`).
+
+    Attributes
+    ----------
+    ambient : float or None, [K]
+        Ta,c, the highest ambient at which a stable steady state exists.
+    temperature : float or None, [K]
+        Tc, the contents temperature at the tangency.
+    """
 
     ambient: float | None
     temperature: float | None
 
 
 class SteadyStates(NamedTuple):
-    """Steady states of the Semenov balance (both K, or None)."""
+    """Steady states of the Semenov balance (returned by :func:`steady_states`).
+
+    Attributes
+    ----------
+    stable : float or None, [K]
+        The lower, stable steady temperature.
+    unstable : float or None, [K]
+        The upper, unstable one: the no-return temperature.
+    """
 
     stable: float | None
     unstable: float | None
@@ -71,18 +98,18 @@ def semenov_critical_ambient(mass, sources, constant_power, ua,
 
     Parameters
     ----------
-    mass : float, kg
+    mass : float, [kg]
         Contents mass m.
     sources : sequence of :class:`screening.core.model.ArrheniusSource`
-    constant_power : float, W
+    constant_power : float, [W]
         Temperature-independent power P.
-    ua : float, W/K
+    ua : float, [W/K]
         Loss coefficient to ambient.
     heating_media : sequence of :class:`screening.core.model.HeatingMedium`
         Extra linear terms ua_k (T_m,k - T) (jackets or coils left on).
-    conversion : None, float or sequence of float, dimensionless
+    conversion : None, float or sequence of float, [-]
         None means zero conversion.
-    temperature_range : (float, float), K
+    temperature_range : (float, float), [K], default (10, 5000)
         Range searched for the tangency temperature.
     full_output : bool
         Also return a list of warning texts.
@@ -90,8 +117,8 @@ def semenov_critical_ambient(mass, sources, constant_power, ua,
     Returns
     -------
     SemenovCritical(ambient, temperature)
-        ``ambient``: Ta,c, K, the highest ambient at which a stable steady
-        state exists; ``temperature``: Tc, K, the contents temperature at
+        ``ambient``: Ta,c [K], the highest ambient at which a stable steady
+        state exists; ``temperature``: Tc [K], the contents temperature at
         the tangency.  Both None when ``ua == 0`` (no ambient gives a steady
         state), when there is no Arrhenius source, or when no tangency lies
         in ``temperature_range`` (``full_output`` says which).
@@ -117,10 +144,35 @@ def semenov_critical_ambient(mass, sources, constant_power, ua,
     be further tangencies at higher temperatures; the lowest one ends the
     low-temperature stable branch and is the one reported.  The contents are
     taken as well stirred (uniform temperature); boiling is given no credit.
+    Transient inputs (decaying sources, fire) are not in it: see
+    :data:`WARNING_TRANSIENT_SOURCES`.
 
     References
     ----------
-    .. [1] Semenov, N. N., Z. Phys. 48 (1928) 571-582.
+    .. [1] Semenov, N. N., Z. Phys. 48 (1928) 571-582 (volume and pages from memory).
+
+    Examples
+    --------
+    Semenov's relation, by hand: 1000 kg releasing 1 W/kg at 400 K with E = 100 kJ/mol
+    has a generation slope of 1000 x 1 x 100000 / (R 400^2) = 75.1702 W/K at 400 K
+    (:func:`heat_generation_slope`).  With UA equal to that slope the tangency is at
+    Tc = 400 K, and Ta,c = Tc - R Tc^2 / E = 400 - 8.314462618 x 400^2 / 100000
+    = 386.6969 K:
+
+    >>> from screening.core.model import ArrheniusSource
+    >>> src = ArrheniusSource(1.0, 400.0, 100e3)
+    >>> ua = 1000.0 * 1.0 * 100e3 / (GAS_CONSTANT * 400.0**2)
+    >>> crit = semenov_critical_ambient(1000.0, [src], 0.0, ua)
+    >>> round(crit.temperature, 6), round(crit.ambient, 4)
+    (400.0, 386.6969)
+
+    By hand, with half that conductance to a jacket at 380 K instead of to ambient,
+    G and T_eq,c are unchanged and Ta,c = 2 x 386.6969 - 380 = 393.3937 K:
+
+    >>> from screening.core.model import HeatingMedium
+    >>> round(semenov_critical_ambient(1000.0, [src], 0.0, ua / 2,
+    ...                                [HeatingMedium(380.0, ua / 2)]).ambient, 4)
+    393.3937
     """
     if not (math.isfinite(mass) and mass >= 0):
         raise ValueError("mass must be finite and >= 0")
@@ -242,14 +294,17 @@ def steady_states(mass, sources, constant_power, ua, ambient,
 
     Parameters
     ----------
-    mass : float, kg
+    mass : float, [kg]
+        Contents mass m.
     sources : sequence of :class:`screening.core.model.ArrheniusSource`
-    constant_power : float, W
-    ua : float, W/K
-    ambient : float, K
+    constant_power : float, [W]
+        Temperature-independent power P.
+    ua : float, [W/K]
+        Loss coefficient to ambient.
+    ambient : float, [K]
     heating_media : sequence of :class:`screening.core.model.HeatingMedium`
-    conversion : None, float or sequence of float, dimensionless
-    temperature_range : (float, float), K
+    conversion : None, float or sequence of float, [-]
+    temperature_range : (float, float), [K], default (10, 5000)
         Range searched.
     full_output : bool
         Also return a list of warning texts.
@@ -257,8 +312,8 @@ def steady_states(mass, sources, constant_power, ua, ambient,
     Returns
     -------
     SteadyStates(stable, unstable)
-        ``stable``: the lower, stable steady temperature, K; ``unstable``:
-        the upper, unstable one, K -- the no-return temperature: contents
+        ``stable``: the lower, stable steady temperature [K]; ``unstable``:
+        the upper, unstable one [K] -- the no-return temperature: contents
         above it run away.  ``(None, None)`` above the critical ambient or
         with no heat loss at all; ``unstable`` is None when generation never
         overtakes the loss line in the range (e.g. no Arrhenius source, where
@@ -277,11 +332,34 @@ def steady_states(mass, sources, constant_power, ua, ambient,
     root is stable; above T_c, F rises and the next root is unstable.  Each
     is bracketed (with T_c and the search grid) and refined with Brent's
     method.  Only the low-temperature branch is reported; a hot steady state
-    reached after a runaway is not.
+    reached after a runaway is not.  Steady states only: a transient input (decaying
+    source, fire, a hot start) can carry the contents above the no-return temperature.
 
     References
     ----------
-    .. [1] Semenov, N. N., Z. Phys. 48 (1928) 571-582.
+    .. [1] Semenov, N. N., Z. Phys. 48 (1928) 571-582 (volume and pages from memory).
+
+    Examples
+    --------
+    By hand: 1000 kg releasing 1 W/kg at 400 K (E = 100 kJ/mol) with UA = 150 W/K is
+    steady at 400 K when 1000 W = 150 (400 - T_a), i.e. at T_a = 400 - 1000/150 =
+    393.333 K; 400 K is the stable state because the generation slope there, 75.17 W/K,
+    is below UA.  The no-return temperature lies above; at it generation equals loss:
+
+    >>> from screening.core.model import ArrheniusSource
+    >>> src = ArrheniusSource(1.0, 400.0, 100e3)
+    >>> st = steady_states(1000.0, [src], 0.0, 150.0, 400.0 - 1000.0 / 150.0)
+    >>> round(st.stable, 6), st.unstable > 400.0
+    (400.0, True)
+    >>> gen = heat_generation(st.unstable, 1000.0, [src])
+    >>> round(gen / (150.0 * (st.unstable - (400.0 - 1000.0 / 150.0))), 9)
+    1.0
+
+    Without an Arrhenius source the steady state is the linear one, by hand
+    300 + 500 / 50 = 310 K:
+
+    >>> steady_states(1000.0, [], 500.0, 50.0, 300.0)
+    SteadyStates(stable=310.0, unstable=None)
     """
     if not (math.isfinite(mass) and mass >= 0):
         raise ValueError("mass must be finite and >= 0")

@@ -1,4 +1,17 @@
-"""Adiabatic temperature rise, MTSR, criticality classes, probability and severity classes."""
+r"""Adiabatic temperature rise, MTSR, criticality classes, probability and severity classes.
+
+The cooling-failure scenario: at the process temperature :math:`T_p` cooling fails;
+the accumulated synthesis reaction raises the contents to the maximum temperature of
+the synthesis reaction, :math:`MTSR = T_p + X_{ac} \Delta T_{ad}`; whether a secondary
+decomposition then runs away is judged from the order of MTSR, the maximum
+temperature for technical reasons (MTT) and T_D24, and its probability and severity
+from TMRad at MTSR and the decomposition's adiabatic rise.
+
+References
+----------
+Stoessel, F., *Thermal Safety of Chemical Processes: Risk Assessment and Process
+Design*, Wiley-VCH, Weinheim (2008) (from memory).
+"""
 from __future__ import annotations
 
 import math
@@ -33,9 +46,9 @@ def adiabatic_temperature_rise(mass, specific_heat, arrhenius_sources=(),
 
     Parameters
     ----------
-    mass : float, kg
+    mass : float, [kg]
         Contents mass m (> 0).
-    specific_heat : float, J/(kg K)
+    specific_heat : float, [J/(kg K)]
         Contents only; the wall heat capacity is ignored, which makes the
         rise larger: conservative.
     arrhenius_sources : sequence of :class:`screening.core.model.ArrheniusSource`
@@ -54,7 +67,7 @@ def adiabatic_temperature_rise(mass, specific_heat, arrhenius_sources=(),
 
     Returns
     -------
-    float, K
+    float, [K]
         ``math.inf`` when the rise is unbounded (test with
         ``math.isinf``; the warnings say which source).
     warnings : list of str
@@ -68,10 +81,28 @@ def adiabatic_temperature_rise(mass, specific_heat, arrhenius_sources=(),
     :math:`\int_0^\infty P e^{-t/\tau} dt = P\tau` is the energy still to
     come from a decaying source.  The accumulated fraction times the
     adiabatic rise is the quantity that enters the MTSR (Stoessel [1]_).
+    Adiabatic: all the energy stays in the contents (no loss, no boiling).
 
     References
     ----------
-    .. [1] Stoessel, F., Thermal Safety of Chemical Processes, Wiley-VCH (2008).
+    .. [1] Stoessel, F., *Thermal Safety of Chemical Processes: Risk Assessment and Process
+       Design*, Wiley-VCH, Weinheim (2008) (from memory: the chapter on the assessment of
+       thermal risks, with the cooling-failure scenario, the criticality classes and the
+       severity and probability scales).
+
+    Examples
+    --------
+    By hand: 1000 kg at c_p = 2000 J/(kg K) with 40 % of a 300 kJ/kg heat of reaction
+    still to come rise by 0.4 x 300000 / 2000 = 60 K; a decaying source of 1 kW with
+    a = 1000 s adds 1e6 J / 2e6 J/K = 0.5 K:
+
+    >>> from screening.core.model import ArrheniusSource
+    >>> src = ArrheniusSource(0.0, 353.15, 80e3, order=1.0, specific_heat_of_reaction=300e3,
+    ...                       accumulated_fraction=0.4)
+    >>> adiabatic_temperature_rise(1000.0, 2000.0, [src])
+    60.0
+    >>> adiabatic_temperature_rise(1000.0, 2000.0, [src], [DecayingSource(1000.0, 1000.0)])
+    60.5
     """
     if not (math.isfinite(mass) and mass > 0):
         raise ValueError("mass must be finite and > 0")
@@ -192,25 +223,41 @@ def mtsr(process_temperature, temperature_rise):
 
     Parameters
     ----------
-    process_temperature : float or array, K
+    process_temperature : float or array, [K]
         Process temperature Tp at the moment cooling fails.
-    temperature_rise : float, array or None, K
+    temperature_rise : float, array or None, [K]
         Adiabatic rise of the *accumulated* energy, as returned by
         :func:`adiabatic_temperature_rise` (already weighted by the
         accumulated fraction); may be ``inf``.
 
     Returns
     -------
-    float, array or None, K
-        None when ``temperature_rise`` is None.
+    float, array or None, [K]
+        Broadcast shape of the inputs; None when ``temperature_rise`` or
+        ``process_temperature`` is None.
 
     Notes
     -----
     .. math:: MTSR = T_p + X_{ac} \Delta T_{ad}
 
+    Pass :math:`X_{ac} \Delta T_{ad}` as ``temperature_rise``.  Only the accumulated
+    synthesis reaction counts; the decomposition is judged separately (T_D24, TMRad at
+    MTSR).
+
     References
     ----------
-    .. [1] Stoessel, F., Thermal Safety of Chemical Processes, Wiley-VCH (2008).
+    .. [1] Stoessel, F., *Thermal Safety of Chemical Processes: Risk Assessment and Process
+       Design*, Wiley-VCH, Weinheim (2008) (from memory: the chapter on the assessment of
+       thermal risks, with the cooling-failure scenario, the criticality classes and the
+       severity and probability scales).
+
+    Examples
+    --------
+    By hand: Tp = 80 degC (353.15 K), 40 % of a 150 K adiabatic rise accumulated:
+    MTSR = 353.15 + 0.4 x 150 = 413.15 K:
+
+    >>> round(mtsr(353.15, 0.4 * 150.0), 9)
+    413.15
     """
     if temperature_rise is None or process_temperature is None:
         return None
@@ -227,16 +274,16 @@ def criticality_class(tp, mtsr, mtt, td24, *, full_output=False):
 
     Parameters
     ----------
-    tp : float or None, K
+    tp : float or None, [K]
         Process temperature; used only to check that it lies below MTSR,
         MTT and T_D24, as the scheme presumes (None skips the check).
-    mtsr : float or None, K
+    mtsr : float or None, [K]
         MTSR, e.g. from :func:`mtsr` (the parameter shadows that function
         inside this one only).  May be ``inf`` (unbounded rise).
-    mtt : float or None, K
+    mtt : float or None, [K]
         Maximum temperature for technical reasons (boiling point when open,
         the allowed limit when closed).
-    td24 : float or None, K
+    td24 : float or None, [K]
         Pass ``math.inf`` if TMRad is known to exceed 24 h at every relevant
         temperature; None (not known) gives None.
     full_output : bool
@@ -267,7 +314,26 @@ def criticality_class(tp, mtsr, mtt, td24, *, full_output=False):
 
     References
     ----------
-    .. [1] Stoessel, F., Thermal Safety of Chemical Processes, Wiley-VCH (2008).
+    .. [1] Stoessel, F., *Thermal Safety of Chemical Processes: Risk Assessment and Process
+       Design*, Wiley-VCH, Weinheim (2008) (from memory: the chapter on the assessment of
+       thermal risks, with the cooling-failure scenario, the criticality classes and the
+       severity and probability scales).
+
+    Examples
+    --------
+    Stoessel's ordering (from memory), with Tp = 353.15 K and the three temperatures
+    373.15, 383.15 and 403.15 K arranged as each class states it
+    (MTSR, MTT, T_D24):
+
+    >>> [criticality_class(353.15, m, t, d) for m, t, d in [
+    ...     (373.15, 383.15, 403.15),   # 1: MTSR < MTT < T_D24
+    ...     (373.15, 403.15, 383.15),   # 2: MTSR < T_D24 < MTT
+    ...     (383.15, 373.15, 403.15),   # 3: MTT < MTSR < T_D24
+    ...     (403.15, 373.15, 383.15),   # 4: MTT < T_D24 < MTSR
+    ...     (403.15, 383.15, 373.15)]]  # 5: T_D24 < MTT < MTSR
+    [1, 2, 3, 4, 5]
+    >>> criticality_class(353.15, 373.15, 373.15, 403.15)  # a tie goes to the higher class
+    3
     """
     warnings: list[str] = []
     if _missing(mtsr) or _missing(mtt) or _missing(td24):
@@ -310,7 +376,7 @@ def tmr_probability_class(tmr_s, levels=3):
 
     Parameters
     ----------
-    tmr_s : float or None, s
+    tmr_s : float or None, [s]
         TMRad, normally at the MTSR.
     levels : {3, 6}
         Three levels: "high" (< 8 h), "medium" (8-24 h), "low" (> 24 h).
@@ -332,7 +398,21 @@ def tmr_probability_class(tmr_s, levels=3):
 
     References
     ----------
-    .. [1] Stoessel, F., Thermal Safety of Chemical Processes, Wiley-VCH (2008).
+    .. [1] Stoessel, F., *Thermal Safety of Chemical Processes: Risk Assessment and Process
+       Design*, Wiley-VCH, Weinheim (2008) (from memory: the chapter on the assessment of
+       thermal risks, with the cooling-failure scenario, the criticality classes and the
+       severity and probability scales).
+
+    Examples
+    --------
+    Stoessel's scales (from memory): high below 8 h, medium 8-24 h, low above 24 h
+    (exactly 8 h counts as high); six levels: frequent < 1 h, seldom 24-50 h, almost
+    impossible > 100 h:
+
+    >>> [tmr_probability_class(h * 3600.0) for h in (4, 8, 12, 48)]
+    ['high', 'high', 'medium', 'low']
+    >>> [tmr_probability_class(h * 3600.0, levels=6) for h in (0.5, 30, 200)]
+    ['frequent', 'seldom', 'almost impossible']
     """
     if _missing(tmr_s):
         return None
@@ -356,8 +436,9 @@ def severity_class(temperature_rise, *, full_output=False):
 
     Parameters
     ----------
-    temperature_rise : float or None, K
-        May be ``inf``.
+    temperature_rise : float or None, [K]
+        Adiabatic temperature rise of the decomposition (final temperature
+        MTSR + this rise); may be ``inf``.
     full_output : bool
         Also return a list of warning texts.
 
@@ -378,7 +459,18 @@ def severity_class(temperature_rise, *, full_output=False):
 
     References
     ----------
-    .. [1] Stoessel, F., Thermal Safety of Chemical Processes, Wiley-VCH (2008).
+    .. [1] Stoessel, F., *Thermal Safety of Chemical Processes: Risk Assessment and Process
+       Design*, Wiley-VCH, Weinheim (2008) (from memory: the chapter on the assessment of
+       thermal risks, with the cooling-failure scenario, the criticality classes and the
+       severity and probability scales).
+
+    Examples
+    --------
+    Stoessel's scale (from memory): 250 K high, exactly 200 K high (the more severe
+    class at a boundary), 100 K medium, 30 K low:
+
+    >>> [severity_class(x) for x in (250.0, 200.0, 100.0, 30.0)]
+    ['high', 'high', 'medium', 'low']
     """
     warnings: list[str] = []
     if _missing(temperature_rise):

@@ -1,4 +1,16 @@
-"""Time to maximum rate under adiabatic conditions (TMRad) and T_D24."""
+r"""Time to maximum rate under adiabatic conditions (TMRad) and T_D24.
+
+.. math:: TMR_{ad} = \frac{c_p R T_0^2}{q_0 E}
+
+(Townsend and Tou 1980), the time a zero-order self-heating mass with no heat loss
+takes from T_0 to its maximum rate; T_D24 is the temperature at which it is 24 h
+(trade term).
+
+References
+----------
+Townsend, D. I. and Tou, J. C., "Thermal hazard evaluation by an accelerating rate
+calorimeter", *Thermochimica Acta* 37 (1980) 1-30.
+"""
 from __future__ import annotations
 
 import math
@@ -33,22 +45,22 @@ def tmr_adiabatic(temperature, specific_heat, sources, conversion=None):
 
     Parameters
     ----------
-    temperature : float or array, K
-        Starting temperature T0.
-    specific_heat : float, J/(kg K)
+    temperature : float or array, [K]
+        Starting temperature T0, any shape.
+    specific_heat : float, [J/(kg K)]
         Specific heat of the contents only.  The heat capacity of the vessel
         wall is ignored here, which shortens the time: conservative.
     sources : sequence of :class:`screening.core.model.ArrheniusSource`
-    conversion : None, float or sequence of float, dimensionless
+    conversion : None, float or sequence of float, [-]
         Conversion at which rates are taken; None means zero conversion (the
         fastest rate for an n-th order reaction; not for an autocatalytic
         one, see :data:`WARNING_ZERO_CONVERSION`).
 
     Returns
     -------
-    float or array, s
-        ``inf`` where no source releases heat with a positive activation
-        energy.
+    float or array, [s]
+        Shaped like ``temperature``; ``inf`` where no source releases heat with a
+        positive activation energy.
 
     Notes
     -----
@@ -66,10 +78,23 @@ def tmr_adiabatic(temperature, specific_heat, sources, conversion=None):
     induction time; the exact time is longer by a factor of about
     :math:`1 + 2 R T_0 / E`, so the formula is conservative for a zero-order
     reaction.  Reactant consumption (order > 0) lengthens the real time too.
+    Adiabatic: no heat loss, which a real vessel has, so the time is a lower bound
+    for a well-stirred mass (conservative).
 
     References
     ----------
-    .. [1] Townsend, D. I. and Tou, J. C., Thermochimica Acta 37 (1980) 1-30.
+    .. [1] Townsend, D. I. and Tou, J. C., "Thermal hazard evaluation by an accelerating
+       rate calorimeter", Thermochimica Acta 37 (1980) 1-30.
+
+    Examples
+    --------
+    By hand (Townsend and Tou's formula): c_p = 2000 J/(kg K), a rate of 1 W/kg at
+    T0 = 400 K and E = 100 kJ/mol give
+    2000 x 8.314462618 x 400^2 / (1 x 100000) = 26606.28 s (7.39 h):
+
+    >>> from screening.core.model import ArrheniusSource
+    >>> round(tmr_adiabatic(400.0, 2000.0, [ArrheniusSource(1.0, 400.0, 100e3)]), 2)
+    26606.28
     """
     t = _positive_temperature(temperature)
     if not (math.isfinite(specific_heat) and specific_heat > 0):
@@ -87,22 +112,22 @@ def t_d24(specific_heat, sources, conversion=None, *, target_time=T_D24_TIME,
 
     Parameters
     ----------
-    specific_heat : float, J/(kg K)
+    specific_heat : float, [J/(kg K)]
         Contents only; wall heat capacity ignored (conservative: a lower
         T_D24).
     sources : sequence of :class:`screening.core.model.ArrheniusSource`
-    conversion : None, float or sequence of float, dimensionless
+    conversion : None, float or sequence of float, [-]
         As in :func:`tmr_adiabatic`.
-    target_time : float, s, default 86400
+    target_time : float, [s], default 86400
         Other values give, e.g., T_D8 for 8 h.
-    temperature_range : (float, float), K, default (200, 1500)
+    temperature_range : (float, float), [K], default (200, 1500)
         Range searched.
     full_output : bool, default False
         Also return a list of warning texts.
 
     Returns
     -------
-    float or None, K
+    float or None, [K]
         The lowest temperature in ``temperature_range`` where TMRad equals
         ``target_time``.  None when there is none: either TMRad is already
         shorter at the bottom of the range (the material is that unstable
@@ -118,11 +143,25 @@ def t_d24(specific_heat, sources, conversion=None, *, target_time=T_D24_TIME,
     the range is scanned on a grid (local minima between grid points are
     checked), and the lowest crossing is refined with Brent's method on
     :math:`\ln TMR_{ad} - \ln t_{target}`.  T_D24 is a trade term built on
-    Townsend and Tou [1]_.
+    Townsend and Tou [1]_:
+
+    .. math:: \frac{c_p R\, T_{D24}^2}{\sum_i q_i(T_{D24}) E_i} = 24\ \text{h}
 
     References
     ----------
-    .. [1] Townsend, D. I. and Tou, J. C., Thermochimica Acta 37 (1980) 1-30.
+    .. [1] Townsend, D. I. and Tou, J. C., "Thermal hazard evaluation by an accelerating
+       rate calorimeter", Thermochimica Acta 37 (1980) 1-30.
+
+    Examples
+    --------
+    By hand: with c_p = 2000 J/(kg K) and E = 100 kJ/mol, a rate at 400 K of
+    q = c_p R T^2 / (86400 s x E) = 2000 x 8.314462618 x 400^2 / (86400 x 100000)
+    = 0.307943 W/kg makes TMRad(400 K) = 24 h, so T_D24 = 400 K:
+
+    >>> from screening.core.model import ArrheniusSource
+    >>> q24 = 2000.0 * 8.314462618 * 400.0**2 / (86400.0 * 100e3)
+    >>> round(t_d24(2000.0, [ArrheniusSource(q24, 400.0, 100e3)]), 6)
+    400.0
     """
     if not (math.isfinite(specific_heat) and specific_heat > 0):
         raise ValueError("specific_heat must be finite and > 0")
