@@ -866,7 +866,7 @@ def _integrate(model: ScreeningModel, stop_temperature: float | None) -> Numeric
     for i, lim in enumerate(limits):
         if lim.temperature <= T0:
             reached[i] = 0.0
-            limit_warn[i].append("Limit at or below the initial temperature: reached at t = 0.")
+            limit_warn[i].append("Limit at or below the temperature the history starts at: reached at t = 0.")
         elif lim.temperature > ceiling:
             limit_warn[i].append(f"Limit above the stop temperature {ceiling:.1f} K: not evaluated.")
 

@@ -96,7 +96,7 @@ def screen_closed_form(prepared: PreparedCase, values: ClosedFormValues | None =
             t = None  # held at the boiling point while liquid remains
         limit_rows.append({"name": lim.name, "temperature_K": lim.temperature, "time_s": t, "reached": t is not None})
         if t == 0.0:
-            warnings.append(limit_at_start_warning(lim.name, lim.temperature, T0, unit))
+            warnings.append(limit_at_start_warning(lim.name, lim.temperature, model_start_temperature(model), unit))
     peak_T, peak_t = values.peak
     end_rate = values.end_rate
     if boil is not None:

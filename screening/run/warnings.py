@@ -28,9 +28,10 @@ def _hours(s: float) -> str:
 ADIABATIC_WARNING = "No heat loss and no heating medium (UA = 0): the vessel is treated as adiabatic."
 
 
-def limit_at_start_warning(name: str, temperature: float, initial_temperature: float, unit: str) -> str:
+def limit_at_start_warning(name: str, temperature: float, start_temperature: float, unit: str) -> str:
+    """``start_temperature``: where the history starts (the initial temperature, plus heat released at t = 0)."""
     return (f"Limit '{name}' ({_fmt_temp(temperature, unit)}) is already reached at the start: "
-            f"the initial temperature is {_fmt_temp(initial_temperature, unit)}.")
+            f"the contents start at {_fmt_temp(start_temperature, unit)}.")
 
 
 def short_horizon_warning(horizon: float, tau: float) -> str:

@@ -267,6 +267,17 @@ def _q_limit_exceeded_at_start(r):
 
 
 @_safe
+def _q_start_temperature(r):
+    block = r.get("start_release")
+    if isinstance(block, dict):
+        v = _num(block, "temperature_K")
+        if v is not None:
+            return v, None
+    v = _num(r, "initial_temperature_K")
+    return _Missing(UNKNOWN, "initial temperature not in the result") if v is None else (v, None)
+
+
+@_safe
 def _q_undetected_limit(r):
     if "detection_time_s" not in r:
         return _Missing(UNKNOWN, "detection time not in the result")
@@ -705,6 +716,8 @@ def _quantity_table() -> dict[str, Quantity]:
         # heat-up curve
         Quantity("initial_temperature", TEMPERATURE, "initial temperature",
                  _safe(_plain("initial_temperature_K", UNKNOWN, "initial temperature not in the result"))),
+        Quantity("start_temperature", TEMPERATURE, "temperature the history starts at: the initial temperature, "
+                 "plus the heat of a synthesis given without kinetics, released at t = 0", _q_start_temperature),
         Quantity("ambient_temperature", TEMPERATURE, "ambient temperature",
                  _safe(_plain("ambient_temperature_K", UNKNOWN, "ambient temperature not in the result"))),
         Quantity("peak_temperature", TEMPERATURE, "highest temperature within the horizon",
