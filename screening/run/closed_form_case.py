@@ -84,7 +84,6 @@ def screen_closed_form(prepared: PreparedCase, values: ClosedFormValues | None =
     G, steady = _conductance_and_steady(model)
     C = model.heat_capacity
     tau = C / G if G > 0 and math.isfinite(C / G) else None
-    T0 = model.initial_temperature
 
     boiling_result = None
     boil = model.boiling
