@@ -236,6 +236,14 @@ def demo_bytes(name: str) -> bytes:
     return (DEMO / name).read_bytes()
 
 
+def slow_case_bytes() -> bytes:
+    """A case whose check takes well over 0.25 s even in a warm worker: the demo reactor (stiff
+    integrations) with a Monte Carlo block of 5000 samples (about 1 s on the project machine)."""
+    return demo_bytes("fw-r301-reactor.yaml") + (
+        b"uncertainty:\n  samples: 5000\n  seed: 1\n  inputs:\n"
+        b"    heat_loss.coefficient: {distribution: uniform, low: 4 W/(m^2*K), high: 8 W/(m^2*K)}\n")
+
+
 def register_csv(rows: list[dict]) -> bytes:
     import io
 

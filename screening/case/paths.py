@@ -112,13 +112,23 @@ class Slot(NamedTuple):
     index: int = 0
 
 
+def slot_kind(source) -> str:
+    """The kind a heat source's slots are filed under: its ``kind``, except that an arrhenius synthesis given
+    without kinetics (released at t = 0, not an Arrhenius source of the model) is ``arrhenius-at-start``, whose
+    fields no fast path writes."""
+    if source.kind == "arrhenius" and not source.has_kinetics:
+        return "arrhenius-at-start"
+    return source.kind
+
+
 def source_positions(spec: CaseSpec) -> tuple[int, ...]:
-    """For each entry of ``heat_sources``: its position among the sources of the same kind."""
+    """For each entry of ``heat_sources``: its position among the model's sources of the same kind."""
     counts: dict = {}
     out = []
     for s in spec.heat_sources:
-        out.append(counts.get(s.kind, 0))
-        counts[s.kind] = out[-1] + 1
+        kind = slot_kind(s)
+        out.append(counts.get(kind, 0))
+        counts[kind] = out[-1] + 1
     return tuple(out)
 
 
@@ -133,9 +143,12 @@ def model_slot(spec: CaseSpec, path: tuple, positions: tuple[int, ...] | None = 
     if len(path) == 3 and path[0] == "limits" and path[2] == "temperature" and isinstance(path[1], int):
         return Slot("limit", path[1])
     if len(path) == 3 and path[0] == "heat_sources" and isinstance(path[1], int) and path[1] < len(spec.heat_sources):
-        kind = SOURCE_SLOTS.get((spec.heat_sources[path[1]].kind, path[2]))
+        source = spec.heat_sources[path[1]]
+        kind = SOURCE_SLOTS.get((slot_kind(source), path[2]))
         if kind is None:
             return None
+        if kind == "af" and getattr(source, "initial_specific_power", None) is not None:
+            return None  # the zero-conversion rate follows the accumulated fraction: prepare the case again
         pos = (positions if positions is not None else source_positions(spec))[path[1]]
         return Slot(kind, pos)
     return None

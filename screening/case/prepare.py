@@ -20,6 +20,7 @@ from screening.case.schema import (
     HeatingMediumSpec,
     Quantity,
     _area_value,
+    effective_scenario,
 )
 from screening.case.uncertainty_plan import plan_uncertainty
 from screening.case.units import parse_quantity, temperature_unit_of
@@ -46,6 +47,7 @@ class PreparedCase:
     inputs: list[dict]
     display_temperature_unit: str
     warnings: list[str] = field(default_factory=list)
+    assumptions: list[str] = field(default_factory=list)  # stated defaults, added to the result's assumptions
     geometry: dict = field(default_factory=dict)
     response_time: float | None = None
     detection_alarm: float | None = None  # K
@@ -198,21 +200,19 @@ def prepare_case(spec: CaseSpec, inputs: list[dict] | None = None) -> PreparedCa
     if spec.vessel is not None and spec.vessel.wall_mass is not None:
         wall = spec.vessel.wall_mass.si * spec.vessel.wall_specific_heat.si
     # sources
-    constants, decaying, media, arrh, fires = [], [], [], [], []
+    constants, decaying, media, arrh, fires, released = [], [], [], [], [], []
+    assumptions: list[str] = []
     for i, s in enumerate(spec.heat_sources):
         if isinstance(s, ConstantSpec):
             constants.append(m.ConstantSource(s.power.si))
         elif isinstance(s, DecayingSpec):
             a = s.time_constant.si if s.time_constant is not None else s.half_life.si / math.log(2.0)
-            decaying.append(m.DecayingSource(s.power.si, a))
+            decaying.append(m.DecayingSource(s.power.si, a, s.role))
         elif isinstance(s, HeatingMediumSpec):
             media.append(m.HeatingMedium(s.medium_temperature.si, s.ua.si))
         elif isinstance(s, ArrheniusSpec):
-            af = s.accumulated_fraction.si if s.accumulated_fraction is not None else 1.0
-            arrh.append(m.ArrheniusSource(s.specific_power.si, s.reference_temperature.si, s.activation_energy.si,
-                                          float(s.order),
-                                          s.specific_heat_of_reaction.si if s.specific_heat_of_reaction else None,
-                                          af, s.gas_generating, _tested_range(s)))
+            source = _arrhenius_source(s, i, assumptions)
+            (arrh if isinstance(source, m.ArrheniusSource) else released).append(source)
         elif isinstance(s, FireSpec):
             fires.append(_fire_source(s, i, shape, liquid_volume, problems, warnings))
     if problems:
@@ -251,9 +251,10 @@ def prepare_case(spec: CaseSpec, inputs: list[dict] | None = None) -> PreparedCa
         mixing=c.mixing, thermal_conductivity=c.thermal_conductivity.si if c.thermal_conductivity else None,
         characteristic_length=char_length, conduction_geometry=cond[0] if cond else None,
         conduction_radius=cond[1] if cond else None, density=c.density.si if c.density else None,
-        surface_coefficient=surface_coefficient)
+        surface_coefficient=surface_coefficient, released_at_start=tuple(released),
+        scenario=effective_scenario(spec))
     prepared = PreparedCase(model, spec, inputs if inputs is not None else collect_inputs(spec), _display_unit(spec),
-                            warnings, geometry,
+                            warnings, assumptions, geometry,
                             fill_fraction=fill_fraction, surface_coefficient=surface_coefficient,
                             source_positions=source_positions(spec))
     if spec.response_time is not None:
@@ -276,6 +277,46 @@ def prepare_case(spec: CaseSpec, inputs: list[dict] | None = None) -> PreparedCa
     if spec.uncertainty is not None:
         prepared.uncertainty_plan = plan_uncertainty(spec)
     return prepared
+
+
+def source_name(spec: ArrheniusSpec, index: int) -> str:
+    """How the output names a heat source: its label, or its place in the case."""
+    return f"heat_sources.{index}" + (f" ({spec.label})" if spec.label else "")
+
+
+def _arrhenius_source(s: ArrheniusSpec, index: int, assumptions: list[str]):
+    """The SI source of an arrhenius entry: an ArrheniusSource, or a StartRelease for a synthesis without kinetics."""
+    name = source_name(s, index)
+    role = s.effective_role
+    dh = s.specific_heat_of_reaction.si if s.specific_heat_of_reaction is not None else None
+    if s.accumulated_fraction is not None:
+        af = s.accumulated_fraction.si
+    else:
+        af = 1.0
+        if role == "synthesis":
+            assumptions.append(f"{name}: accumulated_fraction is not stated, so the whole heat of reaction (100 %) "
+                               f"is taken as accumulated when cooling fails (conservative).")
+    if not s.has_kinetics:
+        assumptions.append(f"{name}: a synthesis given without kinetics. Its accumulated heat ({af * 100:.4g} % of "
+                           f"{dh / 1e3:.4g} kJ/kg) enters the MTSR and, in the temperature history, is released at "
+                           f"once at t = 0 (conservative: the real release is slower, so limits are reached no "
+                           f"earlier than shown).")
+        return m.StartRelease(dh, af, name)
+    if s.specific_power is not None:
+        q0 = s.specific_power.si
+    elif s.order == 0 or af == 1.0:
+        q0 = s.initial_specific_power.si
+    else:
+        q0 = s.initial_specific_power.si / af ** s.order  # the rate at zero conversion
+    gas = s.gas_generating
+    if gas is None:
+        gas = role == "decomposition"
+        if gas:
+            assumptions.append(f"{name}: gas_generating is not stated, so the decomposition is taken to make "
+                               f"permanent gas (conservative: no credit for boiling, and the gas pressurises a "
+                               f"closed vessel or package).")
+    return m.ArrheniusSource(q0, s.reference_temperature.si, s.activation_energy.si, float(s.order), dh, af, gas,
+                             _tested_range(s), role, name)
 
 
 def _tested_range(s: ArrheniusSpec):

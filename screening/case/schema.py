@@ -22,6 +22,7 @@ from pydantic import (
     Tag,
     ValidationError,
     WithJsonSchema,
+    field_validator,
     model_validator,
 )
 
@@ -228,6 +229,9 @@ class ConstantSpec(_Source):
 
 class DecayingSpec(_Source):
     kind: Literal["decaying"]
+    role: Literal["synthesis"] | None = Field(default=None, description=(
+        "optional: 'synthesis' marks the remaining heat of the desired reaction, released without kinetics; it "
+        "enters the MTSR and makes cooling-failure the default scenario"))
     power: Q("power", "nonnegative")
     time_constant: Q("time", "positive") = None
     half_life: Q("time", "positive") = None
@@ -245,26 +249,98 @@ class HeatingMediumSpec(_Source):
     ua: Q("conductance", "nonnegative")
 
 
+#: The migration message for ``accumulated_fraction`` on a source that is not declared a synthesis.
+ACCUMULATED_FRACTION_NEEDS_SYNTHESIS = (
+    "accumulated_fraction applies to the desired (synthesis) reaction: add `role: synthesis`; if this source is "
+    "a decomposition, remove accumulated_fraction")
+
+_KINETIC_FIELDS = ("specific_power", "initial_specific_power", "reference_temperature", "activation_energy")
+
+
 class ArrheniusSpec(_Source):
+    """A temperature-dependent reaction: the desired reaction (synthesis) or a decomposition.
+
+    ``specific_power`` is the heat-release rate per kg at ``reference_temperature`` and zero conversion;
+    ``initial_specific_power`` is the rate at ``reference_temperature`` and the conversion at the start of
+    the scenario, so that the zero-conversion rate is initial_specific_power / accumulated_fraction^order.
+    A synthesis may be given without kinetics (only specific_heat_of_reaction and accumulated_fraction):
+    it enters the MTSR and, in the history, its heat is released at once at t = 0 (conservative).
+    """
+
     kind: Literal["arrhenius"]
-    specific_power: Q("specific_power", "nonnegative")
-    reference_temperature: Q("temperature", "absolute")
-    activation_energy: Q("molar_energy", "positive")
+    role: Literal["synthesis", "decomposition"] | None = Field(default=None, description=(
+        "'synthesis' (the desired reaction: its accumulated heat sets the MTSR) or 'decomposition' (a "
+        "self-heating hazard: it sets T_D24 and TMRad); default decomposition"))
+    specific_power: Annotated[Q("specific_power", "nonnegative"), Field(description=(
+        "heat-release rate per kg at reference_temperature and zero conversion (W/kg); or give "
+        "initial_specific_power"))] = None
+    initial_specific_power: Annotated[Q("specific_power", "nonnegative"), Field(description=(
+        "heat-release rate per kg at reference_temperature and at the conversion at the start of the scenario; "
+        "the zero-conversion rate is initial_specific_power / accumulated_fraction^order"))] = None
+    reference_temperature: Q("temperature", "absolute") = None
+    activation_energy: Q("molar_energy", "positive") = None
     order: float = Field(default=0.0, ge=0.0, le=10.0)
     specific_heat_of_reaction: Q("specific_energy", "positive") = None
-    accumulated_fraction: Q("fraction", None) = None
-    gas_generating: bool = False
+    accumulated_fraction: Annotated[Q("fraction", None), Field(description=(
+        "synthesis only: the fraction of its heat of reaction still to be released when cooling fails "
+        "(0 % for a fully dosing-controlled reaction); default 100 %"))] = None
+    gas_generating: bool | None = Field(default=None, description=(
+        "whether the reaction makes permanent gas; a decomposition defaults to true (said in the output)"))
     tested_range: list[Any] | None = Field(default=None, description=(
         "optional [low, high] temperatures over which the kinetics were measured"))
 
+    @field_validator("accumulated_fraction")
+    @classmethod
+    def _accumulation_is_synthesis(cls, value, info):
+        if value is not None and info.data.get("role") != "synthesis":
+            raise ValueError(ACCUMULATED_FRACTION_NEEDS_SYNTHESIS)
+        if value is not None and not (0 <= value.si <= 1):
+            raise ValueError(f"must be from 0 to 1 (100 %) (got {value.text})")
+        return value
+
+    @property
+    def effective_role(self) -> str:
+        """The role, with the default (decomposition) filled in."""
+        return self.role or "decomposition"
+
+    @property
+    def has_kinetics(self) -> bool:
+        return any(getattr(self, name) is not None for name in _KINETIC_FIELDS)
+
     @model_validator(mode="after")
-    def _order(self):
+    def _kinetics(self):
+        role = self.effective_role
+        if not self.has_kinetics:
+            if role != "synthesis":
+                raise ValueError("a decomposition needs its kinetics: specific_power (or initial_specific_power), "
+                                 "reference_temperature and activation_energy")
+            if self.specific_heat_of_reaction is None:
+                raise ValueError("a synthesis without kinetics needs specific_heat_of_reaction (its accumulated "
+                                 "heat sets the MTSR)")
+            extra = [name for name, given in (("order", self.order != 0), ("tested_range", self.tested_range))
+                     if given]
+            if extra:
+                raise ValueError(f"{', '.join(extra)} describe kinetics: give specific_power (or "
+                                 f"initial_specific_power), reference_temperature and activation_energy with "
+                                 f"{'them' if len(extra) > 1 else 'it'}, or leave {', '.join(extra)} out")
+            return self
+        if (self.specific_power is None) == (self.initial_specific_power is None):
+            raise ValueError("give exactly one of specific_power (the rate at reference_temperature and zero "
+                             "conversion) and initial_specific_power (the rate at the conversion at the start)")
+        missing = [n for n in ("reference_temperature", "activation_energy") if getattr(self, n) is None]
+        if missing:
+            raise ValueError(f"the kinetics need {' and '.join(missing)} with the specific power")
         if self.order > 0 and self.specific_heat_of_reaction is None:
             raise ValueError("order > 0 needs specific_heat_of_reaction (conversion advances as power / heat of reaction)")
-        if self.accumulated_fraction is not None and not (0 < self.accumulated_fraction.si <= 1):
-            raise ValueError("accumulated_fraction must be above 0 and at most 1 (100 %)")
+        if role == "synthesis" and self.specific_heat_of_reaction is None:
+            raise ValueError("a synthesis needs specific_heat_of_reaction (its accumulated heat sets the MTSR)")
         if self.accumulated_fraction is not None and self.specific_heat_of_reaction is None:
             raise ValueError("accumulated_fraction needs specific_heat_of_reaction")
+        if (self.initial_specific_power is not None and self.order > 0 and self.accumulated_fraction is not None
+                and self.accumulated_fraction.si == 0):
+            raise ValueError("initial_specific_power with accumulated_fraction 0 % and order > 0: the "
+                             "zero-conversion rate initial_specific_power / accumulated_fraction^order is undefined; "
+                             "give specific_power (the rate at zero conversion) instead")
         return self
 
 
@@ -334,6 +410,10 @@ class CaseSpec(Strict):
     detection: DetectionSpec | None = None
     recovery: RecoverySpec | None = None
     maximum_technical_temperature: Q("temperature", "absolute") = None
+    scenario: Literal["cooling-failure", "storage", "heat-up"] | None = Field(default=None, description=(
+        "what is screened: cooling-failure (a reactor loses cooling: MTSR, criticality class), storage "
+        "(critical ambient, TMRad at the storage temperature) or heat-up (time to limits only); the default "
+        "follows from the heat sources"))
     meta: MetaSpec | None = None
     uncertainty: dict | None = None
 
@@ -352,6 +432,65 @@ class CaseSpec(Strict):
         if dupes:
             raise ValueError(f"limit names must differ: {', '.join(dupes)} given more than once")
         return self
+
+
+# ---------------------------------------------------------------- scenario
+
+SCENARIOS = ("cooling-failure", "storage", "heat-up")
+
+
+def synthesis_sources(spec: CaseSpec) -> list:
+    """The heat sources declared as the desired reaction (Arrhenius or decaying with role synthesis)."""
+    return [s for s in spec.heat_sources if getattr(s, "role", None) == "synthesis"]
+
+
+def decomposition_sources(spec: CaseSpec) -> list:
+    return [s for s in spec.heat_sources if isinstance(s, ArrheniusSpec) and s.effective_role == "decomposition"]
+
+
+def default_scenario(spec: CaseSpec) -> str | None:
+    """The scenario a case gets when it does not state one; None when the mix of sources needs it stated.
+
+    cooling-failure when a synthesis source is present; storage when the temperature-dependent sources are
+    all decompositions and there is no decaying source, fire or heating medium; heat-up when there is no
+    temperature-dependent source.
+    """
+    if synthesis_sources(spec):
+        return "cooling-failure"
+    arrhenius = [s for s in spec.heat_sources if isinstance(s, ArrheniusSpec)]
+    if not arrhenius:
+        return "heat-up"
+    if not any(isinstance(s, (DecayingSpec, FireSpec, HeatingMediumSpec)) for s in spec.heat_sources):
+        return "storage"
+    return None
+
+
+def scenario_problem(spec: CaseSpec) -> str | None:
+    """Why the case's scenario (stated or default) does not fit its sources, or None."""
+    if spec.scenario is None:
+        if default_scenario(spec) is None:
+            kinds = sorted({s.kind for s in spec.heat_sources if not isinstance(s, ArrheniusSpec)} - {"constant"})
+            return (f"state the scenario: the decomposition source(s) come with {', '.join(kinds)} heat input, so "
+                    f"it is not clear what is screened; expected one of cooling-failure (a reactor after loss of "
+                    f"cooling: MTSR and criticality class), storage (critical ambient and TMRad at the storage "
+                    f"temperature) or heat-up (time to each limit only)")
+        return None
+    if spec.scenario == "storage":
+        if synthesis_sources(spec):
+            return ("storage has no synthesis reaction: a source with role synthesis belongs to a cooling-failure "
+                    "scenario; state scenario: cooling-failure, or remove the role")
+        if not decomposition_sources(spec):
+            return ("storage needs a decomposition (an arrhenius source): every storage criterion (critical ambient, "
+                    "TMRad at the storage temperature) comes from it; for a heat-up without one state scenario: heat-up")
+    return None
+
+
+def effective_scenario(spec: CaseSpec) -> str:
+    """The stated scenario, or the default one (raises CaseError when it must be stated)."""
+    problem = scenario_problem(spec)
+    if problem is not None:
+        raise CaseError([FieldProblem("scenario", problem)])
+    return spec.scenario or default_scenario(spec)
 
 
 # ---------------------------------------------------------------- errors
@@ -517,6 +656,9 @@ def validate_case_data(data: Any) -> CaseSpec:
                     problems.append(FieldProblem(f"heat_sources.{i}.tested_range",
                                                  f"the low end ({ends[0].text}) is above the high end "
                                                  f"({ends[1].text}); expected [low, high]"))
+    problem = scenario_problem(spec)
+    if problem is not None:
+        problems.append(FieldProblem("scenario", problem))
     if problems:
         raise CaseError(problems)
     return spec

@@ -67,7 +67,7 @@ from scipy.optimize import brentq
 
 from screening.core.arrhenius import log_arrhenius_rate
 from screening.core.model import GAS_CONSTANT, ScreeningModel
-from screening.core.terms import conductance_and_drive, constant_power
+from screening.core.terms import conductance_and_drive, constant_power, model_start_temperature
 
 #: Default temperature at which a runaway is no longer followed, K.
 DEFAULT_CEILING = 2000.0
@@ -636,9 +636,9 @@ def _sample(bal, boiling, grid, s_a, s_b, t_a, t_b, dense, zs, extra):
 def _source_warnings(model: ScreeningModel) -> tuple[list[str], list[str]]:
     """Cautions on the Arrhenius data: (all of them, those that also bear on times to limits)."""
     out, on_times = [], []
-    T0 = model.initial_temperature
+    T0 = model_start_temperature(model)
     for j, s in enumerate(model.arrhenius_sources, start=1):
-        tag = f"Arrhenius source {j}"
+        tag = s.label or f"Arrhenius source {j}"
         if s.specific_heat_of_reaction is None:
             if s.order != 0:
                 out.append(f"{tag}: order {s.order:g} given without a heat of reaction; conversion cannot "
@@ -790,7 +790,7 @@ def integrate_history(model: ScreeningModel, stop_temperature: float | None = No
 
 def _integrate(model: ScreeningModel, stop_temperature: float | None) -> NumericHistory:
     bal = _Balance(model)
-    T0 = float(model.initial_temperature)
+    T0 = float(model_start_temperature(model))
     horizon = float(model.horizon)
     limits = list(model.limits)
     highest = max([lim.temperature for lim in limits], default=T0)
@@ -869,7 +869,7 @@ def _integrate(model: ScreeningModel, stop_temperature: float | None) -> Numeric
     for i, lim in enumerate(limits):
         if lim.temperature <= T0:
             reached[i] = 0.0
-            limit_warn[i].append("Limit at or below the initial temperature: reached at t = 0.")
+            limit_warn[i].append("Limit at or below the temperature the history starts at: reached at t = 0.")
         elif lim.temperature > ceiling:
             limit_warn[i].append(f"Limit above the stop temperature {ceiling:.1f} K: not evaluated.")
 

@@ -124,7 +124,7 @@ import numpy as np
 
 from screening.core.arrhenius import log_arrhenius_rate
 from screening.core.model import GAS_CONSTANT, ScreeningModel
-from screening.core.terms import constant_power
+from screening.core.terms import constant_power, model_start_temperature
 from screening.workers import die_with_parent, stop_pool
 
 __all__ = [
@@ -1471,7 +1471,7 @@ def samples_from_models(models: Sequence[ScreeningModel]):
         contents_mass=np.array([md.contents_mass for md in models]),
         ua=np.array([md.ua for md in models]),
         ambient_temperature=np.array([md.ambient_temperature for md in models]),
-        initial_temperature=np.array([md.initial_temperature for md in models]),
+        initial_temperature=np.array([model_start_temperature(md) for md in models]),
         constant_power=np.array([constant_power(md) for md in models]),
         decaying_power=Pd, decay_time=ad, media_ua=mua, media_temperature=mT,
         specific_power=q, reference_temperature=Tr, activation_energy=E, order=n, heat_of_reaction=dh,

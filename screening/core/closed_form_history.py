@@ -42,7 +42,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from screening.core.model import ScreeningModel
-from screening.core.terms import conductance_and_drive, constant_power
+from screening.core.terms import conductance_and_drive, constant_power, model_start_temperature
 
 
 def relaxation(x):
@@ -457,7 +457,7 @@ def balance_of(model: ScreeningModel, ua: float | None = None, initial_temperatu
     media_ua = [h.ua for h in model.heating_media] + [u for _, u in extra_media]
     media_t = [h.medium_temperature for h in model.heating_media] + [t for t, _ in extra_media]
     return linear_balance(model.heat_capacity, model.ua if ua is None else ua, model.ambient_temperature,
-                          model.initial_temperature if initial_temperature is None else initial_temperature,
+                          model_start_temperature(model) if initial_temperature is None else initial_temperature,
                           p_const, powers, taus, media_ua, media_t)
 
 

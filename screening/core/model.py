@@ -91,6 +91,9 @@ class DecayingSource:
         P_i, the rate at t = 0.
     time_constant : float, [s]
         a_i > 0.
+    role : str or None, default None
+        "synthesis" for the remaining heat of the desired reaction given without kinetics (it
+        enters the MTSR and makes cooling failure the default scenario), else None.
 
     Notes
     -----
@@ -99,6 +102,7 @@ class DecayingSource:
 
     power: float
     time_constant: float
+    role: str | None = None
 
 
 @dataclass(frozen=True)
@@ -149,6 +153,12 @@ class ArrheniusSource:
     tested_range : (float, float) or None, [K], default None
         Temperatures over which the kinetics were measured; used to flag extrapolation.
 
+    role : str, default "decomposition"
+        "synthesis" (the desired reaction: its accumulated heat sets the MTSR) or
+        "decomposition" (a self-heating hazard: it sets T_D24, TMRad and the severity).
+    label : str or None, default None
+        How the output names the source (the case's label and place).
+
     Notes
     -----
     .. math:: q(T, X) = q_{ref} \exp\left[-\frac{E}{R}\left(\frac{1}{T}
@@ -174,6 +184,21 @@ class ArrheniusSource:
     accumulated_fraction: float = 1.0
     gas_generating: bool = False
     tested_range: tuple[float, float] | None = None  # K, where the kinetics were measured
+    role: str = "decomposition"  # "synthesis" | "decomposition"
+    label: str | None = None
+
+
+@dataclass(frozen=True)
+class StartRelease:
+    """A synthesis given without kinetics: its accumulated heat is released at once at t = 0.
+
+    Releasing it at once is conservative for the temperature history; the heat per kg of
+    contents is ``accumulated_fraction * specific_heat_of_reaction``.
+    """
+
+    specific_heat_of_reaction: float  # J/kg
+    accumulated_fraction: float = 1.0
+    label: str | None = None
 
 
 @dataclass(frozen=True)
@@ -333,6 +358,8 @@ class ScreeningModel:
     conduction_radius: float | None = None  # m, half-thickness or radius (unstirred)
     density: float | None = None  # kg/m^3
     surface_coefficient: float | None = None  # W/(m^2 K), for the Biot number
+    released_at_start: tuple[StartRelease, ...] = ()  # syntheses without kinetics (see core.terms.start_temperature)
+    scenario: str = "heat-up"  # "cooling-failure" | "storage" | "heat-up"
 
     @property
     def heat_capacity(self) -> float:

@@ -18,7 +18,8 @@ from typing import NamedTuple
 
 from screening.core.model import ScreeningModel, heat_capacity
 
-__all__ = ["LumpedTerms", "conductance_and_drive", "constant_power", "fire_power", "heat_capacity", "model_terms"]
+__all__ = ["LumpedTerms", "conductance_and_drive", "constant_power", "fire_power", "heat_capacity", "model_terms",
+           "released_specific_energy", "start_temperature", "model_start_temperature"]
 
 
 class LumpedTerms(NamedTuple):
@@ -152,6 +153,55 @@ def constant_power(model: ScreeningModel) -> float:
     3700.0
     """
     return sum(s.power for s in model.constant_sources) + fire_power(model)
+
+
+def released_specific_energy(model: ScreeningModel) -> float:
+    """Heat per kg of contents released at t = 0 by syntheses given without kinetics, J/kg."""
+    return sum((r.accumulated_fraction * r.specific_heat_of_reaction for r in model.released_at_start), 0.0)
+
+
+def start_temperature(initial_temperature, mass, heat_capacity, released_specific_energy=0.0):
+    r"""Temperature at which the history starts, K: the initial temperature plus the heat released at t = 0.
+
+    Parameters
+    ----------
+    initial_temperature : float or array, [K]
+        The process (initial) temperature.
+    mass : float or array, [kg]
+        Contents mass.
+    heat_capacity : float or array, [J/K]
+        Total heat capacity C of contents and wall (:func:`heat_capacity`).
+    released_specific_energy : float or array, [J/kg], default 0
+        Heat per kg released at once at t = 0 (:func:`released_specific_energy`): a synthesis given
+        without kinetics, whose accumulated heat is taken as released at the start (conservative).
+
+    Returns
+    -------
+    float or array, [K]
+
+    Notes
+    -----
+    .. math:: T(0^+) = T_0 + \frac{m \sum_s X_{ac,s} \Delta h_s}{C}
+
+    The history keeps the total heat capacity C (wall included); the MTSR uses the contents'
+    specific heat alone.
+
+    Examples
+    --------
+    4200 kg at 80 degC releasing 35 % of 160 kJ/kg into C = 4200 * 2100 J/K: 80 + 26.67 K (by hand).
+
+    >>> round(start_temperature(353.15, 4200.0, 4200.0 * 2100.0, 0.35 * 160e3) - 273.15, 3)
+    106.667
+    """
+    if isinstance(released_specific_energy, float) and released_specific_energy == 0.0:
+        return initial_temperature
+    return initial_temperature + mass * released_specific_energy / heat_capacity
+
+
+def model_start_temperature(model: ScreeningModel) -> float:
+    """The temperature at which a model's history starts (:func:`start_temperature`), K."""
+    return start_temperature(model.initial_temperature, model.contents_mass, model.heat_capacity,
+                             released_specific_energy(model))
 
 
 def model_terms(model: ScreeningModel, ua: float | None = None) -> LumpedTerms:

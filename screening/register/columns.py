@@ -4,8 +4,8 @@ Most registers are many rows of one shape: the same filled columns over the
 same base case, differing only in numbers.  When such a group's representative
 row (validated and screened in full) is a simple closed-form case, namely
 
-* no vessel geometry, heat loss as a given UA, no fire, heating medium,
-  boiling data, Arrhenius source, cooling recovery, alarm or uncertainty block,
+* a heat-up scenario (no synthesis or decomposition source), no vessel geometry, heat loss as a given
+  UA, no fire, heating medium, boiling data, cooling recovery, alarm or uncertainty block,
 
 and every column that varies in the group is one of the quantities listed in
 :data:`VARYING_PATHS` (or the id or title), the other rows need not be built
@@ -42,7 +42,9 @@ from screening.register.vectorised import run_engine
 from screening.run.closed_form_case import ClosedFormValues
 from screening.run.warnings import (
     ADIABATIC_WARNING,
+    MARGIN_NOTE_ASSUMED,
     biot_and_validity,
+    case_assumptions,
     limit_at_start_warning,
     response_beyond_horizon_warning,
     short_horizon_warning,
@@ -91,7 +93,8 @@ def plan_group(rep, fast_cols) -> list[_Varying] | None:
     (column, role, parser, field name, marker).
     """
     spec, model = rep.spec, rep.model
-    if (spec.vessel is not None or spec.heat_loss.ua is None or spec.contents.mass is None
+    if (model.scenario != "heat-up" or model.released_at_start
+            or spec.vessel is not None or spec.heat_loss.ua is None or spec.contents.mass is None
             or model.arrhenius_sources or model.fire_sources or model.heating_media or model.boiling is not None
             or rep.recovery is not None or rep.detection_alarm is not None or rep.uncertainty_plan is not None
             or model.wall_heat_capacity != 0.0):
@@ -333,7 +336,8 @@ class _RowBuilder:
         extra = {"warnings": []}
         biot_and_validity(rep, extra)  # depends on nothing a row varies here
         self.tail_warnings = extra["warnings"]
-        self.assumptions = extra["assumptions"]
+        self.assumptions = extra["assumptions"] + case_assumptions(rep)
+        self.margin_note = MARGIN_NOTE_ASSUMED if rep.detection_delay is None else None  # no alarm in a group
         positions = {item["field"]: p for p, item in enumerate(rep.inputs)}
         self.input_slots = []  # (position, field, SI unit, SI values, texts, sources) of each varying input
         for v in plan:
@@ -368,8 +372,10 @@ class _RowBuilder:
         unit = self._unit(r)
         response, detection = g.response[r], g.detection
         times = g.times[r]
+        note = self.margin_note
         limit_rows = [{"name": name, "temperature_K": lt, "time_s": t, "reached": t is not None,
-                       "margin_s": t - (detection + response) if t is not None and response is not None else None}
+                       "margin_s": t - (detection + response) if t is not None and response is not None else None,
+                       "margin_note": note if t is not None and response is not None else None}
                       for name, lt, t in zip(self.names, g.limit_T[r], times)]
         warnings = list(rep.warnings)
         if not g.plain[r]:

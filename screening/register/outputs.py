@@ -62,9 +62,10 @@ def _kelvin(v):
     return "" if v is None else f"{v:.6g}"
 
 
-CSV_HEAD = ["id", "row", "verdict", "first_limit", "time_to_first_limit_h", "smallest_margin_h"]
+CSV_HEAD = ["id", "row", "verdict", "scenario", "first_limit", "time_to_first_limit_h", "smallest_margin_h"]
 CSV_TAIL = ["peak_temperature_K", "peak_time_h", "steady_temperature_K", "time_constant_h", "tmr_adiabatic_h",
-            "critical_ambient_temperature_K", "ambient_temperature_K", "t_d24_K", "mtsr_K", "criticality_class",
+            "critical_ambient_temperature_K", "ambient_temperature_K", "t_d24_K", "mtsr_K", "tmr_at_mtsr_h",
+            "tmr_at_storage_temperature_h", "decomposition_temperature_rise_K", "criticality_class",
             "probability_before_response", "p05_time_to_first_limit_h", "warnings", "reasons"]
 
 
@@ -73,14 +74,16 @@ def csv_parts(r: dict) -> tuple[list, dict, list]:
     reached = [l for l in r["limits"] if l["time_s"] is not None]
     first = min(reached, key=lambda l: l["time_s"]) if reached else None
     margins = [l["margin_s"] for l in r["limits"] if l.get("margin_s") is not None]
-    head = [people_text(r["id"]), r.get("register_row", ""), r.get("verdict", ""),
+    head = [people_text(r["id"]), r.get("register_row", ""), r.get("verdict", ""), r.get("scenario") or "",
             people_text(first["name"]) if first else "", _hours(first["time_s"]) if first else "",
             _hours(min(margins)) if margins else ""]
     limits = {l["name"]: _hours(l["time_s"]) for l in r["limits"]}
     tail = [_kelvin(r.get("peak_temperature_K")), _hours(r.get("peak_time_s")), _kelvin(r.get("steady_temperature_K")),
             _hours(r.get("time_constant_s")), _hours(r.get("tmr_adiabatic_s")),
             _kelvin(r.get("critical_ambient_temperature_K")), _kelvin(r.get("ambient_temperature_K")),
-            _kelvin(r.get("t_d24_K")), _kelvin(r.get("mtsr_K")), r.get("criticality_class") or "",
+            _kelvin(r.get("t_d24_K")), _kelvin(r.get("mtsr_K")), _hours(r.get("tmr_at_mtsr_s")),
+            _hours(r.get("tmr_at_storage_temperature_s")), _kelvin(r.get("decomposition_temperature_rise_K")),
+            r.get("criticality_class") or "",
             *_uncertainty_columns(r.get("uncertainty")),
             len(r.get("warnings") or []), " | ".join(r.get("reasons") or [])]
     return head, limits, tail

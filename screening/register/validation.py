@@ -10,6 +10,7 @@ directly (the direct path).
 from __future__ import annotations
 
 import math
+from dataclasses import replace
 from typing import Any
 
 from screening.case.paths import apply_updates, model_slot
@@ -24,7 +25,7 @@ from screening.case.schema import (
     validate_case_data,
 )
 from screening.case.units import UnitError, unit_factor
-from screening.core.model import ConstantSource, DecayingSource, Limit
+from screening.core.model import ConstantSource, Limit
 from screening.register.reading import CASE_FILE_COLUMN, Column
 from screening.register.rows import (
     _NUMBER_ONLY,
@@ -176,7 +177,7 @@ def validate_rows(ctx: RowContext, rows: list[list[str]], build_specs: bool = Tr
                     except ValueError:
                         ok = False
                         break
-                    if name == "accumulated_fraction" and not (0 < value.si <= 1):
+                    if name == "accumulated_fraction" and not (0 < value.si <= 1):  # 0 % goes the full way
                         ok = False
                         break
                 else:
@@ -258,10 +259,10 @@ def _direct_updater(rep, path: tuple):
         def set_decaying(f, q):
             old = f["decaying_sources"][j]
             if kind == "dpower":
-                f["decaying_sources"][j] = DecayingSource(q.si, old.time_constant)
+                f["decaying_sources"][j] = replace(old, power=q.si)
             else:
                 a = q.si if kind == "dtau" else q.si / math.log(2.0)
-                f["decaying_sources"][j] = DecayingSource(old.power, a)
+                f["decaying_sources"][j] = replace(old, time_constant=a)
 
         return set_decaying
     return None
@@ -277,8 +278,6 @@ _UNIT_CACHE: dict = {}
 
 def direct_prepared(rep, updates: list):
     """The PreparedCase of a row from its representative's, or None when a path is not direct."""
-    from dataclasses import replace
-
     fields = None
     text_updates = {}
     for path, value in updates:

@@ -7,7 +7,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from screening.core.terms import model_terms
+from screening.core.terms import model_start_temperature, model_terms
 
 
 def vectorised_values(prepared_list: list) -> list:
@@ -34,7 +34,7 @@ def vectorised_values(prepared_list: list) -> list:
         lossy, adiabatic = model_terms(m), model_terms(m, ua=0.0)
         C[i], G[i], Q0[i] = lossy.heat_capacity, lossy.conductance, lossy.drive
         G_ad[i], Q0_ad[i] = adiabatic.conductance, adiabatic.drive
-        T0[i] = m.initial_temperature
+        T0[i] = model_start_temperature(m)
         H[i] = m.horizon
         for j, s in enumerate(m.decaying_sources):
             P[i, j] = s.power

@@ -113,6 +113,7 @@ class _Memo:
             "time_s": _num(m.get("time_s"), f"{where}.time_s"),
             "reached": bool(m.get("reached")) if m.get("reached") is not None else m.get("time_s") is not None,
             "margin_s": _num(m.get("margin_s"), f"{where}.margin_s"),
+            "margin_note": _str(m.get("margin_note"), f"{where}.margin_note"),
         }
 
     def L(self, key, **kw):
@@ -161,8 +162,12 @@ class _Memo:
     def has_runaway(self) -> bool:
         keys = ("tmr_adiabatic_s", "tmr_at_mtsr_s", "t_d24_K", "critical_ambient_temperature_K",
                 "critical_temperature_K", "no_return_temperature_K", "adiabatic_temperature_rise_K", "mtsr_K",
-                "maximum_technical_temperature_K", "criticality_class")
+                "maximum_technical_temperature_K", "criticality_class", "critical_medium_temperature_K",
+                "runaway_summary")
         return any(self.r.get(k) is not None for k in keys) or self.plot("heat_balance") is not None
+
+    def detection_basis(self) -> str | None:
+        return _str(self.r.get("detection_basis"), "detection_basis")
 
     def has_recovery(self) -> bool:
         det_given = "detection_time_s" in self.r and (self.r.get("detection_time_s") is None
@@ -384,10 +389,14 @@ class _Memo:
                     m_txt = self.hrs(lim["margin_s"])
                     if lim["margin_s"] < 0:
                         m_txt = f'<b><font color="{_VERDICT_COLOURS["fail"]}">{m_txt}</font></b>'
+                    if lim["margin_note"]:
+                        m_txt += f"<br/><i>{self.esc(self.L('margin_detection_assumed'))}</i>"
                 elif not (lim["time_s"] is not None and lim["reached"]):
                     m_txt = self.na()
                 elif response is None:
                     m_txt = f"<i>{self.esc(self.L('no_response_time'))}</i>"
+                elif self.detection_basis() == "unmonitored":
+                    m_txt = f"<i>{self.esc(self.L('detection_unmonitored_short'))}</i>"
                 elif detection is None and "detection_time_s" in self.r:
                     m_txt = f"<i>{self.esc(self.L('alarm_never'))}</i>"
                 else:
@@ -402,8 +411,17 @@ class _Memo:
             w = lay.frame_width
             out.append(lay.table(rows, [w * 0.22, w * 0.2, w * 0.19, w * 0.2, w * 0.19]))
             out.append(lay.P(self.esc(self.L("margin_note")), "small"))
+            if self.detection_basis() == "assumed":
+                out.append(lay.P(f"<b>{self.esc(self.L('detection_assumed_note'))}</b>", "small"))
+            elif self.detection_basis() == "unmonitored":
+                out.append(lay.P(f"<b>{self.esc(self.L('detection_unmonitored'))}</b>", "small"))
         else:
             out.append(lay.P(f"<i>{self.esc(self.L('no_limits'))}</i>"))
+        start = _mapping(self.r.get("start_release"), "start_release")
+        if start is not None:
+            st = _num(start.get("temperature_K"), "start_release.temperature_K")
+            out.append(lay.P(self.esc(self.L("start_release_note", temp=self.u.full(st) if st is not None else "?")),
+                             "small"))
         out.append(self._spacer(6))
 
         tau = self.num("time_constant_s")
@@ -492,12 +510,17 @@ class _Memo:
     def _det_resp_text(self) -> str:
         response = self.num("response_time_s")
         detection = self.num("detection_time_s")
+        if self.detection_basis() == "unmonitored":
+            return f"<i>{self.esc(self.L('detection_unmonitored_short'))}</i>"
         if response is None:
             return f"<i>{self.esc(self.L('no_response_time'))}</i>"
         if detection is None and "detection_time_s" in self.r:
             return f"<i>{self.esc(self.L('alarm_never'))}</i>"
         total = (detection or 0.0) + response
-        return self.hrs(total)
+        text = self.hrs(total)
+        if self.detection_basis() == "assumed":
+            text += f" <i>({self.esc(self.L('margin_detection_assumed'))})</i>"
+        return text
 
     # -- charts -----------------------------------------------------------------
     def _limit_lines(self):
@@ -577,21 +600,163 @@ class _Memo:
     def sec_runaway(self):
         lay = self.lay
         out = [lay.heading(self.numbers["runaway"], "runaway")]
+        scenario = _str(self.r.get("scenario"), "scenario")
+        if scenario == "cooling-failure":
+            pairs = self._cooling_failure_pairs()
+        elif scenario == "storage":
+            pairs = self._storage_pairs()
+        elif scenario == "heat-up":
+            pairs = self._heat_up_pairs()
+        else:
+            pairs = self._legacy_pairs()
+        pairs = self._scenario_head() + pairs + self._medium_pairs()
+        out.append(lay.kv_table(pairs))
+        summary = _str(self.r.get("runaway_summary"), "runaway_summary")
+        if summary:
+            out.append(lay.user(summary, "body", limit=None))
+        out += self.heat_balance()
+        return out
+
+    def _scenario_head(self) -> list:
+        scenario = _str(self.r.get("scenario"), "scenario")
+        if not scenario:
+            return []
+        key = {"cooling-failure": "scenario_cooling_failure", "storage": "scenario_storage",
+               "heat-up": "scenario_heat_up"}.get(scenario)
+        pairs = [(self.L("scenario"), self.esc(self.L(key)) if key else self.esc(scenario))]
+        for role, label in (("synthesis_sources", "synthesis_sources"), ("decomposition_sources",
+                                                                         "decomposition_sources")):
+            names = [_str(x, f"{role}[{i}]") or "" for i, x in enumerate(_seq(self.r.get(role), role))]
+            if names:
+                pairs.append((self.L(label), self.esc("; ".join(names))))
+        return pairs
+
+    def _rise(self, key: str) -> str:
+        v = self.num(key)
+        return self.esc(self.u.rise(v)) if v is not None else self.na()
+
+    def _class_text(self) -> str:
+        cls = self.r.get("criticality_class")
+        if cls is not None:
+            if isinstance(cls, bool) or not isinstance(cls, (int, float, str)):
+                raise MemoInputError("criticality_class: expected a number or null")
+            return self.esc(self.L("criticality_class_value", n=cls))
+        classes = [c for c in _seq(self.r.get("criticality_classes_possible"), "criticality_classes_possible")]
+        if classes:
+            names = [str(c) for c in classes]
+            return self.esc(self.L("criticality_classes_open", classes=f"{', '.join(names[:-1])} / {names[-1]}"))
+        return self.na()
+
+    def _cooling_failure_pairs(self) -> list:
+        pairs = [(self.L("process_temperature"), self.temp(self.num("initial_temperature_K")))]
+        for i, part in enumerate(_seq(self.r.get("mtsr_parts"), "mtsr_parts")):
+            m = _mapping(part, f"mtsr_parts[{i}]") or {}
+            rise = _num(m.get("temperature_rise_K"), f"mtsr_parts[{i}].temperature_rise_K")
+            frac = _num(m.get("accumulated_fraction"), f"mtsr_parts[{i}].accumulated_fraction")
+            label = self.L("mtsr_part", source=_str(m.get("source"), f"mtsr_parts[{i}].source") or "?",
+                           kind=_str(m.get("kind"), f"mtsr_parts[{i}].kind") or "?")
+            value = self.esc(self.u.rise(rise)) if rise is not None else self.na()
+            if frac is not None:
+                value += " " + self.esc(self.L("accumulated_share", share=_percent(frac)))
+            pairs.append((label, value))
+        basis = _str(self.r.get("mtt_basis"), "mtt_basis")
+        pairs += [
+            (self.L("mtsr"), self.temp(self.num("mtsr_K"))),
+            (self.L("mtt") + (f" ({basis})" if basis else ""), self.temp(self.num("maximum_technical_temperature_K"))),
+        ]
+        if _seq(self.r.get("decomposition_sources"), "decomposition_sources"):
+            pairs += [
+                (self.L("t_d24"), self.temp(self.num("t_d24_K"))),
+                (self.L("tmr_at_mtsr"), self.hrs(self.num("tmr_at_mtsr_s"))),
+            ]
+            shares = _seq(self.r.get("decomposition_shares_at_mtsr"), "decomposition_shares_at_mtsr")
+            if len(shares) > 1:
+                for i, sh in enumerate(shares):
+                    m = _mapping(sh, f"decomposition_shares_at_mtsr[{i}]") or {}
+                    share = _num(m.get("share"), f"decomposition_shares_at_mtsr[{i}].share")
+                    pairs.append((self.L("share_at_mtsr", source=_str(m.get("source"), "source") or "?"),
+                                  self.esc(_percent(share)) if share is not None else self.na()))
+            above = self.r.get("mtsr_above_no_return")
+            nr = self.temp(self.num("no_return_temperature_K"))
+            if above is not None:
+                nr += " " + self.esc(self.L("mtsr_above_no_return" if above else "mtsr_below_no_return"))
+            unbounded = self.r.get("decomposition_rise_unbounded") is True
+            pairs += [
+                (self.L("tmr_at_process"), self.hrs(self.num("tmr_adiabatic_s"))),
+                (self.L("decomposition_rise"), self.esc(self.L("unbounded")) if unbounded
+                 else self._rise("decomposition_temperature_rise_K")),
+                (self.L("final_temperature"), self.temp(self.num("final_temperature_K"))),
+                (self.L("final_minus_process"), self._rise("final_minus_process_K")),
+                (self.L("no_return_decomposition"), nr),
+            ]
+        else:
+            pairs.append((self.L("t_d24"), self.esc(self.L("t_d24_must_be_measured"))))
+        pairs.append((self.L("criticality_class"), self._class_text()))
+        return pairs
+
+    def _storage_pairs(self) -> list:
         method = _str(self.r.get("critical_ambient_method"), "critical_ambient_method")
         method_name = {"semenov": "Semenov", "frank-kamenetskii": "Frank-Kamenetskii"}.get(method or "", method)
         ca = self.num("critical_ambient_temperature_K")
         ca_txt = self.temp(ca)
         if ca is not None and method_name:
             ca_txt += " " + self.esc(self.L("critical_ambient_method", method=method_name))
-        cls = self.r.get("criticality_class")
-        if cls is not None:
-            if isinstance(cls, bool) or not isinstance(cls, (int, float, str)):
-                raise MemoInputError("criticality_class: expected a number or null")
-            cls_txt = self.esc(self.L("criticality_class_value", n=cls))
+        gas = [_str(x, f"gas_generating_sources[{i}]") or ""
+               for i, x in enumerate(_seq(self.r.get("gas_generating_sources"), "gas_generating_sources"))]
+        if gas:
+            gas_txt = self.esc(self.L("gas_closed" if self.r.get("gas_in_closed_package") else "gas_open",
+                                      sources="; ".join(gas)))
         else:
-            cls_txt = self.na()
-        rise = self.num("adiabatic_temperature_rise_K")
+            gas_txt = self.esc(self.L("gas_none"))
+        unbounded = self.r.get("decomposition_rise_unbounded") is True
         pairs = [
+            (self.L("ambient_temperature"), self.temp(self.num("ambient_temperature_K"))),
+            (self.L("critical_ambient"), ca_txt),
+            (self.L("critical_ambient_margin"), self._rise("critical_ambient_margin_K")),
+        ]
+        if method == "semenov":
+            pairs += [(self.L("critical_temperature"), self.temp(self.num("critical_temperature_K"))),
+                      (self.L("no_return_temperature"), self.temp(self.num("no_return_temperature_K")))]
+        pairs += [
+            (self.L("storage_temperature"), self.temp(self.num("storage_temperature_K"))),
+            (self.L("tmr_at_storage"), self.hrs(self.num("tmr_at_storage_temperature_s"))),
+            (self.L("t_d24"), self.temp(self.num("t_d24_K"))),
+            (self.L("tmr_adiabatic"), self.hrs(self.num("tmr_adiabatic_s"))),
+            (self.L("decomposition_rise"), self.esc(self.L("unbounded")) if unbounded
+             else self._rise("decomposition_temperature_rise_K")),
+            (self.L("gas_generation"), gas_txt),
+        ]
+        return pairs
+
+    def _heat_up_pairs(self) -> list:
+        pairs = []
+        if _seq(self.r.get("decomposition_sources"), "decomposition_sources"):
+            pairs += [(self.L("tmr_adiabatic"), self.hrs(self.num("tmr_adiabatic_s"))),
+                      (self.L("t_d24"), self.temp(self.num("t_d24_K")))]
+        if self.num("no_return_temperature_K") is not None:
+            pairs.append((self.L("no_return_temperature"), self.temp(self.num("no_return_temperature_K"))))
+        return pairs
+
+    def _medium_pairs(self) -> list:
+        tmc = self.num("critical_medium_temperature_K")
+        tm = self.num("heating_medium_temperature_K")
+        if tmc is None and tm is None:
+            return []
+        tm_txt = self.temp(tm)
+        if self.r.get("medium_above_t_d24") is True:
+            tm_txt += " " + self.esc(self.L("medium_above_t_d24"))
+        return [(self.L("heating_medium_temperature"), tm_txt),
+                (self.L("critical_medium_temperature"), self.temp(tmc))]
+
+    def _legacy_pairs(self) -> list:
+        method = _str(self.r.get("critical_ambient_method"), "critical_ambient_method")
+        method_name = {"semenov": "Semenov", "frank-kamenetskii": "Frank-Kamenetskii"}.get(method or "", method)
+        ca = self.num("critical_ambient_temperature_K")
+        ca_txt = self.temp(ca)
+        if ca is not None and method_name:
+            ca_txt += " " + self.esc(self.L("critical_ambient_method", method=method_name))
+        rise = self.num("adiabatic_temperature_rise_K")
+        return [
             (self.L("tmr_adiabatic"), self.hrs(self.num("tmr_adiabatic_s"))),
             (self.L("t_d24"), self.temp(self.num("t_d24_K"))),
             (self.L("critical_ambient"), ca_txt),
@@ -601,11 +766,8 @@ class _Memo:
             (self.L("mtsr"), self.temp(self.num("mtsr_K"))),
             (self.L("mtt"), self.temp(self.num("maximum_technical_temperature_K"))),
             (self.L("tmr_at_mtsr"), self.hrs(self.num("tmr_at_mtsr_s"))),
-            (self.L("criticality_class"), cls_txt),
+            (self.L("criticality_class"), self._class_text()),
         ]
-        out.append(lay.kv_table(pairs))
-        out += self.heat_balance()
-        return out
 
     def heat_balance(self):
         from reportlab.platypus import KeepTogether
@@ -725,10 +887,14 @@ class _Memo:
         out = [lay.heading(self.numbers["recovery"], "recovery")]
         response = self.num("response_time_s")
         detection = self.num("detection_time_s")
-        if detection is None and "detection_time_s" in self.r:
+        if self.detection_basis() == "unmonitored":
+            det_txt = f"<b>{self.esc(self.L('detection_unmonitored_short'))}</b>"
+        elif detection is None and "detection_time_s" in self.r:
             det_txt = f"<b>{self.esc(self.L('alarm_never'))}</b>"
         else:
             det_txt = self.hrs(detection)
+            if self.detection_basis() == "assumed":
+                det_txt += f" <b>({self.esc(self.L('margin_detection_assumed'))})</b>"
         pairs = [
             (self.L("detection_time"), det_txt),
             (self.L("response_time"), self.hrs(response, self.L("no_response_time"))),
@@ -1069,7 +1235,13 @@ class _Memo:
 
     def sec_assumptions(self):
         lay = self.lay
-        return [lay.heading(self.numbers["assumptions"], "assumptions")] + lay.prose(lay.T("assumptions.text"))
+        out = [lay.heading(self.numbers["assumptions"], "assumptions")] + lay.prose(lay.T("assumptions.text"))
+        own = [_any_text(a) for a in _seq(self.r.get("assumptions"), "assumptions")]
+        if own:
+            out.append(lay.P(f"<b>{self.esc(self.L('case_assumptions'))}</b>", "body"))
+            for i, a in enumerate(own, start=1):
+                out.append(lay.P(f"<b>A{i}.</b>&nbsp;{self.esc(a)}", "bullet"))
+        return out
 
     def sec_caution_end(self):
         from reportlab.platypus import KeepTogether

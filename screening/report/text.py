@@ -10,6 +10,97 @@ def _wrap(text: str, indent: str = "    - ") -> str:
     return textwrap.fill(text, width=100, initial_indent=indent, subsequent_indent=" " * len(indent))
 
 
+def _roles_text(r: dict) -> str:
+    parts = []
+    if r.get("synthesis_sources"):
+        parts.append("synthesis: " + "; ".join(r["synthesis_sources"]))
+    if r.get("decomposition_sources"):
+        parts.append("decomposition: " + "; ".join(r["decomposition_sources"]))
+    return f" ({', '.join(parts)})" if parts else ""
+
+
+def _pct(x) -> str:
+    return "—" if x is None else f"{x * 100:.4g} %"
+
+
+def criteria_rows(r: dict, u: str) -> list[tuple[str, str]]:
+    """The runaway criteria of the result's scenario, labelled for the reader."""
+    scenario = r.get("scenario")
+    has_decomposition = bool(r.get("decomposition_sources"))
+    rows: list[tuple[str, str]] = []
+    if scenario == "cooling-failure":
+        rows.append(("Process temperature", temp(r.get("initial_temperature_K"), u)))
+        for part in r.get("mtsr_parts") or []:
+            share = f", {_pct(part['accumulated_fraction'])} accumulated" if part.get("accumulated_fraction") is not None \
+                else ""
+            rows.append((f"  + {part['source']}", f"{dtemp(part['temperature_rise_K'], u)} ({part['kind']}{share})"))
+        rows.append(("MTSR", temp(r.get("mtsr_K"), u)))
+        mtt = r.get("maximum_technical_temperature_K")
+        rows.append((f"MTT ({r.get('mtt_basis') or 'not given'})", temp(mtt, u)))
+        if has_decomposition:
+            rows.append(("T_D24 (decomposition)", temp(r.get("t_d24_K"), u)))
+            rows.append(("TMRad at MTSR (decomposition)", duration(r.get("tmr_at_mtsr_s"))))
+            shares = r.get("decomposition_shares_at_mtsr") or []
+            if len(shares) > 1:
+                for sh in shares:
+                    rows.append((f"  share at MTSR: {sh['source']}", _pct(sh.get("share"))))
+            rows.append(("TMRad from the process temperature", duration(r.get("tmr_adiabatic_s"))))
+            rows.append(("Decomposition temperature rise", "unbounded" if r.get("decomposition_rise_unbounded")
+                         else dtemp(r.get("decomposition_temperature_rise_K"), u)))
+            final = r.get("final_temperature_K")
+            rows.append(("Final temperature (MTSR + decomposition rise)",
+                         temp(final, u) + (f"; {dtemp(r.get('final_minus_process_K'), u)} above the process temperature"
+                                           if final is not None else "")))
+            nr = r.get("no_return_temperature_K")
+            above = r.get("mtsr_above_no_return")
+            rows.append(("No-return temperature (decomposition)",
+                         temp(nr, u) + ("" if above is None else ("; MTSR above it" if above else "; MTSR below it"))))
+        else:
+            rows.append(("T_D24", "— (no decomposition source: T_D24 must be measured)"))
+        cls = r.get("criticality_class")
+        if cls is not None:
+            rows.append(("Criticality class", str(cls)))
+        elif r.get("criticality_classes_possible"):
+            classes = [str(c) for c in r["criticality_classes_possible"]]
+            rows.append(("Criticality class", f"{', '.join(classes[:-1])} or {classes[-1]} (T_D24 must be measured)"))
+        else:
+            rows.append(("Criticality class", "— (not determined)"))
+    elif scenario == "storage":
+        crit = r.get("critical_ambient_temperature_K")
+        method = {"semenov": "Semenov", "frank-kamenetskii": "Frank-Kamenetskii"}.get(r.get("critical_ambient_method"),
+                                                                                      "—")
+        margin = r.get("critical_ambient_margin_K")
+        rows.append((f"Critical ambient ({method})", temp(crit, u) + (
+            f"; the ambient is {dtemp(margin, u)} below it" if margin is not None and margin > 0
+            else ("; the ambient is at or above it" if margin is not None else ""))))
+        if r.get("critical_ambient_method") == "semenov":
+            rows.append(("Critical contents temperature", temp(r.get("critical_temperature_K"), u)))
+            rows.append(("No-return temperature", temp(r.get("no_return_temperature_K"), u)))
+        rows.append(("Storage temperature (higher of initial, ambient)", temp(r.get("storage_temperature_K"), u)))
+        rows.append(("TMRad at the storage temperature", duration(r.get("tmr_at_storage_temperature_s"))))
+        rows.append(("T_D24", temp(r.get("t_d24_K"), u)))
+        rows.append(("Decomposition temperature rise", "unbounded" if r.get("decomposition_rise_unbounded")
+                     else dtemp(r.get("decomposition_temperature_rise_K"), u)))
+        gas = r.get("gas_generating_sources") or []
+        rows.append(("Gas generation", ("; ".join(gas) + (" (closed package)" if r.get("gas_in_closed_package") else ""))
+                     if gas else "none declared"))
+    elif scenario is not None and has_decomposition:
+        rows.append(("TMRad of the decomposition from the initial temperature", duration(r.get("tmr_adiabatic_s"))))
+        rows.append(("T_D24 (decomposition)", temp(r.get("t_d24_K"), u)))
+        if r.get("no_return_temperature_K") is not None:
+            rows.append(("No-return temperature", temp(r.get("no_return_temperature_K"), u)))
+    elif scenario is None and (r.get("tmr_adiabatic_s") is not None or r.get("mtsr_K") is not None):
+        rows += [("TMRad from the initial temperature", duration(r.get("tmr_adiabatic_s"))),
+                 ("T_D24 (TMRad = 24 h)", temp(r.get("t_d24_K"), u)),
+                 ("MTSR", temp(r.get("mtsr_K"), u)), ("TMRad at MTSR", duration(r.get("tmr_at_mtsr_s"))),
+                 ("Criticality class", str(r.get("criticality_class") or "—"))]
+    if r.get("critical_medium_temperature_K") is not None or r.get("heating_medium_temperature_K") is not None:
+        tm, tmc = r.get("heating_medium_temperature_K"), r.get("critical_medium_temperature_K")
+        rows.append(("Critical medium temperature (Semenov)", temp(tmc, u) + (f"; medium {temp(tm, u)}" if tm else "")
+                     + ("; the medium is hotter than T_D24" if r.get("medium_above_t_d24") else "")))
+    return rows
+
+
 def format_result(r: dict) -> str:
     u = (r.get("units") or {}).get("temperature", "K")
     lines = []
@@ -25,10 +116,21 @@ def format_result(r: dict) -> str:
     tc = r.get("time_constant_s")
     lines.append(f"Heat capacity {r['heat_capacity_J_per_K']:.4g} J/K; UA {r['ua_W_per_K']:.4g} W/K; "
                  f"time constant {duration(tc) if tc is not None else 'none (adiabatic)'}")
-    if r.get("response_time_s") is not None:
+    if r.get("scenario"):
+        lines.append(f"Scenario: {r['scenario']}" + _roles_text(r))
+    basis = r.get("detection_basis")
+    if r.get("response_time_s") is not None or basis in ("assumed", "unmonitored"):
         det = r.get("detection_time_s")
-        lines.append(f"Detection at {duration(det) if det is not None else 'never (alarm not reached)'}; "
-                     f"response time {duration(r['response_time_s'])}")
+        if basis == "unmonitored":
+            det_text = "none (storage not monitored: limits are checked against the storage period)"
+        elif basis == "assumed":
+            det_text = "assumed at t = 0 (no detection block)"
+        else:
+            det_text = f"at {duration(det)}" if det is not None else "never (alarm not reached)"
+        resp = r.get("response_time_s")
+        lines.append(f"Detection {det_text}; response time {duration(resp) if resp is not None else 'not given'}")
+    if r.get("detection_note"):
+        lines.append(_wrap(r["detection_note"], "  "))
     lines.append("")
     lines.append("Limits:")
     width = max(len(l["name"]) for l in r["limits"])
@@ -38,8 +140,12 @@ def format_result(r: dict) -> str:
         margin = ""
         if l.get("margin_s") is not None:
             margin = f"; margin {duration(abs(l['margin_s']))}" + (" SHORT" if l["margin_s"] < 0 else "")
+            if l.get("margin_note"):
+                margin += f" ({l['margin_note']})"
         lines.append(f"  {l['name']:<{width}}  {temp(l['temperature_K'], u)}  {when}{margin}")
     lines.append("")
+    if r.get("start_release"):
+        lines.append(_wrap(r["start_release"]["note"], ""))
     lines.append(f"Peak {temp(r['peak_temperature_K'], u)} at {duration(r['peak_time_s'])}")
     st = r.get("steady_temperature_K")
     lines.append(f"Steady temperature {temp(st, u) if st is not None else 'none (no stable steady state)'}")
@@ -49,23 +155,15 @@ def format_result(r: dict) -> str:
                  for a in ad.get("limits", [])]
         lines.append(f"Adiabatic bound (UA = 0): {'; '.join(parts)}; rise from decaying sources "
                      f"{dtemp(ad.get('temperature_rise_K'), u)}")
-    if r.get("tmr_adiabatic_s") is not None or r.get("critical_ambient_temperature_K") is not None \
-            or r.get("mtsr_K") is not None:
+    rows = criteria_rows(r, u)
+    if rows or r.get("runaway_summary"):
         lines.append("")
-        lines.append("Runaway criteria:")
+        lines.append(f"Runaway criteria ({r.get('scenario') or 'all sources'}):")
         if r.get("runaway_summary"):
             lines.append(_wrap(r["runaway_summary"], "  "))
-        rows = [("TMRad from the initial temperature", duration(r.get("tmr_adiabatic_s"))),
-                ("T_D24 (TMRad = 24 h)", temp(r.get("t_d24_K"), u)),
-                (f"Critical ambient ({r.get('critical_ambient_method') or '—'})", temp(r.get("critical_ambient_temperature_K"), u)),
-                ("Critical contents temperature", temp(r.get("critical_temperature_K"), u)),
-                ("No-return temperature", temp(r.get("no_return_temperature_K"), u)),
-                ("Adiabatic temperature rise", dtemp(r.get("adiabatic_temperature_rise_K"), u)),
-                ("MTSR", temp(r.get("mtsr_K"), u)),
-                ("TMRad at MTSR", duration(r.get("tmr_at_mtsr_s"))),
-                ("Criticality class", str(r.get("criticality_class") or "—"))]
+        width = min(max(len(k) for k, _ in rows), 50) if rows else 0
         for k, v in rows:
-            lines.append(f"  {k:<40} {v}")
+            lines.append(f"  {k:<{width}}  {v}")
     if r.get("biot_number") is not None:
         lines.append(f"Biot number {r['biot_number']:.3g}")
     b = r.get("boiling")

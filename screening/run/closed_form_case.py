@@ -14,7 +14,7 @@ from screening.case.prepare import PreparedCase
 from screening.core.closed_form_history import balance_of, heat_rates, temperature
 from screening.core.model import ScreeningModel
 from screening.core.root_finding import brent_root as brentq
-from screening.core.terms import constant_power, model_terms
+from screening.core.terms import constant_power, model_start_temperature, model_terms
 from screening.core.time_to_limit import first_crossing, history_shape
 from screening.result import HISTORY_POINTS
 from screening.run.recovery import detection_and_recovery
@@ -84,7 +84,6 @@ def screen_closed_form(prepared: PreparedCase, values: ClosedFormValues | None =
     G, steady = _conductance_and_steady(model)
     C = model.heat_capacity
     tau = C / G if G > 0 and math.isfinite(C / G) else None
-    T0 = model.initial_temperature
 
     boiling_result = None
     boil = model.boiling
@@ -96,7 +95,7 @@ def screen_closed_form(prepared: PreparedCase, values: ClosedFormValues | None =
             t = None  # held at the boiling point while liquid remains
         limit_rows.append({"name": lim.name, "temperature_K": lim.temperature, "time_s": t, "reached": t is not None})
         if t == 0.0:
-            warnings.append(limit_at_start_warning(lim.name, lim.temperature, T0, unit))
+            warnings.append(limit_at_start_warning(lim.name, lim.temperature, model_start_temperature(model), unit))
     peak_T, peak_t = values.peak
     end_rate = values.end_rate
     if boil is not None:
@@ -158,7 +157,7 @@ def _conductance_and_steady(model: ScreeningModel) -> tuple[float, float | None]
         steady = Q0 / G
         return G, steady if math.isfinite(steady) else None
     if Q0 == 0:
-        return G, model.initial_temperature + sum(s.power * s.time_constant for s in model.decaying_sources) / \
+        return G, model_start_temperature(model) + sum(s.power * s.time_constant for s in model.decaying_sources) / \
             model.heat_capacity
     return G, None
 

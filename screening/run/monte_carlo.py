@@ -36,7 +36,13 @@ from screening.case.uncertainty_plan import (
     quantile,
 )
 from screening.case.units import DIMENSIONS
-from screening.core.terms import conductance_and_drive, fire_power, heat_capacity
+from screening.core.terms import (
+    conductance_and_drive,
+    fire_power,
+    heat_capacity,
+    released_specific_energy,
+    start_temperature,
+)
 
 SWING_QUANTILES = (0.05, 0.95)  # one-at-a-time swings: each input at its 5th and 95th percentile
 
@@ -70,6 +76,7 @@ class SampleArrays:
     response: np.ndarray  # NaN when not given
     delay: np.ndarray  # detection delay, NaN when an alarm or nothing
     alarm: np.ndarray  # alarm temperature, NaN when none
+    e0: np.ndarray  # heat per kg released at t = 0 (syntheses without kinetics), J/kg
 
     @property
     def n(self) -> int:
@@ -95,6 +102,7 @@ def base_arrays(prepared: PreparedCase, n: int) -> SampleArrays:
         response=full(prepared.response_time if prepared.response_time is not None else np.nan),
         delay=full(prepared.detection_delay if prepared.detection_delay is not None else np.nan),
         alarm=full(prepared.detection_alarm if prepared.detection_alarm is not None else np.nan),
+        e0=full(released_specific_energy(model)),
     )
 
 
@@ -190,6 +198,7 @@ def screen_samples(prepared: PreparedCase, arrays: SampleArrays) -> SampleTimes:
         L = np.column_stack([L, arrays.alarm])
     C = heat_capacity(arrays.m, arrays.cp, arrays.wall)
     p_const = sum(arrays.Pc.T) + np.zeros(n)  # constant sources, and the fire heat input as one column
+    T_start = start_temperature(arrays.T0, arrays.m, C, arrays.e0)
     if prepared.model.arrhenius_sources:
         from screening.core.arrhenius_history_batch import (
             ArrheniusSamples,
@@ -198,7 +207,7 @@ def screen_samples(prepared: PreparedCase, arrays: SampleArrays) -> SampleTimes:
 
         params = ArrheniusSamples(
             heat_capacity=C, contents_mass=arrays.m, ua=arrays.ua, ambient_temperature=arrays.Ta,
-            initial_temperature=arrays.T0, constant_power=p_const,
+            initial_temperature=T_start, constant_power=p_const,
             decaying_power=arrays.Pd, decay_time=arrays.ad, media_ua=arrays.mua, media_temperature=arrays.mT,
             specific_power=arrays.q, reference_temperature=arrays.Tr, activation_energy=arrays.E,
             order=np.where(np.isnan(arrays.dh), 0.0, arrays.order), heat_of_reaction=arrays.dh,
@@ -210,11 +219,13 @@ def screen_samples(prepared: PreparedCase, arrays: SampleArrays) -> SampleTimes:
         G, Q0 = conductance_and_drive(arrays.ua, arrays.Ta, p_const, list(arrays.mua.T), list(arrays.mT.T))
         P = arrays.Pd if arrays.Pd.shape[1] else np.zeros((n, 1))
         b = 1.0 / arrays.ad if arrays.ad.shape[1] else np.zeros((n, 1))
-        times = first_crossing_times(C, G, Q0, arrays.T0, P, b, L, arrays.horizon)
+        times = first_crossing_times(C, G, Q0, T_start, P, b, L, arrays.horizon)
         times = np.asarray(times).reshape(n, -1)
     n_lim = arrays.limits.shape[1]
     if has_alarm:
         detection = times[:, n_lim]
+    elif prepared.model.scenario == "storage" and prepared.detection_delay is None:
+        detection = np.full(n, np.nan)  # unmonitored storage: never detected, checked against the storage period
     else:
         detection = np.where(np.isfinite(arrays.delay), arrays.delay, 0.0)
     return SampleTimes(times[:, :n_lim], detection)

@@ -7,28 +7,39 @@ from screening.case.prepare import PreparedCase
 from screening.core.closed_form_history import balance_of, temperature
 from screening.core.time_to_limit import first_crossing, history_shape
 from screening.result import HISTORY_POINTS
-from screening.run.warnings import response_beyond_horizon_warning
+from screening.run.warnings import MARGIN_NOTE_ASSUMED, detection_basis, response_beyond_horizon_warning
 
 
 def detection_and_recovery(prepared: PreparedCase, result: dict, balance=None, alarm_time=None) -> None:
-    """Detection time, margins, and the recovery path (closed-form cases)."""
+    """Detection time, margins, and the recovery path (closed-form cases).
+
+    Detection is never silently instant: without a detection block it is assumed at t = 0 and every margin
+    carries a note saying so; a storage case without one is unmonitored (no detection time, and a limit
+    reached within the storage period is reached without warning).
+    """
     model = prepared.model
     H = model.horizon
+    basis, note = detection_basis(prepared)
     detection = 0.0
-    if prepared.detection_delay is not None:
+    if basis == "delay":
         detection = prepared.detection_delay
-    elif prepared.detection_alarm is not None:
+    elif basis == "alarm":
         detection = alarm_time
         if detection is None:
             result["warnings"].append("The alarm temperature is not reached within the horizon: the alarm never "
                                       "sounds, so detection relies on something else.")
+    elif basis == "unmonitored":
+        detection = None
     result["detection_time_s"] = detection
+    result["detection_basis"] = basis
+    result["detection_note"] = note
     result["response_time_s"] = prepared.response_time
     for row in result["limits"]:
         if row["time_s"] is not None and prepared.response_time is not None and detection is not None:
             row["margin_s"] = row["time_s"] - (detection + prepared.response_time)
         else:
             row["margin_s"] = None
+        row["margin_note"] = MARGIN_NOTE_ASSUMED if basis == "assumed" and row["margin_s"] is not None else None
     if prepared.response_time is not None and model.horizon < prepared.response_time + (detection or 0.0):
         result["warnings"].append(response_beyond_horizon_warning(H))
     result["recovery"] = None

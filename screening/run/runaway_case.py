@@ -11,13 +11,19 @@ import math
 
 import numpy as np
 
-from screening.case.display import dtemp, temp
+from screening.case.display import temp
 from screening.case.prepare import PreparedCase
-from screening.case.schema import ArrheniusSpec
 from screening.core import runaway as rc
 from screening.core.model import HeatingMedium, Limit, ScreeningModel
-from screening.core.terms import constant_power, model_terms
+from screening.core.terms import constant_power, model_start_temperature, model_terms
 from screening.run.recovery import detection_and_recovery
+from screening.run.scenario_criteria import (
+    HistoryFacts,
+    heat_balance_curves,
+    named_kinetics_warnings,
+    roles_of,
+    scenario_criteria,
+)
 
 ALARM = "\x00alarm"
 
@@ -65,66 +71,21 @@ def screen_with_arrhenius(prepared: PreparedCase) -> dict:
     G = model_terms(model).conductance
     tau = C / G if G > 0 else None
     m = model.contents_mass
-    cp = model.contents_specific_heat
     sources = model.arrhenius_sources
     X0 = _initial_conversions(model)
     P = constant_power(model)
-    T0 = model.initial_temperature
+    T0 = model_start_temperature(model)
     Ta = model.ambient_temperature
+    scenario = model.scenario
 
-    # --- adiabatic criteria
     def add(ws):
         warnings.extend(w for w in ws if w not in warnings)
 
-    tmr0 = float(rc.tmr_adiabatic(T0, cp, sources, conversion=X0))
-    td24, ws = rc.t_d24(cp, sources, conversion=X0, full_output=True)
-    add(ws)
-    rise, rise_warnings = rc.adiabatic_temperature_rise(m, cp, sources, model.decaying_sources,
-                                                        model.constant_sources, full_output=True)
-    add(rise_warnings)
-    unbounded = rise is not None and math.isinf(rise)
-    mtsr_for_class = math.inf if unbounded else (rc.mtsr(T0, rise) if rise is not None else None)
-    rise = None if (rise is None or unbounded) else float(rise)
-    mtsr = rc.mtsr(T0, rise) if rise is not None else None
-    tmr_mtsr = float(rc.tmr_adiabatic(mtsr, cp, sources, conversion=X0)) if mtsr is not None else None
-    declared = _declared_accumulation_rise(prepared)
-    mtsr_declared = T0 + declared if declared is not None else None
-    if mtsr is not None and mtsr_declared is not None and mtsr_declared < mtsr - 1e-9:
-        warnings.append(f"MTSR ({temp(mtsr, unit)}) includes the whole heat of reaction of every Arrhenius source "
-                        f"that does not state accumulated_fraction (taken as 100 %). If such a source is a "
-                        f"secondary decomposition rather than the process reaction, the MTSR of the process "
-                        f"reaction alone is {temp(mtsr_declared, unit)}.")
-    mtt = model.maximum_technical_temperature
-    if mtt is None and model.boiling is not None and model.boiling.venting == "open":
-        mtt = model.boiling.boiling_point
-    crit_class = None
-    if None not in (mtsr_for_class, mtt, td24):
-        crit_class, ws = rc.criticality_class(T0, mtsr_for_class, mtt, td24, full_output=True)
-        add(ws)
-    if unbounded:
-        warnings.append("The adiabatic temperature rise is unbounded (an Arrhenius source without a heat of "
-                        "reaction releases heat without limit): MTSR and TMRad at MTSR are not given; the "
-                        "criticality class is taken with MTSR above every other temperature (conservative).")
-
-    # --- Semenov (stirred) or Frank-Kamenetskii (unstirred)
-    sem_crit, ws = rc.semenov_critical_ambient(m, sources, P, model.ua, model.heating_media, conversion=X0,
-                                               full_output=True)
-    add(ws)
-    steady, ws = rc.steady_states(m, sources, P, model.ua, Ta, model.heating_media, conversion=X0,
-                                  full_output=True)
-    add(ws)
-    if model.decaying_sources and rc.WARNING_TRANSIENT_SOURCES not in warnings:
-        warnings.append(rc.WARNING_TRANSIENT_SOURCES)
-    crit_ambient, crit_T, method = sem_crit.ambient, sem_crit.temperature, "semenov"
-    no_return = steady.unstable
-    fk = None
-    if model.mixing == "unstirred":
-        fk = _frank_kamenetskii(model, X0, warnings, unit)
-        method = "frank-kamenetskii"
-        crit_ambient = fk["critical_ambient_K"] if fk else None
-        crit_T = None
-        no_return = None
-
+    # --- steady states of the whole balance (all reactions at their initial conversion): where it settles
+    steady, ws = rc.steady_states(m, sources, P, model.ua, Ta, model.heating_media, conversion=X0, full_output=True)
+    transient = bool(model.decaying_sources or model.fire_sources or T0 > Ta)
+    if scenario != "cooling-failure" and model.mixing == "stirred":
+        add(w for w in ws if w != rc.WARNING_TRANSIENT_SOURCES or (transient and scenario == "storage"))
     runs_away = hist.peak_is_ceiling or (hist.rising_at_end and steady.stable is None)
     stable = steady.stable if not runs_away else None
     final_X = [x if x is not None else x0 for x, x0 in zip(hist.final_conversion, X0)]
@@ -133,32 +94,18 @@ def screen_with_arrhenius(prepared: PreparedCase) -> dict:
         settled = rc.steady_states(m, sources, P, model.ua, Ta, model.heating_media, conversion=final_X)
         if settled.stable is not None:
             stable = settled.stable
-    if steady.stable is not None and runs_away:
-        warnings.append(f"A stable steady state exists at {temp(steady.stable, unit)}, but the contents do not "
-                        f"settle there: they start above, or are pushed past, the no-return temperature "
-                        f"({temp(no_return, unit) if no_return else '—'}).")
-    if model.decaying_sources and steady.unstable is not None and hist.peak_temperature > steady.unstable \
-            and T0 < steady.unstable:
-        warnings.append(f"The transient (decaying) sources push the contents past the no-return temperature "
-                        f"({temp(steady.unstable, unit)}): they run away even though the ambient is below the "
-                        f"critical ambient.")
-    if model.mixing == "stirred" and steady.unstable is not None and T0 >= steady.unstable:
-        if runs_away:
-            warnings.append(f"The contents start at {temp(T0, unit)}, above the no-return temperature "
-                            f"({temp(steady.unstable, unit)}): they run away even though the ambient is below the "
-                            f"critical ambient.")
-        else:
-            warnings.append(f"The contents start at {temp(T0, unit)}, above the no-return temperature at the "
-                            f"initial conversion ({temp(steady.unstable, unit)}): heat generation exceeds the loss, "
-                            f"so the temperature rises until the reaction is spent (peak "
-                            f"{temp(hist.peak_temperature, unit)}). Only depletion of the reactant stops it; "
-                            f"with more accumulation, or an autocatalytic reaction, it would run away.")
+    no_return = steady.unstable
+    if scenario != "cooling-failure" and model.mixing == "stirred":
+        _steady_state_statements(model, hist, steady, runs_away, T0, unit, warnings)
 
-    used = [T0, mtsr, td24, crit_T, no_return, hist.peak_temperature] + [l.temperature for l in model.limits]
-    warnings[:] = _consolidate(warnings, rc.kinetics_warnings(sources, temperatures=[t for t in used if t is not None],
-                                                              conversion=X0))
-
-    summary = _summary(model, unit, crit_ambient, method, stable, no_return, runs_away, hist)
+    facts = HistoryFacts(hist.peak_temperature, hist.peak_time, bool(runs_away), bool(hist.rising_at_end), T0, stable)
+    criteria, ws, used = scenario_criteria(prepared, facts)
+    add(ws)
+    _, decomposition = roles_of(model)
+    kinetics = [rc.WARNING_ZERO_CONVERSION] if any(s.specific_power > 0 for s in sources) else []
+    for s in sources:  # one extrapolation caution per source, at the farthest temperature its kinetics were used at
+        kinetics += named_kinetics_warnings([s], [T0, hist.peak_temperature] + (used if s in decomposition else []))
+    warnings[:] = _consolidate(warnings, kinetics)
 
     # --- adiabatic bound
     ad_model = dataclasses.replace(model, ua=0.0, boiling=None)
@@ -186,31 +133,26 @@ def screen_with_arrhenius(prepared: PreparedCase) -> dict:
         "boiling": boiling,
         "warnings": warnings,
         "method": "numeric",
-        "tmr_adiabatic_s": tmr0 if math.isfinite(tmr0) else None,
-        "tmr_at_mtsr_s": tmr_mtsr if (tmr_mtsr is not None and math.isfinite(tmr_mtsr)) else None,
-        "t_d24_K": td24,
-        "critical_ambient_temperature_K": crit_ambient,
-        "critical_ambient_method": method if crit_ambient is not None or model.mixing == "unstirred" else method,
-        "critical_temperature_K": crit_T,
-        "no_return_temperature_K": no_return,
-        "adiabatic_temperature_rise_K": rise,
-        "adiabatic_rise_unbounded": unbounded,
-        "mtsr_K": mtsr,
-        "mtsr_declared_accumulation_K": mtsr_declared,
-        "criticality_class": crit_class,
-        "runaway_summary": summary,
-        "semenov": {"critical_ambient_K": sem_crit.ambient, "critical_temperature_K": sem_crit.temperature,
-                    "stable_K": steady.stable, "no_return_K": steady.unstable},
-        "frank_kamenetskii": fk,
+        **criteria,
         "stop_reason": hist.stop_reason,
     }
+    if scenario == "heat-up":
+        result["no_return_temperature_K"] = no_return if model.mixing == "stirred" else None
     alarm_time = _alarm_time(hist)
     detection_and_recovery(prepared, result, alarm_time=alarm_time)
     _arrhenius_recovery(prepared, result, hist)
     result["_history"] = {"time_s": np.asarray(hist.time).tolist(), "temperature_K": np.asarray(hist.temperature).tolist(),
                           "generation_W": np.asarray(hist.heat_generation).tolist(),
                           "loss_W": np.asarray(hist.heat_loss_ambient).tolist()}
-    result["_heat_balance"] = _heat_balance(model, X0, P, steady, crit_ambient if method == "semenov" else sem_crit.ambient)
+    if scenario == "heat-up":
+        curve_sources, curve_X, states = sources, X0, (steady.stable, steady.unstable)
+    else:
+        block = criteria["semenov"] or {}
+        curve_sources, curve_X, states = decomposition, None, (block.get("stable_K"), block.get("no_return_K"))
+    if curve_sources:
+        result["_heat_balance"] = heat_balance_curves(
+            model, curve_sources, curve_X, states,
+            criteria["critical_ambient_temperature_K"] if criteria["critical_ambient_method"] == "semenov" else None)
     return result
 
 
@@ -233,82 +175,28 @@ def _consolidate(warnings: list[str], kinetics: list[str]) -> list[str]:
     return out
 
 
-def _declared_accumulation_rise(prepared: PreparedCase) -> float | None:
-    """Adiabatic rise of decaying sources plus Arrhenius sources that state accumulated_fraction, K."""
-    model = prepared.model
-    energy = sum(s.power * s.time_constant for s in model.decaying_sources)
-    specs = [s for s in prepared.spec.heat_sources if isinstance(s, ArrheniusSpec)]
-    for spec, src in zip(specs, model.arrhenius_sources):
-        if spec.accumulated_fraction is not None and src.specific_heat_of_reaction is not None:
-            energy += src.accumulated_fraction * src.specific_heat_of_reaction * model.contents_mass
-    return energy / (model.contents_mass * model.contents_specific_heat)
-
-
-def _frank_kamenetskii(model: ScreeningModel, X0, warnings, unit) -> dict | None:
-    k, r, h, rho = model.thermal_conductivity, model.conduction_radius, model.surface_coefficient, model.density
-    if None in (k, r, rho) or model.conduction_geometry is None:
-        warnings.append("Unstirred contents: the Frank-Kamenetskii criterion needs contents.thermal_conductivity, "
-                        "contents.density and a vessel shape; it was not computed, and the Semenov (well-mixed) "
-                        "critical ambient is not valid for unstirred contents.")
-        return None
-    biot = h * r / k if h is not None else math.inf
-    delta_c = rc.frank_kamenetskii_critical(model.conduction_geometry, biot)
-    ta_c, fk_warnings = rc.frank_kamenetskii_critical_ambient(model.conduction_geometry, biot, rho,
-                                                              model.arrhenius_sources, r, k, conversion=X0,
-                                                              full_output=True)
-    warnings.extend(w for w in fk_warnings if w not in warnings)
-    delta = rc.frank_kamenetskii_parameter(model.ambient_temperature, rho, model.arrhenius_sources, r, k, conversion=X0)
-    warnings.append(f"Unstirred contents: the lumped temperature history assumes one temperature for the whole mass "
-                    f"and is not valid for conduction-limited contents; the Frank-Kamenetskii criterion (geometry "
-                    f"{model.conduction_geometry}, radius {r:.3g} m, surface Biot number "
-                    f"{'infinite (no surface coefficient)' if math.isinf(biot) else f'{biot:.3g}'}) governs. A "
-                    f"cylinder is treated as infinitely long and a box as a slab, which is conservative.")
-    # JSON has no infinity: an infinite Biot number (surface held at ambient; its warning says so) is null
-    return {"geometry": model.conduction_geometry, "radius_m": r,
-            "surface_biot_number": None if math.isinf(biot) else biot,
-            "delta": float(delta), "delta_critical": float(delta_c), "critical_ambient_K": ta_c}
-
-
-def _summary(model, unit, crit_ambient, method, stable, no_return, runs_away, hist) -> str:
-    Ta, T0 = model.ambient_temperature, model.initial_temperature
-    name = "Semenov" if method == "semenov" else "Frank-Kamenetskii"
-    if crit_ambient is None:
-        if model.ua == 0 and not model.heating_media:
-            return ("With no heat loss (UA = 0) no steady state exists at any ambient: the contents heat up until "
-                    "the reaction is spent, or run away.")
-        return f"The {name} critical ambient could not be computed for this case; see the warnings."
-    margin = crit_ambient - Ta
-    if margin <= 0:
-        return (f"The contents CAN run away at the stated ambient: the ambient ({temp(Ta, unit)}) is at or above the "
-                f"{name} critical ambient ({temp(crit_ambient, unit)}), so no stable steady state exists.")
-    text = (f"The ambient ({temp(Ta, unit)}) is {dtemp(margin, unit)} below the {name} critical ambient "
-            f"({temp(crit_ambient, unit)}).")
-    if runs_away:
-        text += (" Even so the contents run away in this scenario: they start above, or are pushed past, the "
-                 "no-return temperature" + (f" ({temp(no_return, unit)})." if no_return else "."))
-    elif stable is not None:
-        text += f" The contents settle at a stable steady state of {temp(stable, unit)}"
-        if no_return is not None:
-            text += (f"; they would run away only if pushed above the no-return temperature of "
-                     f"{temp(no_return, unit)}.")
+def _steady_state_statements(model, hist, steady, runs_away, T0, unit, warnings) -> None:
+    """What the steady states of the whole balance say about the computed history (storage, heat-up)."""
+    no_return = steady.unstable
+    if steady.stable is not None and runs_away:
+        warnings.append(f"A stable steady state exists at {temp(steady.stable, unit)}, but the contents do not "
+                        f"settle there: they start above, or are pushed past, the no-return temperature "
+                        f"({temp(no_return, unit) if no_return else '—'}).")
+    if model.decaying_sources and no_return is not None and hist.peak_temperature > no_return and T0 < no_return:
+        warnings.append(f"The transient (decaying) sources push the contents past the no-return temperature "
+                        f"({temp(no_return, unit)}): they run away even though the ambient is below the "
+                        f"critical ambient.")
+    if no_return is not None and T0 >= no_return:
+        if runs_away:
+            warnings.append(f"The contents start at {temp(T0, unit)}, above the no-return temperature "
+                            f"({temp(no_return, unit)}): they run away even though the ambient is below the "
+                            f"critical ambient.")
         else:
-            text += "."
-    return text
-
-
-def _heat_balance(model, X0, P, steady, crit_ambient) -> dict:
-    Ta = model.ambient_temperature
-    hi_candidates = [model.initial_temperature + 60, Ta + 80] + [l.temperature + 20 for l in model.limits]
-    if steady.unstable is not None:
-        hi_candidates.append(steady.unstable + 20)
-    lo = min(Ta, model.initial_temperature) - 10
-    hi = min(max(hi_candidates), lo + 400)
-    T = np.linspace(lo, hi, 161)
-    gen = np.asarray(rc.heat_generation(T, model.contents_mass, model.arrhenius_sources, P, conversion=X0), dtype=float)
-    loss = np.asarray(rc.heat_loss(T, model.ua, Ta, model.heating_media), dtype=float)
-    states = [s for s in (steady.stable, steady.unstable) if s is not None]
-    return {"temperature_K": T.tolist(), "generation_W": gen.tolist(), "loss_W": loss.tolist(),
-            "steady_states_K": states, "critical_ambient_K": crit_ambient, "ambient_K": Ta}
+            warnings.append(f"The contents start at {temp(T0, unit)}, above the no-return temperature at the "
+                            f"initial conversion ({temp(no_return, unit)}): heat generation exceeds the loss, "
+                            f"so the temperature rises until the reaction is spent (peak "
+                            f"{temp(hist.peak_temperature, unit)}). Only depletion of the reactant stops it; "
+                            f"with more accumulation, or an autocatalytic reaction, it would run away.")
 
 
 def _arrhenius_recovery(prepared: PreparedCase, result: dict, hist) -> None:
@@ -340,7 +228,7 @@ def _arrhenius_recovery(prepared: PreparedCase, result: dict, hist) -> None:
                      for s in model.decaying_sources)
     media = model.heating_media + (HeatingMedium(tm, ua_r),)
     rec_model = dataclasses.replace(model, initial_temperature=T_start, horizon=H - start, arrhenius_sources=sources,
-                                    decaying_sources=decaying, heating_media=media)
+                                    decaying_sources=decaying, heating_media=media, released_at_start=())
     rec = integrate_history(rec_model)
     reached = list(reached_before)
     for c in rec.limits:

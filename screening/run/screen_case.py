@@ -9,10 +9,13 @@ from __future__ import annotations
 from screening import __version__
 from screening.case.prepare import PreparedCase
 from screening.core.fire_exposure import FIRE_CAUTIONS
+from screening.case.display import temp
+from screening.core.terms import model_start_temperature
 from screening.run.closed_form_case import ClosedFormValues, screen_closed_form
 from screening.run.monte_carlo import analyse
 from screening.run.runaway_case import screen_with_arrhenius
-from screening.run.warnings import biot_and_validity
+from screening.run.scenario_criteria import HistoryFacts, empty_criteria, scenario_criteria
+from screening.run.warnings import biot_and_validity, case_assumptions
 
 
 def screen_prepared(prepared: PreparedCase, input_hash: str | None = None,
@@ -27,6 +30,7 @@ def screen_prepared(prepared: PreparedCase, input_hash: str | None = None,
         core = screen_with_arrhenius(prepared)
     else:
         core = screen_closed_form(prepared, values, with_history=with_history)
+        core.update(_closed_form_criteria(prepared, core))
     spec = prepared.spec
     result = {
         "id": spec.id,
@@ -42,12 +46,11 @@ def screen_prepared(prepared: PreparedCase, input_hash: str | None = None,
         ua_W_per_K=model.ua,
         limit_exceeded_at_start=any(r["time_s"] == 0.0 for r in core["limits"]),
     )
-    for key in ("tmr_adiabatic_s", "tmr_at_mtsr_s", "t_d24_K", "critical_ambient_temperature_K",
-                "critical_ambient_method", "critical_temperature_K", "no_return_temperature_K",
-                "adiabatic_temperature_rise_K", "mtsr_K", "criticality_class"):
-        result.setdefault(key, None)
-    result["maximum_technical_temperature_K"] = model.maximum_technical_temperature
+    result["start_release"] = _start_release(prepared)
+    if result.get("maximum_technical_temperature_K") is None:
+        result["maximum_technical_temperature_K"] = model.maximum_technical_temperature
     biot_and_validity(prepared, result)
+    result["assumptions"].extend(case_assumptions(prepared))
     if model.fire_sources:
         result["fire"] = [{"power_W": f.power, "wetted_area_m2": f.wetted_area, "environment_factor": f.environment_factor,
                            "drainage_and_firefighting": f.drainage_and_firefighting} for f in model.fire_sources]
@@ -73,3 +76,33 @@ def screen_prepared(prepared: PreparedCase, input_hash: str | None = None,
     if "_heat_balance" in core:
         result["_heat_balance"] = core["_heat_balance"]
     return result
+
+
+def _start_release(prepared: PreparedCase) -> dict | None:
+    """Where the history starts when a synthesis without kinetics is released at t = 0 (said next to the history)."""
+    model = prepared.model
+    if not model.released_at_start:
+        return None
+    start = model_start_temperature(model)
+    unit = prepared.display_temperature_unit
+    names = ", ".join(r.label for r in model.released_at_start if r.label)
+    return {"temperature_K": start,
+            "note": (f"The history starts at {temp(start, unit)}, not at the process temperature "
+                     f"({temp(model.initial_temperature, unit)}): the synthesis given without kinetics ({names}) is "
+                     f"released at once at t = 0 (conservative: the times to the limits, the peak and the "
+                     f"alarm time assume the heat is there from the start; the real release is slower).")}
+
+
+def _closed_form_criteria(prepared: PreparedCase, core: dict) -> dict:
+    """The scenario keys of a closed-form case: empty for a heat-up; MTSR and what follows for a cooling failure
+    (a synthesis given as a decaying source, or a stated cooling failure)."""
+    if prepared.model.scenario != "cooling-failure":
+        return empty_criteria(prepared.model.scenario)
+    start = model_start_temperature(prepared.model)
+    rising = core["peak_time_s"] >= prepared.model.horizon * (1 - 1e-12) and core["peak_temperature_K"] > start
+    facts = HistoryFacts(core["peak_temperature_K"], core["peak_time_s"], False, rising, start,
+                         core.get("steady_temperature_K"))
+    criteria, warnings, _ = scenario_criteria(prepared, facts)
+    core["warnings"].extend(w for w in warnings if w not in core["warnings"])
+    return criteria
+

@@ -28,9 +28,10 @@ def _hours(s: float) -> str:
 ADIABATIC_WARNING = "No heat loss and no heating medium (UA = 0): the vessel is treated as adiabatic."
 
 
-def limit_at_start_warning(name: str, temperature: float, initial_temperature: float, unit: str) -> str:
+def limit_at_start_warning(name: str, temperature: float, start_temperature: float, unit: str) -> str:
+    """``start_temperature``: where the history starts (the initial temperature, plus heat released at t = 0)."""
     return (f"Limit '{name}' ({_fmt_temp(temperature, unit)}) is already reached at the start: "
-            f"the initial temperature is {_fmt_temp(initial_temperature, unit)}.")
+            f"the contents start at {_fmt_temp(start_temperature, unit)}.")
 
 
 def short_horizon_warning(horizon: float, tau: float) -> str:
@@ -46,6 +47,36 @@ def still_rising_warning(end_temperature: float, end_rate: float, steady: float 
 
 def response_beyond_horizon_warning(horizon: float) -> str:
     return f"The horizon ({_hours(horizon)}) ends before detection plus response time: extend it."
+
+
+# Detection: never silently instant.
+DETECTION_ASSUMED = ("No detection block: detection is assumed at t = 0, the start of the scenario, so each margin is "
+                     "the time to the limit less the response time alone. That holds only if the event is noticed "
+                     "at once; state detection.alarm_temperature or detection.delay.")
+DETECTION_UNMONITORED = ("Storage without monitoring (no detection block): nobody is assumed to notice a rise, so the "
+                         "time-to-limit check is against the storage period (the horizon): a limit reached within it "
+                         "counts as reached without warning.")
+MARGIN_NOTE_ASSUMED = "detection assumed at t = 0 (no detection block)"
+
+
+def detection_basis(prepared: PreparedCase) -> tuple[str, str | None]:
+    """(basis, note) of the detection time: "alarm", "delay", "assumed" (at t = 0) or "unmonitored" (storage)."""
+    if prepared.detection_delay is not None:
+        return "delay", None
+    if prepared.detection_alarm is not None:
+        return "alarm", None
+    if prepared.model.scenario == "storage":
+        return "unmonitored", DETECTION_UNMONITORED
+    return "assumed", DETECTION_ASSUMED
+
+
+def case_assumptions(prepared: PreparedCase) -> list[str]:
+    """Assumption lines from the case's stated defaults and its detection basis (after the validity lines)."""
+    out = list(prepared.assumptions)
+    note = detection_basis(prepared)[1]
+    if note is not None:
+        out.append(note)
+    return out
 
 
 def biot_and_validity(prepared: PreparedCase, result: dict) -> None:

@@ -260,8 +260,8 @@ def _fmt(v, digits: int = 4) -> str:
 
 
 def result_html(r: dict) -> str:
-    from screening.case.display import dtemp, duration, temp
-    from screening.report.text import format_result
+    from screening.case.display import duration, temp
+    from screening.report.text import criteria_rows, format_result
 
     u = (r.get("units") or {}).get("temperature", "K")
     verdict = str(r.get("verdict") or "")
@@ -291,6 +291,8 @@ def result_html(r: dict) -> str:
         when = duration(t) if t is not None else f"not reached within {duration(horizon)}"
         margin = lim.get("margin_s")
         mtxt = "—" if margin is None else (duration(abs(margin)) + (" short" if margin < 0 else ""))
+        if margin is not None and lim.get("margin_note"):
+            mtxt += f' ({lim["margin_note"]})'
         ad = adiabatic.get(lim.get("name"))
         rows.append(f'<tr><td>{esc(str(lim.get("name")))}</td><td class="n">{esc(temp(lim.get("temperature_K"), u))}'
                     f'</td><td class="n">{esc(when)}</td><td class="n">{esc(mtxt)}</td>'
@@ -299,6 +301,8 @@ def result_html(r: dict) -> str:
                '<th>Reached after</th><th>Margin after detection and response</th><th>Adiabatic bound (UA = 0)</th>'
                '</tr>' + "".join(rows) + "</table>")
     out.append('<p class="muted">"Not reached within the horizon" means only that: the limit may be reached later.</p>')
+    if r.get("detection_note"):
+        out.append(f'<p><b>{esc(str(r["detection_note"]))}</b></p>')
     tc = r.get("time_constant_s")
     key = [("Initial temperature", temp(r.get("initial_temperature_K"), u)),
            ("Ambient temperature", temp(r.get("ambient_temperature_K"), u)),
@@ -309,22 +313,21 @@ def result_html(r: dict) -> str:
            ("Time constant", duration(tc) if tc is not None else "none (adiabatic)"),
            ("Heat capacity", f'{_fmt(r.get("heat_capacity_J_per_K"))} J/K'),
            ("Heat-loss conductance UA", f'{_fmt(r.get("ua_W_per_K"))} W/K'),
-           ("Detection", duration(r.get("detection_time_s")) if r.get("detection_time_s") is not None else "—"),
+           ("Scenario", str(r.get("scenario") or "—")),
+           ("Detection", {"assumed": "assumed at t = 0 (no detection block)",
+                          "unmonitored": "none (storage not monitored)"}.get(
+               r.get("detection_basis"), duration(r.get("detection_time_s")) if r.get("detection_time_s") is not None
+               else "—")),
            ("Response time", duration(r.get("response_time_s"))),
            ("Method", str(r.get("method") or "—")), ("Mixing", str(r.get("mixing") or "—")),
            ("Biot number", _fmt(r.get("biot_number"), 3))]
     out.append("<h2>Key numbers</h2><table>" + "".join(f"<tr><th>{esc(k)}</th><td>{esc(v)}</td></tr>" for k, v in key)
                + "</table>")
-    crit = [("TMRad from the initial temperature", duration(r.get("tmr_adiabatic_s"))),
-            ("T_D24 (TMRad = 24 h)", temp(r.get("t_d24_K"), u)),
-            (f'Critical ambient ({r.get("critical_ambient_method") or "—"})',
-             temp(r.get("critical_ambient_temperature_K"), u)),
-            ("Critical contents temperature", temp(r.get("critical_temperature_K"), u)),
-            ("No-return temperature", temp(r.get("no_return_temperature_K"), u)),
-            ("Adiabatic temperature rise", dtemp(r.get("adiabatic_temperature_rise_K"), u)),
-            ("MTSR", temp(r.get("mtsr_K"), u)), ("TMRad at MTSR", duration(r.get("tmr_at_mtsr_s"))),
-            ("Criticality class", str(r.get("criticality_class") or "—"))]
-    if any(r.get(k) is not None for k in ("tmr_adiabatic_s", "critical_ambient_temperature_K", "mtsr_K", "t_d24_K")):
+    try:
+        crit = criteria_rows(r, u)
+    except Exception:  # noqa: BLE001 - a malformed result shows without the criteria table
+        crit = []
+    if crit or r.get("runaway_summary"):
         out.append("<h2>Runaway criteria</h2>")
         if r.get("runaway_summary"):
             out.append(f'<p>{esc(str(r["runaway_summary"]))}</p>')

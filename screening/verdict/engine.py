@@ -67,6 +67,8 @@ def _fmt_temperature(k: float, unit: str, digits: int = 1) -> str:
 
 
 def _fmt_delta(k: float, unit: str, digits: int = 1) -> str:
+    if math.isinf(k):  # a rise without bound (a reaction with no heat of reaction given)
+        return "unbounded" if k > 0 else "minus infinity"
     if unit in ("degF", "degR"):
         return f"{k:.{digits}f} K ({k * 1.8:.{digits}f} °F)"
     return f"{k:.{digits}f} K"

@@ -155,8 +155,18 @@ def _q_response_time(r):
     return _Missing(UNKNOWN, _NO_RESPONSE) if v is None else (v, None)
 
 
+_UNMONITORED = ("the store is not monitored (no detection block), so limits are checked against the storage "
+                "period (the horizon)")
+
+
+def _unmonitored(r: dict) -> bool:
+    return r.get("detection_basis") == "unmonitored"
+
+
 @_safe
 def _q_detection_time(r):
+    if _unmonitored(r):
+        return _Missing(NOT_APPLICABLE, _UNMONITORED)
     if "detection_time_s" not in r:
         return _Missing(UNKNOWN, "detection time not in the result")
     v = _num(r, "detection_time_s")
@@ -165,6 +175,8 @@ def _q_detection_time(r):
 
 @_per_evaluation
 def _deadline(r) -> float | _Missing:
+    if _unmonitored(r):
+        return _Missing(NOT_APPLICABLE, _UNMONITORED)
     resp = _num(r, "response_time_s")
     if resp is None:
         return _Missing(UNKNOWN, _NO_RESPONSE)
@@ -197,6 +209,8 @@ def _q_first_limit_time(r):
 def _q_smallest_margin(r):
     if not _limits(r):
         return _Missing(NOT_APPLICABLE, _NO_LIMITS)
+    if _unmonitored(r):
+        return _Missing(NOT_APPLICABLE, _UNMONITORED)
     if _num(r, "response_time_s") is None:
         return _Missing(UNKNOWN, _NO_RESPONSE)
     times = _reached_times(r)
@@ -253,11 +267,38 @@ def _q_limit_exceeded_at_start(r):
 
 
 @_safe
+def _q_start_temperature(r):
+    block = r.get("start_release")
+    if isinstance(block, dict):
+        v = _num(block, "temperature_K")
+        if v is not None:
+            return v, None
+    v = _num(r, "initial_temperature_K")
+    return _Missing(UNKNOWN, "initial temperature not in the result") if v is None else (v, None)
+
+
+@_safe
 def _q_undetected_limit(r):
     if "detection_time_s" not in r:
         return _Missing(UNKNOWN, "detection time not in the result")
     times = _reached_times(r)
     if r.get("detection_time_s") is not None or not times:
+        return False, None
+    t, lim = min(times, key=lambda x: x[0])
+    why = _UNMONITORED if _unmonitored(r) else "the alarm does not sound within the horizon"
+    return True, {"limit": _lname(lim), "limit_time": t, "detection": why}
+
+
+@_safe
+def _q_limit_reached_detection_assumed(r):
+    basis = r.get("detection_basis")
+    if basis is None:
+        return _Missing(UNKNOWN, "the detection basis is not in the result")
+    if basis != "assumed":
+        return _Missing(NOT_APPLICABLE, "the case states how the failure is detected" if basis in ("alarm", "delay")
+                        else _UNMONITORED)
+    times = _reached_times(r)
+    if not times:
         return False, None
     t, lim = min(times, key=lambda x: x[0])
     return True, {"limit": _lname(lim), "limit_time": t}
@@ -295,10 +336,56 @@ _RUNAWAY_KEYS = (
     "mtsr_K", "criticality_class",
 )
 _NO_ARRHENIUS = "the case has no temperature-dependent (Arrhenius) heat source, so there are no runaway results"
+_NO_DECOMPOSITION = ("no decomposition (secondary reaction) source is given, so T_D24 and TMRad are not known: "
+                     "T_D24 must be measured")
+_NOT_COOLING_FAILURE = {
+    "storage": "storage scenario: there is no synthesis reaction, so no MTSR and no criticality class",
+    "heat-up": "heat-up scenario: only the time to each limit is judged (no MTSR and no criticality class)",
+}
+_NOT_STORAGE = {
+    "cooling-failure": "cooling-failure scenario: the critical ambient is a storage criterion",
+    "heat-up": "heat-up scenario: only the time to each limit is judged (no critical ambient)",
+}
+
+#: The scenario a reactor quantity (MTSR and what follows from it) belongs to.
+_COOLING_FAILURE_ONLY = {"tmr_at_mtsr_s", "mtsr_K", "adiabatic_temperature_rise_K", "criticality_class",
+                         "maximum_technical_temperature_K", "final_temperature_K"}
+_STORAGE_ONLY = {"critical_ambient_temperature_K", "critical_temperature_K", "tmr_at_storage_temperature_s"}
+_DECOMPOSITION = {"tmr_adiabatic_s", "t_d24_K", "tmr_at_mtsr_s", "final_temperature_K", "tmr_at_storage_temperature_s",
+                  "decomposition_temperature_rise_K"}
 
 
 def _has_runaway(r: dict) -> bool:
     return any(r.get(k) is not None for k in _RUNAWAY_KEYS)
+
+
+def _scenario(r: dict) -> str | None:
+    s = r.get("scenario")
+    return s if isinstance(s, str) else None
+
+
+def _has_decomposition(r: dict) -> bool:
+    return bool(r.get("decomposition_sources"))
+
+
+def _scenario_missing(r: dict, key: str) -> _Missing | None:
+    """Why a runaway key has no value in this scenario (not applicable or unknown), or None when it should have one.
+
+    Results without a scenario (made before reactions had roles) keep the older rule: not applicable when
+    the case has no runaway result at all.
+    """
+    scenario = _scenario(r)
+    if scenario is None:
+        return None if _has_runaway(r) else _Missing(NOT_APPLICABLE, _NO_ARRHENIUS)
+    if key in _COOLING_FAILURE_ONLY and scenario != "cooling-failure":
+        return _Missing(NOT_APPLICABLE, _NOT_COOLING_FAILURE.get(scenario, f"{scenario} scenario"))
+    if key in _STORAGE_ONLY and scenario != "storage":
+        return _Missing(NOT_APPLICABLE, _NOT_STORAGE.get(scenario, f"{scenario} scenario"))
+    if key in _DECOMPOSITION and not _has_decomposition(r):
+        if scenario == "cooling-failure":
+            return _Missing(UNKNOWN, _NO_DECOMPOSITION)
+        return _Missing(NOT_APPLICABLE, "the case has no decomposition (temperature-dependent) source")
+    return None
 
 
 def _runaway(key: str, label: str):
@@ -307,20 +394,28 @@ def _runaway(key: str, label: str):
         v = _num(r, key)
         if v is not None:
             return v, None
-        if not _has_runaway(r):
-            return _Missing(NOT_APPLICABLE, _NO_ARRHENIUS)
+        if key == "decomposition_temperature_rise_K" and r.get("decomposition_rise_unbounded"):
+            return math.inf, None
+        missing = _scenario_missing(r, key)
+        if missing is not None:
+            return missing
         return _Missing(UNKNOWN, f"{label} not in the result")
 
     return fn
+
+
+def _storage_gap(r):
+    missing = _scenario_missing(r, "critical_ambient_temperature_K")
+    if missing is not None:
+        return missing
+    return _Missing(UNKNOWN, "critical ambient temperature not in the result")
 
 
 @_safe
 def _q_critical_ambient_gap(r):
     crit = _num(r, "critical_ambient_temperature_K")
     if crit is None:
-        if not _has_runaway(r):
-            return _Missing(NOT_APPLICABLE, _NO_ARRHENIUS)
-        return _Missing(UNKNOWN, "critical ambient temperature not in the result")
+        return _storage_gap(r)
     amb = _num(r, "ambient_temperature_K")
     if amb is None:
         return _Missing(UNKNOWN, "ambient temperature not in the result")
@@ -333,8 +428,13 @@ def _q_critical_ambient_gap(r):
 def _q_no_return_gap(r):
     t_nr = _num(r, "no_return_temperature_K")
     if t_nr is None:
-        if not _has_runaway(r):
+        if _scenario(r) is None and not _has_runaway(r):
             return _Missing(NOT_APPLICABLE, _NO_ARRHENIUS)
+        if _scenario(r) is not None and not (r.get("decomposition_sources") or r.get("synthesis_sources")):
+            return _Missing(NOT_APPLICABLE, _NO_ARRHENIUS)
+        if r.get("mixing") == "unstirred":
+            return _Missing(NOT_APPLICABLE, "unstirred contents: the no-return temperature is a well-mixed "
+                                            "(Semenov) result")
         return _Missing(NOT_APPLICABLE, "no no-return temperature at this ambient "
                                         "(no steady state; see the critical-ambient check)")
     t0 = _num(r, "initial_temperature_K")
@@ -348,10 +448,21 @@ def _q_t_d24_gap(r):
     td = _num(r, "t_d24_K")
     mtsr = _num(r, "mtsr_K")
     if td is None or mtsr is None:
-        if not _has_runaway(r):
-            return _Missing(NOT_APPLICABLE, _NO_ARRHENIUS)
+        for key in ("mtsr_K", "t_d24_K"):
+            missing = _scenario_missing(r, key)
+            if missing is not None:
+                return missing
         return _Missing(UNKNOWN, ("T_D24" if td is None else "MTSR") + " not in the result")
     return td - mtsr, None
+
+
+def _classes_text(r) -> str:
+    """" (from MTSR and MTT alone the class is 1 or 2)", or "" when the result does not say."""
+    classes = r.get("criticality_classes_possible")
+    if not isinstance(classes, list) or len(classes) < 2:
+        return ""
+    names = [str(c) for c in classes]
+    return f" (from MTSR and MTT alone the class is {', '.join(names[:-1])} or {names[-1]})"
 
 
 @_safe
@@ -359,12 +470,83 @@ def _q_criticality_class(r):
     v = _num(r, "criticality_class")
     if v is not None:
         return v, None
-    if not _has_runaway(r):
-        return _Missing(NOT_APPLICABLE, _NO_ARRHENIUS)
+    missing = _scenario_missing(r, "criticality_class")
+    if missing is not None:
+        return missing
     if r.get("maximum_technical_temperature_K") is None:
         return _Missing(UNKNOWN, "no maximum technical temperature (MTT) given, so the criticality class "
                                  "is not determined")
+    if _scenario(r) == "cooling-failure" and not _has_decomposition(r):
+        return _Missing(UNKNOWN, _NO_DECOMPOSITION + _classes_text(r))
     return _Missing(UNKNOWN, "criticality class not in the result")
+
+
+@_safe
+def _q_probability_tmr(r):
+    scenario = _scenario(r)
+    if scenario == "storage":
+        key = "tmr_at_storage_temperature_s"
+    elif scenario == "cooling-failure" or scenario is None:
+        key = "tmr_at_mtsr_s"
+    else:
+        return _Missing(NOT_APPLICABLE, _NOT_COOLING_FAILURE["heat-up"].replace("no MTSR", "no runaway matrix, no MTSR"))
+    return _runaway(key, "TMRad at MTSR" if key == "tmr_at_mtsr_s" else "TMRad at the storage temperature")(r)
+
+
+@_safe
+def _q_probability_basis(r):
+    scenario = _scenario(r)
+    if scenario == "storage":
+        return "TMRad at the storage temperature", None
+    if scenario == "cooling-failure":
+        return "TMRad at MTSR", None
+    return _Missing(NOT_APPLICABLE, "no runaway probability in this scenario")
+
+
+@_safe
+def _q_severity_rise(r):
+    if _scenario(r) is None:
+        return _runaway("adiabatic_temperature_rise_K", "adiabatic temperature rise")(r)
+    if _scenario(r) == "heat-up":
+        return _Missing(NOT_APPLICABLE, _NOT_COOLING_FAILURE["heat-up"].replace("no MTSR", "no severity class, no MTSR"))
+    return _runaway("decomposition_temperature_rise_K", "decomposition temperature rise")(r)
+
+
+def _flag(key: str, scenarios: tuple, label: str, extras=None):
+    @_safe
+    def fn(r):
+        scenario = _scenario(r)
+        if scenario not in scenarios:
+            return _Missing(NOT_APPLICABLE, f"{scenario or 'this'} scenario: {label} does not apply")
+        v = r.get(key)
+        if v is None:
+            return _Missing(NOT_APPLICABLE, f"{label} does not apply to this case")
+        if not isinstance(v, bool):
+            raise _BadValue(f"{key} has an unusable value ({v!r})")
+        return v, (extras(r) if extras else None)
+
+    fn.__name__ = f"_q_{key}"
+    fn.__qualname__ = fn.__name__
+    return fn
+
+
+@_safe
+def _q_decomposition_data_missing(r):
+    if _scenario(r) != "cooling-failure":
+        return _Missing(NOT_APPLICABLE, "decomposition data are asked for after a cooling failure")
+    return (not _has_decomposition(r)), {"classes": _classes_text(r).strip(" ()") or "not determined"}
+
+
+@_safe
+def _q_critical_medium_gap(r):
+    crit = _num(r, "critical_medium_temperature_K")
+    if crit is None:
+        return _Missing(NOT_APPLICABLE, "no critical medium temperature (no heating medium with a decomposition, "
+                                        "or unstirred contents)")
+    tm = _num(r, "heating_medium_temperature_K")
+    if tm is None:
+        return _Missing(UNKNOWN, "heating medium temperature not in the result")
+    return crit - tm, None
 
 
 @_safe
@@ -525,11 +707,17 @@ def _quantity_table() -> dict[str, Quantity]:
         Quantity("limit_count", COUNT, "number of limit temperatures given", _q_limit_count),
         Quantity("limit_exceeded_at_start", FLAG, "a limit is already reached or exceeded at t = 0",
                  _q_limit_exceeded_at_start, (("limit", TEXT),)),
-        Quantity("undetected_limit", FLAG, "a limit is reached within the horizon while the alarm never "
-                 "sounds", _q_undetected_limit, _LIMIT_EXTRAS),
+        Quantity("undetected_limit", FLAG, "a limit is reached within the horizon while nothing detects it: the "
+                 "alarm never sounds, or the store is not monitored; {detection} says which",
+                 _q_undetected_limit, _LIMIT_EXTRAS + (("detection", TEXT),)),
+        Quantity("limit_reached_detection_assumed", FLAG, "a limit is reached within the horizon and the case has "
+                 "no detection block, so detection is assumed at t = 0; not applicable when detection is stated",
+                 _q_limit_reached_detection_assumed, _LIMIT_EXTRAS),
         # heat-up curve
         Quantity("initial_temperature", TEMPERATURE, "initial temperature",
                  _safe(_plain("initial_temperature_K", UNKNOWN, "initial temperature not in the result"))),
+        Quantity("start_temperature", TEMPERATURE, "temperature the history starts at: the initial temperature, "
+                 "plus the heat of a synthesis given without kinetics, released at t = 0", _q_start_temperature),
         Quantity("ambient_temperature", TEMPERATURE, "ambient temperature",
                  _safe(_plain("ambient_temperature_K", UNKNOWN, "ambient temperature not in the result"))),
         Quantity("peak_temperature", TEMPERATURE, "highest temperature within the horizon",
@@ -544,31 +732,71 @@ def _quantity_table() -> dict[str, Quantity]:
                  _q_adiabatic_first_limit_time, _LIMIT_EXTRAS),
         Quantity("adiabatic_rise_over_horizon", DELTA_T, "temperature rise over the horizon with no heat loss",
                  _q_adiabatic_rise_over_horizon),
-        # runaway
-        Quantity("tmr_adiabatic", TIME, "TMRad from the initial temperature",
+        # runaway: decomposition (any scenario with one)
+        Quantity("tmr_adiabatic", TIME, "TMRad of the decomposition from the initial temperature",
                  _runaway("tmr_adiabatic_s", "TMRad from the initial temperature")),
-        Quantity("tmr_at_mtsr", TIME, "TMRad from the MTSR", _runaway("tmr_at_mtsr_s", "TMRad at MTSR")),
-        Quantity("t_d24", TEMPERATURE, "T_D24, the temperature at which TMRad is 24 h",
+        Quantity("t_d24", TEMPERATURE, "T_D24 of the decomposition, the temperature at which its TMRad is 24 h",
                  _runaway("t_d24_K", "T_D24")),
-        Quantity("mtsr", TEMPERATURE, "maximum temperature of the synthesis reaction (MTSR)",
+        Quantity("probability_tmr", TIME, "TMRad that sets the probability of a runaway: at MTSR after a cooling "
+                 "failure, at the storage temperature in storage; not applicable in a heat-up", _q_probability_tmr),
+        Quantity("probability_basis", TEXT, "which TMRad probability_tmr is ('TMRad at MTSR' or 'TMRad at the "
+                 "storage temperature')", _q_probability_basis),
+        Quantity("severity_rise", DELTA_T, "adiabatic temperature rise of the decomposition, the severity of a "
+                 "runaway (cooling failure and storage); not applicable in a heat-up", _q_severity_rise),
+        Quantity("decomposition_temperature_rise", DELTA_T, "adiabatic temperature rise of the decomposition",
+                 _runaway("decomposition_temperature_rise_K", "decomposition temperature rise")),
+        # cooling failure
+        Quantity("tmr_at_mtsr", TIME, "TMRad of the decomposition from the MTSR (cooling failure)",
+                 _runaway("tmr_at_mtsr_s", "TMRad at MTSR")),
+        Quantity("mtsr", TEMPERATURE, "maximum temperature of the synthesis reaction (MTSR; cooling failure)",
                  _runaway("mtsr_K", "MTSR")),
-        Quantity("maximum_technical_temperature", TEMPERATURE, "maximum temperature for technical reasons (MTT)",
-                 _runaway("maximum_technical_temperature_K", "maximum technical temperature")),
-        Quantity("adiabatic_temperature_rise", DELTA_T, "adiabatic temperature rise of the reaction (dT_ad)",
+        Quantity("maximum_technical_temperature", TEMPERATURE, "maximum temperature for technical reasons (MTT; "
+                 "cooling failure)", _runaway("maximum_technical_temperature_K", "maximum technical temperature")),
+        Quantity("adiabatic_temperature_rise", DELTA_T, "accumulated adiabatic temperature rise that enters the MTSR "
+                 "(MTSR minus the process temperature; cooling failure)",
                  _runaway("adiabatic_temperature_rise_K", "adiabatic temperature rise")),
-        Quantity("critical_ambient_temperature", TEMPERATURE, "highest ambient without runaway",
+        Quantity("final_temperature", TEMPERATURE, "MTSR plus the decomposition's adiabatic rise (cooling failure)",
+                 _runaway("final_temperature_K", "final temperature")),
+        Quantity("t_d24_gap", DELTA_T, "T_D24 minus the MTSR (cooling failure)", _q_t_d24_gap),
+        Quantity("criticality_class", COUNT, "criticality class 1..5 from the order of process temperature, "
+                 "MTSR, MTT and T_D24 (cooling failure)", _q_criticality_class),
+        Quantity("decomposition_data_missing", FLAG, "a cooling failure without a decomposition source: T_D24 "
+                 "must be measured; {classes}: the classes MTSR and MTT leave open", _q_decomposition_data_missing,
+                 (("classes", TEXT),)),
+        Quantity("mtt_barrier", FLAG, "the case shows a barrier at the MTT (an open vessel with boiling credited, "
+                 "boiling at or below the MTT); only when MTSR reaches the MTT",
+                 _flag("mtt_barrier", ("cooling-failure",), "the barrier at the MTT")),
+        # storage
+        Quantity("critical_ambient_temperature", TEMPERATURE, "highest ambient without runaway (storage)",
                  _runaway("critical_ambient_temperature_K", "critical ambient temperature")),
-        Quantity("critical_ambient_gap", DELTA_T, "critical ambient temperature minus the ambient",
+        Quantity("critical_ambient_gap", DELTA_T, "critical ambient temperature minus the ambient (storage)",
                  _q_critical_ambient_gap, (("method", TEXT),)),
-        Quantity("critical_temperature", TEMPERATURE, "contents temperature at the critical condition",
-                 _runaway("critical_temperature_K", "critical temperature")),
-        Quantity("no_return_temperature", TEMPERATURE, "no-return temperature (upper, unstable steady state)",
-                 _runaway("no_return_temperature_K", "no-return temperature")),
+        Quantity("critical_temperature", TEMPERATURE, "contents temperature at the critical condition (storage, "
+                 "stirred)", _runaway("critical_temperature_K", "critical temperature")),
+        Quantity("tmr_at_storage_temperature", TIME, "TMRad of the decomposition at the storage temperature (the "
+                 "higher of the initial and the ambient temperature)",
+                 _runaway("tmr_at_storage_temperature_s", "TMRad at the storage temperature")),
+        Quantity("gas_in_closed_package", FLAG, "a decomposition makes gas and the vessel or package is closed "
+                 "(storage)", _flag("gas_in_closed_package", ("storage",), "gas in a closed package")),
+        Quantity("unstirred_hot_start", FLAG, "unstirred contents start above the ambient, which the steady "
+                 "critical-ambient criterion does not cover (storage)",
+                 _flag("unstirred_hot_start", ("storage",), "the hot start of unstirred contents")),
+        # steady states, heating medium
+        Quantity("no_return_temperature", TEMPERATURE, "no-return temperature (upper, unstable steady state; of the "
+                 "decomposition after a cooling failure)", _runaway("no_return_temperature_K", "no-return temperature")),
         Quantity("no_return_gap", DELTA_T, "no-return temperature minus the initial temperature",
                  _q_no_return_gap),
-        Quantity("t_d24_gap", DELTA_T, "T_D24 minus the MTSR", _q_t_d24_gap),
-        Quantity("criticality_class", COUNT, "criticality class 1..5 from the order of process temperature, "
-                 "MTSR, MTT and T_D24", _q_criticality_class),
+        Quantity("critical_medium_temperature", TEMPERATURE, "medium temperature above which the contents run away "
+                 "with a heating medium left on (Semenov, stirred)",
+                 _safe(_plain("critical_medium_temperature_K", NOT_APPLICABLE, "no critical medium temperature "
+                              "(no heating medium with a decomposition, or unstirred contents)"))),
+        Quantity("critical_medium_gap", DELTA_T, "critical medium temperature minus the heating medium temperature",
+                 _q_critical_medium_gap),
+        Quantity("heating_medium_temperature", TEMPERATURE, "temperature of the heating medium left on",
+                 _safe(_plain("heating_medium_temperature_K", NOT_APPLICABLE, "no heating medium"))),
+        Quantity("medium_above_t_d24", FLAG, "the heating medium is hotter than T_D24 of the decomposition",
+                 _flag("medium_above_t_d24", ("cooling-failure", "storage", "heat-up"),
+                       "a heating medium with a decomposition")),
         # other
         Quantity("biot_number", NUMBER, "Biot number of unstirred contents; not applicable when stirred",
                  _q_biot_number),

@@ -41,12 +41,12 @@ File layout
     reason = "... {row_value} ({row_class}) ... {column_value} ({column_class})"
     #   or a table with one text per verdict:  [matrix.reason] fail = "..." ...
     [matrix.rows]
-    quantity = "tmr_at_mtsr"
+    quantity = "probability_tmr"     # TMRad at MTSR (cooling failure) or at the storage temperature
     classes = [ { name = "high", below = "8 h" },
                 { name = "medium", up_to = "24 h" },
                 { name = "low" } ]   # ascending; the last class has no bound
     [matrix.columns]
-    quantity = "adiabatic_temperature_rise"
+    quantity = "severity_rise"       # the decomposition's adiabatic temperature rise
     classes = [ ... ]
     [matrix.verdicts]                # one list per row class, in column order
     high = ["review", "fail", "fail"]
@@ -84,7 +84,8 @@ Missing data
     Every quantity is either a value, *unknown* (something the rule needs was not
     given or was not seen within the horizon: the check could not be made), or
     *not applicable* (nothing to check: e.g. no Arrhenius source, stirred
-    contents for the Biot number).  A rule does not fire on missing data unless
+    contents for the Biot number, a quantity of another scenario such as the
+    MTSR or the criticality class in a storage case).  A rule does not fire on missing data unless
     ``if_unknown`` / ``if_not_applicable`` says so.  Missing data is never hidden:
     a passing verdict lists the rules that did not apply or could not be applied.
 

@@ -285,7 +285,7 @@ def test_limit_at_or_below_start_is_reached_at_zero_with_warning():
     for name in ("low", "equal"):
         lim = h.limit(name)
         assert lim.time == 0.0
-        assert any("at or below the initial temperature" in w for w in lim.warnings)
+        assert any("at or below the temperature the history starts at" in w for w in lim.warnings)
 
 
 def test_linear_case_matches_closed_form_and_reports_rising():

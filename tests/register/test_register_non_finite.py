@@ -28,8 +28,9 @@ RUNAWAY_BASE = {
     "id": "BASE",
     "contents": {"mass": "1000 kg", "specific_heat": "2 kJ/(kg*K)", "initial_temperature": "25 degC"},
     "heat_loss": {"ambient_temperature": "25 degC", "ua": "50 W/K"},
-    "heat_sources": [{"kind": "arrhenius", "specific_power": "0.01 W/kg", "reference_temperature": "50 degC",
-                      "activation_energy": "100 kJ/mol", "order": 1, "specific_heat_of_reaction": "200 kJ/kg"}],
+    "heat_sources": [{"kind": "arrhenius", "role": "synthesis", "specific_power": "0.01 W/kg",
+                      "reference_temperature": "50 degC", "activation_energy": "100 kJ/mol", "order": 1,
+                      "specific_heat_of_reaction": "200 kJ/kg"}],
     "limits": [{"name": "onset", "temperature": "60 degC"}],
     "horizon": "8 h",
 }

@@ -537,7 +537,7 @@ def test_allowable_values_content(mc_rendered):
     case, data = mc_rendered
     text = flat(pdf_text(data))
     assert "Allowable values" in text
-    results = text[text.index("4. Results"):text.index("5. Temperature after loss of cooling")]
+    results = text[text.index("4. Results"):text.index("5. Temperature history")]
     assert "Allowable values" in results  # in the results section
     for entry in case["allowable_values"]:
         assert entry["input"] in results.replace("heat_loss. ambient", "heat_loss.ambient")

@@ -37,6 +37,7 @@ CASE = {
                      {"kind": "decaying", "power": "35 kW", "time_constant": "4 h"}],
     "limits": [{"name": "onset", "temperature": "60 degC"}],
     "response_time": "4 h",
+    "detection": {"delay": "0 h"},  # stated: detection at the moment cooling is lost
 }
 
 

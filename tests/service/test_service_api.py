@@ -19,7 +19,7 @@ from pathlib import Path
 import pytest
 import yaml
 
-from service_helpers import DEMO, Server, demo_bytes, register_csv, wait_job
+from service_helpers import DEMO, Server, demo_bytes, register_csv, slow_case_bytes, wait_job
 
 httpx = pytest.importorskip("httpx")
 pytest.importorskip("fastapi")
@@ -477,7 +477,7 @@ def tight_server(tmp_path_factory):
 @pytest.mark.slow
 def test_runaway_computation_is_stopped_and_the_worker_replaced(tight_server):
     with tight_server.client() as c:
-        slow = demo_bytes("fw-r301-reactor.yaml")  # a stiff integration: well over 0.25 s
+        slow = slow_case_bytes()  # stiff integrations and Monte Carlo: well over 0.25 s
         r = c.post("/v1/check", content=slow, headers=YAML)
         assert r.status_code == 504, r.text
         run_id = r.headers["x-run-id"]
@@ -489,7 +489,7 @@ def test_runaway_computation_is_stopped_and_the_worker_replaced(tight_server):
 
 
 def test_flood_is_refused_with_503_and_the_server_stays_up(tight_server):
-    slow = demo_bytes("fw-r301-reactor.yaml")
+    slow = slow_case_bytes()
     codes: list[int] = []
     lock = threading.Lock()
 

@@ -288,9 +288,12 @@ def test_matrix_severity_class_bounds(default, dt, column):
     assert f"({column})" in fired(v, "runaway-risk").reason
 
 
+# The matrix gives review or pass only (site choice): after a cooling failure a fail comes from the
+# criticality class (TMRad at MTSR of 24 h or less means class 4 or 5), in storage from the critical
+# ambient; with low probability it is review when the severity is high, pass otherwise.
 @pytest.mark.parametrize("tmr_h, dt, expected", [
-    (4, 30, "review"), (4, 100, "fail"), (4, 300, "fail"),
-    (12, 30, "review"), (12, 100, "review"), (12, 300, "fail"),
+    (4, 30, "review"), (4, 100, "review"), (4, 300, "review"),
+    (12, 30, "review"), (12, 100, "review"), (12, 300, "review"),
     (48, 30, "pass"), (48, 100, "pass"), (48, 300, "review"),
 ])
 def test_matrix_cells(default, tmr_h, dt, expected):

@@ -209,6 +209,84 @@ def semenov_critical_ambient(mass, sources, constant_power, ua,
     return result
 
 
+def semenov_critical_medium_temperature(mass, sources, constant_power, ua, ambient,
+                                        heating_media: Sequence[HeatingMedium], conversion=None,
+                                        *, temperature_range=SEARCH_RANGE, full_output=False):
+    r"""Critical temperature of a heating medium left on, for a well-stirred vessel (Semenov).
+
+    Parameters
+    ----------
+    mass : float, kg
+    sources : sequence of :class:`screening.core.model.ArrheniusSource`
+    constant_power : float, W
+    ua : float, W/K
+        Loss coefficient to ambient.
+    ambient : float, K
+        Ambient temperature Ta.
+    heating_media : sequence of :class:`screening.core.model.HeatingMedium`
+        The jackets or coils left on (at least one with ua > 0).  With several, they are taken at one
+        common temperature; their conductances add.
+    conversion : None, float or sequence of float, dimensionless
+    temperature_range : (float, float), K
+    full_output : bool
+        Also return a list of warning texts.
+
+    Returns
+    -------
+    SemenovCritical(ambient, temperature)
+        ``ambient`` holds the critical *medium* temperature Tm,c, K: the highest medium temperature at
+        which a stable steady state exists, with the ambient and the conductances as stated;
+        ``temperature``: Tc, the contents temperature at the tangency.  Both None when no tangency lies in
+        the range or the media have no conductance.
+    warnings : list of str
+        Only with ``full_output=True``.
+
+    Notes
+    -----
+    The loss line is :math:`G (T - T_{eq})` with :math:`G = UA + u_m` (:math:`u_m = \sum_k ua_k`) and
+    the effective ambient :math:`T_{eq} = (UA\,T_a + u_m T_m) / G`.  At the tangency
+
+    .. math:: Q_{gen}'(T_c) = G, \qquad Q_{gen}(T_c) = G (T_c - T_{eq,c}),
+              \qquad T_{m,c} = \frac{G\,T_{eq,c} - UA\,T_a}{u_m}
+
+    The tangency temperature depends only on G, so it is that of :func:`semenov_critical_ambient`; only
+    the drive differs.
+
+    References
+    ----------
+    .. [1] Semenov, N. N., Z. Phys. 48 (1928) 571-582.
+    """
+    if not (math.isfinite(mass) and mass >= 0):
+        raise ValueError("mass must be finite and >= 0")
+    if not (math.isfinite(ambient) and ambient > 0):
+        raise ValueError("ambient must be finite and > 0 K")
+    sources = _check_sources(sources)
+    conductance, _ = _lumped_loss(ua, heating_media)
+    medium_ua = conductance - ua
+    warnings: list[str] = []
+    result = SemenovCritical(None, None)
+    if not medium_ua > 0:
+        warnings.append("No heating medium with a conductance: there is no critical medium temperature.")
+    else:
+        tc, status, grid = _tangency(mass, sources, conductance, conversion, temperature_range)
+        if status == "found":
+            q = heat_generation(tc, mass, sources, constant_power, conversion)
+            t_eq = tc - q / conductance
+            result = SemenovCritical((conductance * t_eq - ua * ambient) / medium_ua, tc)
+        elif status == "no_arrhenius":
+            warnings.append("No Arrhenius source with a temperature-dependent rate: no critical medium temperature.")
+        elif status == "below_range":
+            warnings.append(f"The heat-generation slope already exceeds the loss coefficient at {grid[0]:.1f} K: no "
+                            f"medium temperature gives a stable steady state in the range searched.")
+        else:
+            warnings.append(f"The heat-generation slope stays below the loss coefficient up to {grid[-1]:.0f} K: no "
+                            f"critical medium temperature in the range searched.")
+    warnings = kinetics_warnings(sources, [result.temperature], conversion) + warnings
+    if full_output:
+        return result, warnings
+    return result
+
+
 def steady_states(mass, sources, constant_power, ua, ambient,
                   heating_media: Sequence[HeatingMedium] = (), conversion=None,
                   *, temperature_range=SEARCH_RANGE, full_output=False):

@@ -32,6 +32,11 @@ from screening.core.runaway.rates import (
 # --------------------------------------------------------------------------
 # Adiabatic temperature rise, MTSR, classes
 # --------------------------------------------------------------------------
+#
+# In the cooling-failure scenario (Stoessel [1]) the MTSR comes from the accumulated
+# desired (synthesis) reaction and the remaining energy of decaying sources; T_D24,
+# TMRad and TMRad at MTSR come from the decomposition (secondary reaction) only; the
+# severity from the decomposition's adiabatic rise.
 
 def adiabatic_temperature_rise(mass, specific_heat, arrhenius_sources=(),
                                decaying_sources: Sequence[DecayingSource] = (),
@@ -122,6 +127,95 @@ def adiabatic_temperature_rise(mass, specific_heat, arrhenius_sources=(),
     if full_output:
         return rise, warnings
     return rise
+
+
+def accumulated_temperature_rise(specific_heat, specific_heat_of_reaction, accumulated_fraction=1.0):
+    r"""Adiabatic temperature rise of the accumulated part of one reaction, K.
+
+    Parameters
+    ----------
+    specific_heat : float or array, J/(kg K)
+        Specific heat of the contents only (the wall is not credited, phi = 1: conservative).
+    specific_heat_of_reaction : float or array, J/kg
+    accumulated_fraction : float or array, dimensionless, default 1
+        X_ac, the fraction of the heat of reaction not yet released when cooling fails.
+
+    Returns
+    -------
+    float or array, K
+
+    Notes
+    -----
+    .. math:: X_{ac}\,\Delta T_{ad} = X_{ac} \frac{Q'}{c_p}
+
+    Stoessel [1]_: the term the synthesis adds to the process temperature in the MTSR.
+
+    References
+    ----------
+    .. [1] Stoessel, F., Thermal Safety of Chemical Processes, Wiley-VCH (2008).
+
+    Examples
+    --------
+    35 % of 160 kJ/kg accumulated, c_p 2.1 kJ/(kg K): 0.35 * 160 / 2.1 = 26.667 K (by hand).
+
+    >>> round(accumulated_temperature_rise(2100.0, 160e3, 0.35), 3)
+    26.667
+    """
+    return _scalar_or_array(np.asarray(accumulated_fraction, dtype=float)
+                            * np.asarray(specific_heat_of_reaction, dtype=float)
+                            / np.asarray(specific_heat, dtype=float))
+
+
+def decaying_temperature_rise(mass, specific_heat, power, time_constant):
+    r"""Adiabatic temperature rise from the energy still to come from a decaying source, K.
+
+    Parameters
+    ----------
+    mass : float, kg
+    specific_heat : float, J/(kg K)
+        Contents only (phi = 1, conservative).
+    power : float, W
+        Power at the start of the scenario.
+    time_constant : float, s
+
+    Returns
+    -------
+    float, K
+
+    Notes
+    -----
+    .. math:: \Delta T = \frac{P \tau}{m c_p}, \qquad \int_0^\infty P e^{-t/\tau} dt = P \tau
+
+    Examples
+    --------
+    35 kW decaying with a 4 h time constant into 9000 kg at 3.4 kJ/(kg K):
+    35e3 * 14400 / (9000 * 3400) = 16.471 K (by hand).
+
+    >>> round(decaying_temperature_rise(9000.0, 3400.0, 35e3, 4 * 3600.0), 3)
+    16.471
+    """
+    return power * time_constant / (mass * specific_heat)
+
+
+def possible_criticality_classes(mtsr, mtt):
+    """The criticality classes left open when T_D24 is not known: from the order of MTSR and MTT alone.
+
+    Parameters
+    ----------
+    mtsr, mtt : float, K
+
+    Returns
+    -------
+    tuple of int
+        (1, 2) when MTSR < MTT (the MTT is not reached: class 1 or 2 as T_D24 lies above or below the
+        MTT); (3, 4, 5) when MTSR >= MTT (ties count as reached, as in :func:`criticality_class`).
+
+    Examples
+    --------
+    >>> possible_criticality_classes(380.0, 391.15), possible_criticality_classes(400.0, 391.15)
+    ((1, 2), (3, 4, 5))
+    """
+    return (1, 2) if float(mtsr) < float(mtt) else (3, 4, 5)
 
 
 def mtsr(process_temperature, temperature_rise):
