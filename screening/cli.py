@@ -57,7 +57,7 @@ def _fail_internal(exc: BaseException) -> None:
     if _State.debug:
         raise exc
     _echo(f"heatscreen: internal error: {type(exc).__name__}: {exc}. Run again with --debug for details.",
-               err=True)
+          err=True)
     raise typer.Exit(EXIT_INTERNAL)
 
 
@@ -191,8 +191,7 @@ def check(case: str = typer.Argument(..., help="Case file (YAML, TOML or JSON)."
                 raise CaseError([FieldProblem("--history", f"cannot write {history}: {exc.strerror or exc}; "
                                                            f"expected a path in an existing, writable folder")])
         if json_out:
-            _echo(json.dumps(json_safe(public_result(result)), indent=2, ensure_ascii=False,
-                                  allow_nan=False))
+            _echo(json.dumps(json_safe(public_result(result)), indent=2, ensure_ascii=False, allow_nan=False))
         else:
             _echo(format_result(result))
         return _exit_for([result])
@@ -263,9 +262,9 @@ def batch(register: Path = typer.Argument(..., help="Register of vessels (.csv o
                 bar.close()
         counts = summary["verdict_counts"]
         _echo(f"{summary['rows']} rows: {summary['valid']} screened ({counts.get('pass', 0)} pass, "
-                   f"{counts.get('review', 0)} review, {counts.get('fail', 0)} fail), {summary['invalid']} invalid. "
-                   f"Wrote {out}/results.json, results.csv, errors.csv, summary.pdf"
-                   + (" and memos/" if memos else "") + ".")
+              f"{counts.get('review', 0)} review, {counts.get('fail', 0)} fail), {summary['invalid']} invalid. "
+              f"Wrote {out}/results.json, results.csv, errors.csv, summary.pdf"
+              + (" and memos/" if memos else "") + ".")
         if summary["invalid"]:
             _echo(f"See {out}/errors.csv for the invalid rows (row number, field, message).", err=True)
         return summary["exit_code"]
@@ -396,7 +395,7 @@ def example(output: Optional[Path] = typer.Argument(None, help="Where to write i
         if output.exists() and not same:
             # the example is a starting point: a file already there is likely a case being edited
             _echo(f"OUTPUT {output} already exists; heatscreen example does not replace a file. Give a new "
-                       f"file name, or delete the file first.", err=True)
+                  f"file name, or delete the file first.", err=True)
             return EXIT_INVALID
         _write_output_text(output, text, "OUTPUT")
         _echo(f"wrote {output}")
@@ -475,16 +474,16 @@ def demo(out: Path = typer.Option(Path("heatscreen-demo"), "--out", help="Folder
             _echo(f"wrote {len(results)} memos to {out}/")
         counts = summary["verdict_counts"]
         _echo(f"Demo register: {summary['rows']} rows, {summary['valid']} screened ({counts['pass']} pass, "
-                   f"{counts['review']} review, {counts['fail']} fail), {summary['invalid']} invalid on purpose "
-                   f"(see {reg_out}/errors.csv); results, summary.pdf" + (" and memos" if memos else "")
-                   + f" in {reg_out}/")
+              f"{counts['review']} review, {counts['fail']} fail), {summary['invalid']} invalid on purpose "
+              f"(see {reg_out}/errors.csv); results, summary.pdf" + (" and memos" if memos else "")
+              + f" in {reg_out}/")
         _echo("Summary of the demo cases:")
         for r in results:
             first = min((l["time_s"] for l in r["limits"] if l["time_s"] is not None), default=None)
             from screening.case.display import duration
 
             _echo(f"  {r['id']:<12} {str(r.get('verdict', '')).upper():<7} first limit "
-                       f"{duration(first) if first is not None else 'not reached'}")
+                  f"{duration(first) if first is not None else 'not reached'}")
         return EXIT_OK
 
     raise typer.Exit(_guard(body))
@@ -505,7 +504,7 @@ def run():  # console-script entry point
         if "--debug" in sys.argv:
             raise
         _echo(f"heatscreen: internal error: {type(exc).__name__}: {exc}. Run again with --debug for details.",
-                   err=True)
+              err=True)
         sys.exit(EXIT_INTERNAL)
 
 

@@ -507,6 +507,7 @@ class _Layout:
         self.tpl = tpl
         self.tx = _Text()
         self.tx.cut_mark = _CutMark(self.tpl["labels"]["truncated"], self.tx.clean)
+        self.tx.substituted = 0  # reading the mark's wording is not showing it
         self.colors = colors
         self.mm = mm
         self.pagesize = A4 if tpl["layout"]["page_size"].lower() == "a4" else letter

@@ -9,9 +9,9 @@ from pathlib import Path
 
 from screening.errors import EnvironmentProblem, InputError
 from screening.fileio import read_limited
+from screening.resources import template_dir_candidates
 
 MAX_TEMPLATE_BYTES = 2_000_000
-from screening.resources import template_dir_candidates
 
 TEMPLATE_FILE = "memo.toml"
 _FONT_FILES = {

@@ -25,7 +25,7 @@ import os
 import re
 import stat
 import zipfile
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Callable
 
@@ -243,14 +243,16 @@ def entries() -> list[Entry]:
               ["batch", "{d}/reg.csv", *R], _register("reg.csv", long_title + GOOD_ROWS), exit=(0, 1),
               writes=OUT, check=_has_mark("out/summary.pdf", 3000)),
         Entry("memo: 2,000-character source", "1 long text", ["memo", "{d}/case.yaml", "-o", "{d}/m.pdf"],
-              _case("case.yaml", lambda c: c["contents"].__setitem__("mass", {"value": "9000 kg", "source": "W" * 2000})),
+              _case("case.yaml", lambda c: c["contents"].__setitem__("mass", {"value": "9000 kg",
+                                                                                "source": "W" * 2000})),
               exit=(0, 1), writes=("m.pdf",), check=_has_mark("m.pdf", 2000)),
         Entry("memo: a long limit name, title and id", "1 long text", ["memo", "{d}/case.yaml", "-o", "{d}/m.pdf"],
               _case("case.yaml", lambda c: (c.__setitem__("id", "I" * 3000), c.__setitem__("title", "T" * 6000),
                                             c["limits"][0].__setitem__("name", "L" * 3000))),
               exit=(0, 1), writes=("m.pdf",), check=_has_mark("m.pdf", 3000)),
         Entry("memo: 10,000 lines of notes", "1 long text", ["memo", "{d}/case.yaml", "-o", "{d}/m.pdf"],
-              _case("case.yaml", lambda c: c["meta"].__setitem__("notes", "\n".join(f"note {i}" for i in range(10000)))),
+              _case("case.yaml", lambda c: c["meta"].__setitem__("notes",
+                                                                 "\n".join(f"note {i}" for i in range(10000)))),
               exit=(0, 1), writes=("m.pdf",), timeout=30),
         Entry("memo: a 1.5-million-character word", "1 long text", ["memo", "{d}/case.yaml", "-o", "{d}/m.pdf"],
               _case("case.yaml", lambda c: c["meta"].__setitem__("notes", "W" * 1_500_000)),
