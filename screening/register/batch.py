@@ -28,7 +28,14 @@ from screening import verdict as rules_mod
 from screening.fileio import environment_problem, short_path
 from screening.workers import die_with_parent, stop_pool
 from screening.register.chunks import ChunkResult, ChunkWork, RowOutcome, screen_chunk
-from screening.register.output_set import check_output_folder, discard, new_build_folder, swap_in, write_marker
+from screening.register.output_set import (
+    check_inputs_outside,
+    check_output_folder,
+    discard,
+    new_build_folder,
+    swap_in,
+    write_marker,
+)
 from screening.register.outputs import (
     _append_file,
     _write_results_csv,
@@ -64,6 +71,7 @@ def run_batch(register_path, out_dir, base_path=None, rules_path=None, memos=Fal
     or RuleSetError (bad rule file) before anything is written.
     """
     target = check_output_folder(out_dir)  # before any work: nothing is written into a folder it may not replace
+    check_inputs_outside(target, (register_path, base_path, rules_path, templates_dir))
     rules_mod.load_rule_set(rules_path)  # fail early, before any work
     register = read_register(register_path)
     base = load_base(base_path)

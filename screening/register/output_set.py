@@ -126,6 +126,23 @@ def check_output_folder(out: str | os.PathLike, option: str = "--out") -> Path:
     return target
 
 
+def check_inputs_outside(target: Path, inputs, option: str = "--out") -> None:
+    """Refuse an output folder that holds one of the run's own inputs: replacing the set would delete or
+    change it (a register read from a previous run's results.csv, say)."""
+    root = Path(os.path.realpath(target))
+    for item in inputs:
+        if item is None:
+            continue
+        try:
+            where = Path(os.path.realpath(item))
+        except (OSError, ValueError):
+            continue
+        if where == root or root in where.parents:
+            raise OutputFolderError(f"{option} {target} holds {item}, an input of this run; replacing the output "
+                                    f"set there would delete or change it. Give another output folder, or move the "
+                                    f"input out first.")
+
+
 def new_build_folder(target: Path, option: str = "--out") -> Path:
     """A fresh temporary folder beside ``target`` for building the new set (parents are made).
 

@@ -360,6 +360,8 @@ def entries() -> list[Entry]:
         Entry("check --history onto its own case", "5 outputs never overwrite an input",
               ["check", "{d}/c.yaml", "--history", "{d}/c.yaml"], _case("c.yaml", lambda c: None),
               names=("--history",)),
+        Entry("batch --out holding its own register", "5 outputs never overwrite an input",
+              ["batch", "{d}/out/results.csv", "--out", "{d}/out"], _previous_run, names=("--out", "results.csv")),
         Entry("memo -o onto its own template file", "5 outputs never overwrite an input",
               ["memo", "{d}/c.yaml", "-o", "{d}/tpl/memo.toml", "--templates", "{d}/tpl"],
               _all(_case("c.yaml", lambda c: None), _templates), names=("--output", "memo.toml")),
@@ -395,6 +397,15 @@ def _text_register_semicolon():
             "V-1;4000;20;80;50;'x', 'y', 'z'\n"
             "V-2;3000;25;60;55;'p', 'q'\n")
     return _all(_text("reg.csv", text), _base)
+
+
+def _previous_run(d: Path) -> None:
+    """An output set of an earlier run (marker and all), to be read back as a register."""
+    out = d / "out"
+    out.mkdir()
+    (out / "results.csv").write_text("id,contents.mass [kg]\nV-1,4000\n", encoding="utf-8")
+    (out / ".heatscreen-output-set.json").write_text(json.dumps({"command": "batch", "files": ["results.csv"],
+                                                                  "folders": []}), encoding="utf-8")
 
 
 def _templates(d: Path) -> None:
