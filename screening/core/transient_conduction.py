@@ -167,6 +167,7 @@ class _System:
         self.order = np.array([float(s.order) for s in src])
         self.tracked = [i for i, s in enumerate(src) if s.specific_heat_of_reaction is not None]
         self.dh = {i: src[i].specific_heat_of_reaction for i in self.tracked}
+        self.slot = {i: k for k, i in enumerate(self.tracked)}  # state block of each tracked source
         # a cell's self-heating rate is capped at RATE_CAP K/s: q <= RATE_CAP c_p
         self.ln_cap = math.log(RATE_CAP * body.specific_heat)
         self.size = n * (1 + len(self.tracked))
@@ -191,7 +192,7 @@ class _System:
             lk = log_arrhenius_rate(inv_t, self.lnq[i], self.e_r[i], self.itr[i], self.ln_cap, LN_RATE_FLOOR)
             q = np.exp(lk)
             if i in self.dh:
-                slot = self.tracked.index(i)
+                slot = self.slot[i]
                 x = y[n * (1 + slot):n * (2 + slot)]
                 remaining = np.clip(1.0 - x, 0.0, 1.0)
                 if self.order[i] != 0:
@@ -214,7 +215,7 @@ class _System:
         d = self.g_inner * (T[1:] - T[:-1])
         flow[:-1] += d
         flow[1:] -= d
-        flow[-1] += self.g_out * (self.body.ambient_temperature - T[-1]) if np.isfinite(self.g_out) else 0.0
+        flow[-1] += self.g_out * (self.body.ambient_temperature - T[-1])  # g_out is 0 for an insulated surface
         flux_in = self.body.surface_flux * self.surface_area
         if flux_in:
             flow[-1] += flux_in
@@ -247,7 +248,7 @@ class _System:
         b = self.body
         if self.film <= 0:
             return T_outer
-        half = self.n and (b.half_thickness / self.n) / (2.0 * b.conductivity)
+        half = (b.half_thickness / self.n) / (2.0 * b.conductivity)
         film = 1.0 / self.film
         return (T_outer * film + (b.ambient_temperature + b.surface_flux * film) * half) / (half + film)
 
