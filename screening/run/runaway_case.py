@@ -150,7 +150,7 @@ def screen_with_arrhenius(prepared: PreparedCase) -> dict:
                           "generation_W": np.asarray(hist.heat_generation).tolist(),
                           "loss_W": np.asarray(hist.heat_loss_ambient).tolist()}
     if scenario == "heat-up":
-        curve_sources, curve_X, states = sources, X0, (steady.stable, steady.unstable)
+        curve_sources, curve_X, states = sources, X_rate, (steady.stable, steady.unstable)
     else:
         block = criteria["semenov"] or {}
         curve_sources, curve_X, states = decomposition, None, (block.get("stable_K"), block.get("no_return_K"))
@@ -242,7 +242,8 @@ def _arrhenius_recovery(prepared: PreparedCase, result: dict, hist) -> None:
             reached.append(c.name)
     steady = rc.steady_states(model.contents_mass, sources, constant_power(model), model.ua,
                               model.ambient_temperature, media,
-                              conversion=[1.0 - s.accumulated_fraction if s.specific_heat_of_reaction else 0.0
+                              conversion=[rc.rate_conversion(s) if s.autocatalytic  # its largest rate from here on
+                                          else 1.0 - s.accumulated_fraction if s.specific_heat_of_reaction else 0.0
                                           for s in sources])
     past = bool(steady.unstable is not None and T_start >= steady.unstable) or (steady.stable is None)
     peak_T, peak_t = rec.peak_temperature, start + rec.peak_time
