@@ -101,7 +101,8 @@ def screen_with_arrhenius(prepared: PreparedCase) -> dict:
     if scenario != "cooling-failure" and model.mixing == "stirred":
         _steady_state_statements(model, hist, steady, runs_away, T0, unit, warnings)
 
-    facts = HistoryFacts(hist.peak_temperature, hist.peak_time, bool(runs_away), bool(hist.rising_at_end), T0, stable)
+    facts = HistoryFacts(hist.peak_temperature, hist.peak_time, bool(runs_away), bool(hist.rising_at_end), T0, stable,
+                         float(hist.temperature[-1]))
     criteria, ws, used = scenario_criteria(prepared, facts)
     add(ws)
     _, decomposition = roles_of(model)

@@ -65,6 +65,7 @@ class HistoryFacts:
     rising_at_end: bool  # still rising at the horizon
     start_temperature: float  # K, at t = 0 after any heat released at once
     steady_temperature: float | None = None  # K, the stable state the history settles toward, if any
+    end_temperature: float | None = None  # K, at the end of the history (None: not given)
 
 
 def empty_criteria(scenario: str | None = None) -> dict:
@@ -437,6 +438,12 @@ def _history_sentence(facts: HistoryFacts, unit: str) -> str:
             and abs(facts.peak_temperature - facts.steady_temperature) < 0.5:
         return (f"In the computed history (with the heat loss as stated) the contents approach their stable steady "
                 f"state ({temp(facts.steady_temperature, unit)}) by the end of the horizon.")
+    if facts.rising_at_end and facts.end_temperature is not None \
+            and facts.peak_temperature - facts.end_temperature > 0.05:
+        first = (f"start at {temp(facts.peak_temperature, unit)}" if facts.peak_time <= 0 else
+                 f"peak at {temp(facts.peak_temperature, unit)} after {duration(facts.peak_time)}")
+        return (f"In the computed history (with the heat loss as stated) the contents {first}, cool, and are rising "
+                f"again at the end of the horizon ({temp(facts.end_temperature, unit)}).")
     if facts.rising_at_end:
         return (f"In the computed history (with the heat loss as stated) the contents are still rising at the end of "
                 f"the horizon ({temp(facts.peak_temperature, unit)}).")
