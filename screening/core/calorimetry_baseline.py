@@ -273,7 +273,8 @@ def analyse_run(time, temperature, heat_flow, limits=None, isothermal=False) -> 
     -----
     :func:`find_exotherm` on the heat flow against temperature (scanning) or time (isothermal), then
     :func:`conversion_history`; the heating rate is the slope of a straight line through T(t) over the
-    window, the peak position a parabola through the points around the largest net heat flow.
+    window, the peak position a parabola through the points around the largest value of the net heat flow's
+    moving average over 1 % of the window.
 
     References
     ----------
@@ -298,6 +299,9 @@ def analyse_run(time, temperature, heat_flow, limits=None, isothermal=False) -> 
     heat, conversion, rate = conversion_history(t, ex.net, ex.start, ex.stop)
     w = slice(ex.start, ex.stop + 1)
     slope = float(np.polyfit(t[w], temp[w], 1)[0]) if ex.stop > ex.start else 0.0
-    peak_t = peak_position(t[w], ex.net[w])
+    m = ex.stop - ex.start + 1
+    span = max(3, m // 100) | 1  # the peak of a moving average over 1 % of the window, then a parabola
+    smooth = np.convolve(ex.net[w], np.ones(span) / span, mode="same")
+    peak_t = peak_position(t[w], smooth, half_width=max(5, m // 50))
     return RunExotherm(ex, heat, conversion, rate, ex.noise / heat, slope,
                        float(np.interp(peak_t, t, temp)), peak_t, bool(isothermal))

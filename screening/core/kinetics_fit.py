@@ -23,7 +23,8 @@ from screening.core.model import GAS_CONSTANT
 
 __all__ = ["RunRates", "KineticFit", "kissinger", "flynn_wall_ozawa", "friedman", "fit_nth_order",
            "fit_autocatalytic", "autocatalytic_rate", "autocatalytic_tmr_adiabatic", "peak_position",
-           "DOYLE_SLOPE", "NTH_ORDER", "AUTOCATALYTIC"]
+           "DOYLE_SLOPE", "NTH_ORDER", "AUTOCATALYTIC", "fitted_heat_flows",
+           "conversion_from_time_integral"]
 
 NTH_ORDER = "nth-order"
 AUTOCATALYTIC = "autocatalytic"
@@ -535,6 +536,74 @@ def conversion_from_time_integral(model, p, k_integral):
     return np.interp(k_integral, g, _ALPHA_GRID, left=0.0, right=1.0)
 
 
+def _generation(model, names, v, reference_temperature, blocks):
+    """k h(alpha) at every point of every run (1/s), for the kinetic parameters v[:len(names)] (SI)."""
+    p = dict(zip(names, v[:len(names)]))
+    inv_ref = 1.0 / reference_temperature
+    out = []
+    for x, inv_t, q, dt, w in blocks:
+        lk = _log_k(p, inv_t, inv_ref)
+        k = np.exp(lk)
+        dl = np.diff(lk)
+        small = np.abs(dl) < 1e-8
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            step = np.where(small, 0.5 * (k[1:] + k[:-1]), (k[1:] - k[:-1]) / np.where(small, 1.0, dl)) * dt
+        big_k = np.concatenate([[0.0], np.cumsum(step)])
+        alpha = conversion_from_time_integral(model, p, big_k)
+        h = (1.0 - alpha) ** p["order"]
+        if model == AUTOCATALYTIC:
+            h = h * (alpha ** p["autocatalytic_order"] + math.exp(p["ln_initiation"]))
+        out.append(k * h)
+    return out
+
+
+def _signal_blocks(runs):
+    blocks = []
+    for r in runs:
+        t = np.asarray(r.time, float)
+        temp = np.asarray(r.signal_temperature, float)
+        x = temp if r.baseline_abscissa is None else np.asarray(r.baseline_abscissa, float)
+        w = 1.0 / r.heat_flow_noise if r.heat_flow_noise > 0 else 1.0
+        blocks.append((x, 1.0 / temp, np.asarray(r.heat_flow, float), np.diff(t), w))
+    return blocks
+
+
+def fitted_heat_flows(fit, runs):
+    r"""The measured and the fitted net heat flow of each run (W/kg), for plots.
+
+    Parameters
+    ----------
+    fit : KineticFit
+        A fit of the heat-flow signal (:func:`fit_nth_order` or :func:`fit_autocatalytic` on runs with their
+        signal).
+    runs : sequence of RunRates
+        The runs fitted.
+
+    Returns
+    -------
+    list of (time [s], temperature [K], measured net [W/kg], model [W/kg])
+        The measured heat flow minus the fitted baseline, and :math:`Q_i k(T) h(lpha(t))`.
+
+    Notes
+    -----
+    The model's conversion integrates the rate law from the window's start (see :func:`fit_nth_order`).
+
+    References
+    ----------
+    As :func:`fit_nth_order`.
+
+    Examples
+    --------
+    See ``tests/core/test_kinetics_fit.py`` (a fit of synthetic runs reproduces their signal).
+    """
+    blocks = _signal_blocks(runs)
+    gen = _generation(fit.model, fit.names, fit.values, fit.reference_temperature, blocks)
+    out = []
+    for r, (x, inv_t, q, dt, w), g, heat, (a, b) in zip(runs, blocks, gen, fit.heats, fit.baselines):
+        out.append((np.asarray(r.time, float), 1.0 / inv_t, q - (a + b * x), heat * g))
+    return out
+
+
 def _fit_signal(model, names, runs, reference_temperature, starts):
     """Fit the heat flow itself: kinetics plus each run's straight baseline and heat (nuisance parameters).
 
@@ -545,15 +614,8 @@ def _fit_signal(model, names, runs, reference_temperature, starts):
     """
     from scipy.optimize import least_squares
 
-    inv_ref = 1.0 / reference_temperature
     nk = len(names)
-    blocks = []
-    for r in runs:
-        t = np.asarray(r.time, float)
-        temp = np.asarray(r.signal_temperature, float)
-        x = temp if r.baseline_abscissa is None else np.asarray(r.baseline_abscissa, float)
-        w = 1.0 / r.heat_flow_noise if r.heat_flow_noise > 0 else 1.0
-        blocks.append((x, 1.0 / temp, np.asarray(r.heat_flow, float), np.diff(t), w))
+    blocks = _signal_blocks(runs)
     npts = sum(b[0].size for b in blocks)
     if npts <= nk + 3 * len(runs) + 2:
         raise ValueError(f"too few points to fit the {model} model ({npts})")
@@ -569,23 +631,7 @@ def _fit_signal(model, names, runs, reference_temperature, starts):
     scale = np.concatenate([kscale, nscale])
 
     def generation(v):
-        """k h(alpha) at every point of every run (1/s), for the kinetic parameters in v (SI)."""
-        p = dict(zip(names, v[:nk]))
-        out = []
-        for x, inv_t, q, dt, w in blocks:
-            lk = _log_k(p, inv_t, inv_ref)
-            k = np.exp(lk)
-            dl = np.diff(lk)
-            small = np.abs(dl) < 1e-8
-            with np.errstate(divide="ignore", invalid="ignore"):
-                step = np.where(small, 0.5 * (k[1:] + k[:-1]), (k[1:] - k[:-1]) / np.where(small, 1.0, dl)) * dt
-            big_k = np.concatenate([[0.0], np.cumsum(step)])
-            alpha = conversion_from_time_integral(model, p, big_k)
-            h = (1.0 - alpha) ** p["order"]
-            if model == AUTOCATALYTIC:
-                h = h * (alpha ** p["autocatalytic_order"] + math.exp(p["ln_initiation"]))
-            out.append(k * h)
-        return out
+        return _generation(model, names, v, reference_temperature, blocks)
 
     def residuals_of(v, gen):
         res = []
