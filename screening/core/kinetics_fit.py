@@ -19,6 +19,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from screening.core.arrhenius import log_arrhenius_rate
 from screening.core.model import GAS_CONSTANT
 
 __all__ = ["RunRates", "KineticFit", "kissinger", "flynn_wall_ozawa", "friedman", "fit_nth_order",
@@ -363,7 +364,7 @@ def peak_position(x, y, half_width=5):
 
 
 def _log_k(p, inv_t, inv_ref):
-    return p["ln_rate_constant"] - p["activation_energy"] / GAS_CONSTANT * (inv_t - inv_ref)
+    return log_arrhenius_rate(inv_t, p["ln_rate_constant"], p["activation_energy"] / GAS_CONSTANT, inv_ref)
 
 
 def autocatalytic_rate(temperature, conversion, rate_constant, reference_temperature, activation_energy,
@@ -892,7 +893,8 @@ def autocatalytic_tmr_adiabatic(initial_temperature, adiabatic_rise, rate_consta
 
     def ln_rate(a):
         t = initial_temperature + adiabatic_rise * (a - a0)
-        return (math.log(rate_constant) - activation_energy / GAS_CONSTANT * (1.0 / t - 1.0 / reference_temperature)
+        return (log_arrhenius_rate(1.0 / t, math.log(rate_constant), activation_energy / GAS_CONSTANT,
+                                   1.0 / reference_temperature)
                 + order * math.log(max(1.0 - a, 1e-300)) + math.log(a ** autocatalytic_order + initiation))
 
     grid = a0 + (1.0 - a0) * np.concatenate([np.geomspace(1e-9, 1e-2, 60), np.linspace(1e-2, 1 - 1e-9, 2000)])

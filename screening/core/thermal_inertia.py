@@ -12,6 +12,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from screening.core.arrhenius import log_arrhenius_rate
 from screening.core.model import GAS_CONSTANT
 
 __all__ = ["phi_factor", "phi_corrected", "SelfHeatFit", "fit_self_heat_rate", "onset_index"]
@@ -111,7 +112,9 @@ def phi_corrected(temperature, self_heat_rate, onset_temperature, phi, activatio
     rate = np.asarray(self_heat_rate, dtype=float)
     onset = 1.0 / (1.0 / onset_temperature + GAS_CONSTANT / activation_energy * math.log(phi))
     t_corr = onset + phi * (temperature - onset_temperature)
-    r_corr = phi * rate * np.exp(activation_energy / GAS_CONSTANT * (1.0 / temperature - 1.0 / t_corr))
+    # exp[(E/R)(1/T - 1/T_corr)]: the Arrhenius factor from T to T_corr
+    r_corr = phi * rate * np.exp(log_arrhenius_rate(1.0 / t_corr, 0.0, activation_energy / GAS_CONSTANT,
+                                                    1.0 / temperature))
     return float(onset), t_corr, r_corr
 
 
@@ -142,11 +145,12 @@ class SelfHeatFit:
     r_squared: float
     linear_fails: bool  # the n-th-order linearisation does not straighten the data: a sign of autocatalysis
     points: int
+    curvature: float = 0.0  # how far a parabola departs from the best line over the data, in ln k
 
 
 def fit_self_heat_rate(temperature, self_heat_rate, onset_temperature, final_temperature,
                        orders=np.arange(0.0, 3.0001, 0.05), conversion_range=(0.02, 0.9),
-                       r_squared_limit=0.99):
+                       r_squared_limit=0.99, curvature_limit=0.05):
     r"""n-th-order kinetics from the self-heat rate of an adiabatic run (Townsend and Tou).
 
     Parameters
@@ -162,6 +166,10 @@ def fit_self_heat_rate(temperature, self_heat_rate, onset_temperature, final_tem
     r_squared_limit : float, default 0.99
         Below this coefficient of determination of the best straight line the n-th-order form is said to
         fail (a sign of autocatalysis, to be checked, e.g. by an isothermal run).
+    curvature_limit : float, default 0.05
+        It also fails when a parabola in 1/T fits significantly better (F-test at 1 %) and departs from the
+        line by more than this in ln k (5 % in the rate) over the data, or when the best order is at an end of
+        ``orders``.
 
     Returns
     -------
@@ -220,6 +228,18 @@ def fit_self_heat_rate(temperature, self_heat_rate, onset_temperature, final_tem
     s2 = ssr / max(npts - 2, 1)
     se_slope = math.sqrt(s2 / float((x ** 2).sum() - npts * x.mean() ** 2)) if npts > 2 else float("nan")
     se_icpt = math.sqrt(s2 * (1.0 / npts + x.mean() ** 2 / float(((x - x.mean()) ** 2).sum())))
-    fails = r2 < r_squared_limit or n <= orders[0]
+    curvature = 0.0
+    if npts > 4:
+        from scipy.stats import f as f_dist
+
+        quad = np.polyfit(x, y, 2)
+        ssr2 = float(((y - np.polyval(quad, x)) ** 2).sum())
+        curvature = float(np.ptp(np.polyval(quad, x) - (slope * x + intercept)))
+        f_stat = (ssr - ssr2) / (ssr2 / (npts - 3)) if ssr2 > 0 else math.inf
+        significant = f_stat > f_dist.ppf(0.99, 1, npts - 3)
+    else:
+        significant = False
+    fails = r2 < r_squared_limit or n <= orders[0] or n >= orders[-1] or (
+        significant and curvature > curvature_limit)
     return SelfHeatFit(math.exp(intercept), tref, -slope * GAS_CONSTANT, se_slope * GAS_CONSTANT, se_icpt, n, r2,
-                       bool(fails), npts)
+                       bool(fails), npts, curvature)

@@ -54,8 +54,7 @@ def _charts_for_adiabatic(result: dict, fonts: ChartFonts, width: float, height:
     okc = rc > 0
     rise = plot["final"] - plot["onset"]
     alpha = np.clip((temp - plot["onset"]) / rise, 0.0, 1.0 - 1e-9)
-    model = rise * np.exp(fit.value("ln_rate_constant") - fit.value("activation_energy") / 8.314462618
-                          * (1.0 / temp - 1.0 / fit.reference_temperature)) * (1.0 - alpha) ** fit.value("order")
+    model = rise * fit.rate(temp, alpha)  # dT/dt = (Tf - T0) k(T) (1 - alpha)^n
     okm = model > 0
     series = [Series(list(temp[ok] - 273.15), list(np.log10(rate[ok] * 60.0)), "measured", colors.HexColor(_DATA), 0.8),
               Series(list(temp[okm] - 273.15), list(np.log10(model[okm] * 60.0)), "n-th-order fit", TRACE, 1.2),
