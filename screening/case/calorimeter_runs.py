@@ -129,9 +129,10 @@ def read_run(path, kind: str = "dsc", sample_mass: float | None = None) -> Calor
         except UnitError as exc:
             expected = {"time": DIMENSION_WORDS["time"], "temperature": DIMENSION_WORDS["temperature"],
                         "self_heat_rate": "a temperature difference per time (e.g. K/min)",
-                        "heat_flow": "a heat flow per mass (e.g. W/g, mW/mg) or a heat flow (e.g. mW) with "
-                                     "--sample-mass"}[name]
-            raise _problem(where, name, f"unit [{unit}]: {exc}; expected {expected}") from None
+                        "heat_flow": "a heat flow per mass (e.g. W/g, mW/mg), nor a heat flow (e.g. mW) to give "
+                                     "with --sample-mass"}[name]
+            detail = f"[{unit}] is not {expected}" if name == "heat_flow" else f"[{unit}]: {exc}"
+            raise _problem(where, name, f"unit {detail}") from None
     if absolute and kind == "dsc" and sample_mass is None:
         raise _problem(where, "heat_flow", f"is an absolute heat flow [{columns['heat_flow'][1]}]; give the "
                                            f"sample's mass with --sample-mass (e.g. '3.2 mg'), or a heat flow per "

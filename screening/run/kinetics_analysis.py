@@ -63,14 +63,17 @@ def _degc(kelvin: float) -> str:
 # ------------------------------------------------------------------ DSC runs
 
 
-def _signed_heat_flow(run: CalorimeterRun, exo_down: bool) -> np.ndarray:
+def _signed_heat_flow(run: CalorimeterRun, exo_down: bool, isothermal: bool) -> np.ndarray:
     """The heat flow with exotherms positive; refuses a run whose main peak points the wrong way."""
     from screening.core.calorimetry_baseline import find_exotherm
 
     q = -run.heat_flow if exo_down else run.heat_flow
-    x = run.temperature if np.ptp(run.temperature) > 1.0 else run.time
-    up = find_exotherm(x, q).net
-    down = find_exotherm(x, -q).net
+    if isothermal:  # the reaction may run from the start of the hold: the level at its end is the baseline
+        end = float(np.median(q[-max(q.size // 10, 1):]))
+        up, down = q - end, end - q
+    else:
+        up = find_exotherm(run.temperature, q).net
+        down = find_exotherm(run.temperature, -q).net
     if down.max() > up.max():
         hint = ("--exo-down was given, but after reversing it the main peak is negative: the instrument already "
                 "plots exotherms up; leave --exo-down out" if exo_down else
@@ -114,7 +117,7 @@ def analyse_dsc(runs: list[CalorimeterRun], options: KineticsOptions) -> dict:
     for run in runs:
         if run.heat_flow is None:
             raise _problem(f"{run.path}: column 'heat_flow'", "is missing; expected a heat flow per mass")
-        q = _signed_heat_flow(run, options.exo_down)
+        q = _signed_heat_flow(run, options.exo_down, options.isothermal)
         try:
             r = analyse_run(run.time, run.temperature, q, limits=options.limits, isothermal=options.isothermal)
         except ValueError as exc:
