@@ -432,6 +432,12 @@ def kinetics_entries() -> list[Entry]:
               names=("runs", "two or more")),
         Entry("kinetics: a binary file", "20 bad calorimeter file", ["kinetics", "{d}/a.csv", "{d}/a.csv"],
               _text("a.csv", b"\xff\xfe\x00\x01" * 100), names=("a.csv", "not UTF-8")),
+        Entry("check as text: an Arrhenius case with an uncertainty block (allowable values not computed)",
+              "20 allowable values not computed", ["check", "{d}/c.yaml"],
+              _case("c.yaml", lambda c: c.__setitem__("uncertainty", {"samples": 50, "inputs": {
+                  "heat_sources.0.activation_energy": {"distribution": "normal", "sd": "1 kJ/mol"}}}),
+                    base="fw-s17-powder-drums.yaml"), exit=(0, 1),
+              names=("Allowable values of heat_sources.0.activation_energy: not computed",)),
         Entry("kinetics: --source-out onto an input", "20 bad calorimeter file",
               ["kinetics", "{d}/a.csv", "{d}/a.csv", "--source-out", "{d}/a.csv"], _text("a.csv", _RUN_HEADER),
               names=("--source-out", "input of this command")),
