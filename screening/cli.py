@@ -406,9 +406,9 @@ def example(output: Optional[Path] = typer.Argument(None, help="Where to write i
 
 @app.command()
 def kinetics(
-        runs: list[Path] = typer.Argument(..., help="Calorimeter runs (CSV with units in the header: 'time [s]', "
-                                                    "'temperature [degC]', 'heat_flow [W/g]'; adiabatic runs: time "
-                                                    "and temperature, optionally 'self_heat_rate [K/min]')."),
+        runs: list[Path] = typer.Argument(..., help="Calorimeter runs: CSV files whose header gives each column "
+                                                    "with its unit in square brackets (time, temperature, heat_flow; "
+                                                    "adiabatic runs: time, temperature, optionally self_heat_rate)."),
         json_out: bool = typer.Option(False, "--json", help="Print the result as JSON."),
         exo_down: bool = typer.Option(False, "--exo-down", help="The instrument plots exotherms negative."),
         sample_mass: Optional[str] = typer.Option(None, "--sample-mass", help="Sample mass, for an absolute heat "
