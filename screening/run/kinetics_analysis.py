@@ -406,6 +406,9 @@ def source_and_uncertainty(fit, dh, dh_sd, tested, options, label: str | None = 
         order.append(f"heat_sources.{n}.specific_heat_of_reaction")
         corr[0, 2] = corr[2, 0] = (cov_rate_dh * dh_sd / dh) / (sd_ln * (dh_sd / dh)) if sd_ln > 0 else 0.0
     corr = np.round(corr, 4)
+    while np.linalg.eigvalsh(corr).min() < 0:  # rounding may leave a nearly singular matrix just indefinite
+        off = corr - np.eye(corr.shape[0])
+        corr = np.round(np.eye(corr.shape[0]) + 0.999 * off, 4)
     uncertainty = {"inputs": inputs,
                    "correlation": {"inputs": order, "matrix": [[float(v) for v in row] for row in corr]}}
     if held:
