@@ -76,8 +76,8 @@ def test_every_engine_takes_the_conversion_function_from_one_place():
 
 
 _AUTOCATALYTIC_FACTOR = re.compile(
-    r"(\*\*\s*\(?\s*[\w.\[\]]*\b(autocatalytic_order|m|am|P\.am)\b[\w.\[\]]*\s*\)?\s*\)?"  # alpha ** m (or power(a, m))
-    r"\s*\+\s*[\w.(]*\b(initiation|z|az|P\.az)\b)"  # + z
+    r"(\*\*\s*\(?\s*[\w.\[\]\"']*\b(autocatalytic_order|m|am|P\.am)\b[\w.\[\]\"']*\s*\)?\s*\)?"  # alpha ** m
+    r"\s*\+\s*[\w.(\[\"']*\b(initiation|ln_initiation|z|az|P\.az)\b)"  # + z (or exp(p["ln_initiation"]))
     r"|(power\([^()]*\b(autocatalytic_order|m|am)\b[^()]*\)\s*\+\s*[\w.(]*\b(initiation|z|az)\b)")
 
 
@@ -86,7 +86,7 @@ def test_the_copy_pattern_finds_the_autocatalytic_factor():
     text = (PACKAGE / "core/arrhenius.py").read_text(encoding="utf-8")
     assert _AUTOCATALYTIC_FACTOR.search(text)
     for copy in ("g = a ** m + z", "x ** s.autocatalytic_order + s.initiation", "np.power(X, P.am) + P.az",
-                 "(alpha ** (m) + z)"):
+                 "(alpha ** (m) + z)", 'a ** p["autocatalytic_order"] + math.exp(p["ln_initiation"])'):
         assert _AUTOCATALYTIC_FACTOR.search(copy), copy
 
 
