@@ -1,0 +1,289 @@
+"""`heatscreen batch --scheduler`: the Dask backend gives the local run's output set, safely by default.
+
+The reference for every output comparison is the default local backend run on the same machine
+(its outputs are themselves pinned by tests/golden/manifest.json): the cluster's output set must be
+byte-identical, file by file, except the documented ``"backend"`` value of each results.json item.
+The cluster is a LocalCluster of two worker processes on loopback, started and stopped here.
+"""
+from __future__ import annotations
+
+import logging
+import os
+import signal
+import threading
+from pathlib import Path
+
+import pytest
+
+distributed = pytest.importorskip("distributed")
+
+from typer.testing import CliRunner  # noqa: E402
+
+from screening.cli import app  # noqa: E402
+from screening.register.batch import run_batch  # noqa: E402
+from screening.register.cluster import ClusterError, ClusterOptions, is_loopback, split_address  # noqa: E402
+from screening.resources import demo_cases  # noqa: E402
+
+REGISTERS = Path(str(demo_cases().joinpath("registers")))
+SOURCE_DATE_EPOCH = "1767225600"  # fixed so that memos written at different moments are comparable
+
+
+@pytest.fixture(scope="module")
+def cluster():
+    from distributed import Client, LocalCluster
+
+    lc = LocalCluster(n_workers=2, threads_per_worker=1, processes=True, host="127.0.0.1",
+                      dashboard_address=None, silence_logs=logging.CRITICAL)
+    client = Client(lc, set_as_default=False)
+    try:
+        yield lc, client
+    finally:
+        client.close()
+        lc.close()
+
+
+@pytest.fixture(autouse=True)
+def fixed_date(monkeypatch):
+    monkeypatch.setenv("SOURCE_DATE_EPOCH", SOURCE_DATE_EPOCH)  # PDFs written at different moments compare
+
+
+@pytest.fixture
+def two_workers(cluster):
+    lc, client = cluster
+    client.wait_for_workers(2, timeout=60)  # a worker killed by an earlier test is back
+    return lc, client
+
+
+def _uncertain_register(folder: Path, rows: int = 12, samples: int = 400) -> tuple[Path, Path]:
+    """Rows with Monte Carlo over two inputs (the golden outputs' uncertain register, larger)."""
+    base = folder / "uncertain-base.yaml"
+    base.write_text((REGISTERS / "fenmarsh-base.yaml").read_text(encoding="utf-8")
+                    + f"uncertainty:\n  samples: {samples}\n  seed: 3\n  inputs:\n"
+                    "    heat_loss.ua: {distribution: uniform, low: 100 W/K, high: 300 W/K}\n"
+                    "    heat_sources.1.power: {distribution: normal, sd: 10 %}\n", encoding="utf-8")
+    register = folder / "uncertain.csv"
+    lines = ["id,contents.mass [kg],heat_sources.1.power [kW]"]
+    lines += [f"U-{i},{2000 + i * 1500},{5 + i * 4}" for i in range(rows)]
+    lines.append("U-bad,-5,7")  # an invalid row: reported in errors.csv by both backends
+    register.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    return register, base
+
+
+def _assert_same_output_set(local: Path, remote: Path) -> None:
+    names = sorted(p.relative_to(local).as_posix() for p in local.rglob("*") if p.is_file())
+    assert names == sorted(p.relative_to(remote).as_posix() for p in remote.rglob("*") if p.is_file())
+    assert "results.json" in names
+    for name in names:
+        a, b = (local / name).read_bytes(), (remote / name).read_bytes()
+        if name == "results.json":
+            assert a.count(b'"backend":"local"') == b.count(b'"backend":"dask"') > 0
+            b = b.replace(b'"backend":"dask"', b'"backend":"local"')  # the one documented difference
+        assert a == b, f"{name} differs between the local run and the cluster run"
+
+
+def test_cluster_output_set_is_byte_identical_to_the_local_run(two_workers, tmp_path, monkeypatch):
+    lc, _ = two_workers
+    opts = ClusterOptions(lc.scheduler_address)
+    # Monte Carlo rows (the engine the backend is for), with an invalid row
+    register, base = _uncertain_register(tmp_path)
+    local = run_batch(register, tmp_path / "local", base_path=base, workers=1)
+    remote = run_batch(register, tmp_path / "dask", base_path=base, cluster=opts)
+    assert {k: v for k, v in local.items() if k != "out_dir"} == {k: v for k, v in remote.items() if k != "out_dir"}
+    assert local["invalid"] == 1 and local["valid"] == 12
+    _assert_same_output_set(tmp_path / "local", tmp_path / "dask")
+    # the demo register (uniform groups through the columnar path, invalid rows)
+    demo = REGISTERS / "fenmarsh-register.csv"
+    run_batch(demo, tmp_path / "demo-local", base_path=REGISTERS / "fenmarsh-base.yaml")
+    run_batch(demo, tmp_path / "demo-dask", base_path=REGISTERS / "fenmarsh-base.yaml", cluster=opts)
+    _assert_same_output_set(tmp_path / "demo-local", tmp_path / "demo-dask")
+    # memos: the workers hand back memo views and the client writes the PDFs (a few rows: memos are slow)
+    few = tmp_path / "few.csv"
+    few.write_text("".join(demo.read_text(encoding="utf-8").splitlines(keepends=True)[:5]), encoding="utf-8")
+    run_batch(few, tmp_path / "memo-local", base_path=REGISTERS / "fenmarsh-base.yaml", memos=True)
+    run_batch(few, tmp_path / "memo-dask", base_path=REGISTERS / "fenmarsh-base.yaml", memos=True, cluster=opts)
+    assert len(list((tmp_path / "memo-dask" / "memos").iterdir())) == 4
+    _assert_same_output_set(tmp_path / "memo-local", tmp_path / "memo-dask")
+
+
+def test_a_worker_killed_mid_run_changes_nothing(two_workers, tmp_path):
+    lc, client = two_workers
+    register, base = _uncertain_register(tmp_path, rows=16, samples=3000)
+    reference = run_batch(register, tmp_path / "local", base_path=base, workers=1)
+    pids = client.run(os.getpid)
+    killed = []
+    stop = threading.Event()
+
+    def killer():  # as soon as a worker has a chunk under way, kill its process outright
+        while not stop.is_set() and not killed:
+            busy = [w for w, keys in client.processing().items() if keys and w in pids]
+            if busy:
+                os.kill(pids[busy[0]], signal.SIGKILL)
+                killed.append(busy[0])
+            stop.wait(0.005)
+
+    watch = threading.Thread(target=killer, daemon=True)
+    watch.start()
+    try:
+        remote = run_batch(register, tmp_path / "dask", base_path=base,
+                           cluster=ClusterOptions(lc.scheduler_address))
+    finally:
+        stop.set()
+        watch.join(10)
+    assert killed, "no worker was seen computing a chunk: nothing was killed"
+    assert killed[0] not in client.scheduler_info()["workers"]  # that worker was lost (its nanny starts another)
+    assert remote["valid"] == reference["valid"] == 16
+    _assert_same_output_set(tmp_path / "local", tmp_path / "dask")
+
+
+def test_a_worker_with_other_versions_is_refused(two_workers, tmp_path):
+    lc, client = two_workers
+    register, base = _uncertain_register(tmp_path, rows=2, samples=50)
+    worker = sorted(client.scheduler_info()["workers"])[0]
+
+    def set_numpy_version(text):
+        import numpy
+
+        if text is None:
+            numpy.__version__ = numpy.__dict__.pop("_heatscreen_test_version")
+        else:
+            numpy._heatscreen_test_version = numpy.__version__
+            numpy.__version__ = text
+        return numpy.__version__
+
+    import numpy
+
+    client.run(set_numpy_version, "0.0.test", workers=[worker])
+    try:
+        with pytest.raises(ClusterError) as err:
+            run_batch(register, tmp_path / "out", base_path=base, cluster=ClusterOptions(lc.scheduler_address))
+    finally:
+        assert client.run(set_numpy_version, None, workers=[worker])[worker] == numpy.__version__
+    message = str(err.value)
+    assert worker in message and "numpy 0.0.test on the worker" in message and f"{numpy.__version__} here" in message
+    assert not (tmp_path / "out").exists()  # refused before anything was written
+
+    # through the command line: exit 2 and the message, no traceback
+    client.run(set_numpy_version, "0.0.test", workers=[worker])
+    try:
+        res = CliRunner().invoke(app, ["batch", str(register), "--out", str(tmp_path / "out"), "--base", str(base),
+                                       "--scheduler", lc.scheduler_address])
+    finally:
+        client.run(set_numpy_version, None, workers=[worker])
+    assert res.exit_code == 2, res.output
+    assert "numpy 0.0.test on the worker" in res.output and "Traceback" not in res.output
+
+
+def test_scheduler_from_the_environment_is_announced(two_workers, tmp_path, monkeypatch):
+    lc, _ = two_workers
+    register, base = _uncertain_register(tmp_path, rows=2, samples=50)
+    monkeypatch.setenv("HEATSCREEN_SCHEDULER", lc.scheduler_address)
+    res = CliRunner().invoke(app, ["batch", str(register), "--out", str(tmp_path / "out"), "--base", str(base)])
+    assert res.exit_code == 2, res.output  # the invalid row
+    assert f"screening on cluster {lc.scheduler_address} (from HEATSCREEN_SCHEDULER)" in res.output
+    assert b'"backend":"dask"' in (tmp_path / "out" / "results.json").read_bytes()
+
+
+# ------------------------------------------------------------------ addresses (no connection attempted)
+
+# 192.0.2.0/24 and 203.0.113.0/24 are documentation networks (RFC 5737); 127.0.0.0/8 is loopback
+# (RFC 1122 section 3.2.1.3) and ::1 the IPv6 loopback (RFC 4291 section 2.5.3).
+@pytest.mark.parametrize("address,loopback", [
+    ("tcp://127.0.0.1:8786", True), ("tcp://127.8.9.10:8786", True), ("tcp://localhost:8786", True),
+    ("tcp://[::1]:8786", True), ("127.0.0.1:8786", True),
+    ("tcp://192.0.2.10:8786", False), ("192.0.2.10:8786", False), ("tcp://[2001:db8::1]:8786", False),
+    ("tcp://scheduler.example:8786", False), ("tcp://127.0.0.1.example:8786", False),
+])
+def test_loopback_is_recognised_without_resolving(address, loopback):
+    assert is_loopback(split_address(address)[1]) is loopback
+
+
+@pytest.fixture
+def no_connection(monkeypatch):
+    """Fail the test if anything tries to open a Dask connection."""
+    import distributed
+
+    def refuse(*args, **kwargs):
+        raise AssertionError("a connection was attempted")
+
+    monkeypatch.setattr(distributed.Client, "__init__", refuse)
+    monkeypatch.delenv("HEATSCREEN_SCHEDULER", raising=False)
+
+
+@pytest.mark.parametrize("address", ["tcp://192.0.2.10:8786", "203.0.113.7:8786"])
+def test_a_plain_tcp_address_off_this_machine_is_refused(address, tmp_path, no_connection):
+    register, base = _uncertain_register(tmp_path, rows=2, samples=50)
+    res = CliRunner().invoke(app, ["batch", str(register), "--out", str(tmp_path / "out"), "--base", str(base),
+                                   "--scheduler", address])
+    assert res.exit_code == 2, res.output
+    assert "plain tcp:// address other than loopback is refused" in res.output
+    assert "--insecure-cluster" in res.output and "Traceback" not in res.output
+    assert not (tmp_path / "out").exists()
+
+
+def test_the_environment_variable_is_checked_the_same_way(tmp_path, no_connection, monkeypatch):
+    register, base = _uncertain_register(tmp_path, rows=2, samples=50)
+    monkeypatch.setenv("HEATSCREEN_SCHEDULER", "tcp://192.0.2.10:8786")
+    res = CliRunner().invoke(app, ["batch", str(register), "--out", str(tmp_path / "out"), "--base", str(base)])
+    assert res.exit_code == 2 and "HEATSCREEN_SCHEDULER tcp://192.0.2.10:8786" in res.output, res.output
+
+
+def test_insecure_flag_allows_it_with_a_warning(tmp_path, no_connection, monkeypatch):
+    from screening.register import cluster as cluster_mod
+
+    attempts = []
+
+    def enter(self):
+        attempts.append(self.options.address)
+        raise ClusterError("stopped here by the test")
+
+    monkeypatch.setattr(cluster_mod.DaskBackend, "__enter__", enter)
+    register, base = _uncertain_register(tmp_path, rows=2, samples=50)
+    res = CliRunner().invoke(app, ["batch", str(register), "--out", str(tmp_path / "out"), "--base", str(base),
+                                   "--scheduler", "tcp://192.0.2.10:8786", "--insecure-cluster"])
+    assert attempts == ["tcp://192.0.2.10:8786"]
+    assert res.exit_code == 2 and "stopped here by the test" in res.output
+    assert "without authentication or encryption" in res.output
+    assert "screening on cluster tcp://192.0.2.10:8786" in res.output
+
+
+def test_tls_needs_its_files_before_connecting(tmp_path, no_connection, monkeypatch):
+    import dask
+
+    monkeypatch.setattr(dask, "config", dask.config)  # the keys below are unset in a clean configuration
+    with dask.config.set({"distributed.comm.tls.ca-file": None, "distributed.comm.tls.client.cert": None,
+                          "distributed.comm.tls.client.key": None}):
+        with pytest.raises(ClusterError, match="missing --tls-ca, --tls-cert, --tls-key"):
+            ClusterOptions("tls://192.0.2.10:8786").check()
+        with pytest.raises(ClusterError, match="--tls-ca .*no such file"):
+            ClusterOptions("tls://192.0.2.10:8786", tls_ca=str(tmp_path / "none.pem"), tls_cert="c.pem",
+                           tls_key="k.pem").check()
+    for bad in ("ws://127.0.0.1:8786", "ucx://127.0.0.1:8786", "tcp://:8786"):
+        with pytest.raises(ClusterError):
+            ClusterOptions(bad).check()
+
+
+def test_tls_options_without_a_scheduler_are_refused(tmp_path, no_connection):
+    register, base = _uncertain_register(tmp_path, rows=2, samples=50)
+    res = CliRunner().invoke(app, ["batch", str(register), "--out", str(tmp_path / "out"), "--base", str(base),
+                                   "--insecure-cluster"])
+    assert res.exit_code == 2 and "give --scheduler ADDRESS" in res.output, res.output
+
+
+def test_the_local_backend_imports_no_dask(tmp_path):
+    """The default stays local and needs no extra package: a local batch loads neither dask nor distributed."""
+    import subprocess
+    import sys
+
+    register, base = _uncertain_register(tmp_path, rows=2, samples=50)
+    code = ("import sys, io, contextlib\n"
+            "from screening.cli import run\n"
+            f"sys.argv = ['heatscreen', 'batch', {str(register)!r}, '--out', {str(tmp_path / 'out')!r}, "
+            f"'--base', {str(base)!r}]\n"
+            "with contextlib.redirect_stdout(io.StringIO()), contextlib.redirect_stderr(io.StringIO()):\n"
+            "    try:\n        run()\n    except SystemExit:\n        pass\n"
+            "print(sorted({m.split('.')[0] for m in sys.modules if m.startswith(('dask', 'distributed'))}))\n")
+    env = {k: v for k, v in os.environ.items() if k != "HEATSCREEN_SCHEDULER"}
+    out = subprocess.run([sys.executable, "-c", code], cwd=Path(__file__).resolve().parents[2], env=env,
+                         capture_output=True, text=True, check=True, timeout=120)
+    assert out.stdout.strip() == "[]", out.stdout
+    assert (tmp_path / "out" / "results.json").is_file()
