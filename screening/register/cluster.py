@@ -276,24 +276,55 @@ class DaskBackend:
         sent as soon as it is ready (the workers compute while the client validates the next one),
         and checked for its worker's versions when it comes back."""
         run = uuid.uuid4().hex[:12]
-        futures = []
+        sent = []
         try:
             for a, b in spans:
-                futures.append(self.client.submit(_remote_compute, make_task(a, b), key=f"heatscreen-{run}-{a:09d}",
-                                                  pure=False, retries=0))
-            for i, (span, fut) in enumerate(zip(spans, futures)):
+                task, kept = detach(make_task(a, b))
+                sent.append(((a, b), self._submit(task, f"heatscreen-{run}-{a:09d}"), kept))
+            for i, (span, fut, kept) in enumerate(sent):
                 worker, theirs, chunk = fut.result()
                 self._check(worker, theirs)
-                futures[i] = None
+                sent[i] = None
                 fut.release()
-                yield span, chunk
+                yield span, reattach(chunk, kept)
         finally:
-            pending = [f for f in futures if f is not None]
-            if pending:
+            pending = [item[1] for item in sent if item is not None]
+            if pending and self.client is not None:
                 try:
                     self.client.cancel(pending)
                 except Exception:  # noqa: BLE001 - the connection may be gone already
                     pass
+
+    def _submit(self, task, key: str):
+        return self.client.submit(_remote_compute, task, key=key, pure=False)
+
+
+def detach(task):
+    """The task as it may leave this machine: no path of the user's (the rule file's path, the templates
+    folder, messages about rows that are not screened, which may name a row's case file); and what was
+    taken out, for :func:`reattach`."""
+    import dataclasses
+
+    from screening.case.schema import FieldProblem
+
+    kept = {}
+    outcomes = []
+    for i, outcome in enumerate(task.outcomes):
+        if outcome.problems:  # not screened: only the client needs its messages
+            kept[i] = outcome.problems
+            outcome = dataclasses.replace(outcome, problems=[FieldProblem("(row)", "not screened")])
+        outcomes.append(outcome)
+    rule_set = task.rule_set
+    if getattr(rule_set, "path", None) is not None:
+        rule_set = dataclasses.replace(rule_set, path=None)
+    return dataclasses.replace(task, outcomes=outcomes, rule_set=rule_set, memos_dir=None, templates_dir=None), kept
+
+
+def reattach(chunk, kept: dict):
+    """A chunk's result with the messages :func:`detach` kept back."""
+    for i, problems in kept.items():
+        chunk.outcomes[i].problems = problems
+    return chunk
 
 
 def _takes_n_workers(client) -> bool:

@@ -287,3 +287,114 @@ def test_the_local_backend_imports_no_dask(tmp_path):
                          capture_output=True, text=True, check=True, timeout=120)
     assert out.stdout.strip() == "[]", out.stdout
     assert (tmp_path / "out" / "results.json").is_file()
+
+
+def test_what_leaves_the_client_names_no_user_path(tmp_path, monkeypatch):
+    """The tasks a cluster would get, pickled as Dask sends them: no folder of the user's in them (the
+    register's, the per-row case files', the rule file's, the templates'), and computed from those bytes
+    alone they give the local run's output set."""
+    import pickle
+    import shutil
+
+    from screening.register import cluster as cluster_mod
+    from screening.register.chunks import compute_chunk
+    from screening.resources import rule_set_candidates, template_dir_candidates
+
+    secret = tmp_path / "site-secret-folder"
+    (secret / "cases").mkdir(parents=True)
+    register, base = _uncertain_register(secret, rows=4, samples=60)
+    (secret / "cases" / "heavy.yaml").write_text("contents: {mass: 30000 kg}\n", encoding="utf-8")
+    lines = register.read_text(encoding="utf-8").splitlines()
+    lines = [lines[0] + ",case_file"] + [line + "," for line in lines[1:]]
+    lines[1] += "cases/heavy.yaml"
+    lines[2] += "cases/missing-file.yaml"  # a row that is not screened: its message names the file
+    register.write_text("\n".join(lines) + "\n", encoding="utf-8")
+    rules = secret / "rules.toml"
+    shutil.copy(next(p for p in rule_set_candidates() if p.is_file()), rules)
+    templates = secret / "templates"
+    shutil.copytree(next(p for p in template_dir_candidates() if p.is_dir()), templates)
+
+    sent = []
+
+    class Done:
+        def __init__(self, payload):
+            self.payload = payload
+
+        def result(self):
+            return "worker-in-test", cluster_mod.versions(), compute_chunk(pickle.loads(self.payload))
+
+        def release(self):
+            pass
+
+    def enter(self):
+        return self
+
+    def submit(self, task, key):
+        payload = pickle.dumps(task, protocol=5)
+        sent.append(payload)
+        return Done(payload)
+
+    monkeypatch.setattr(cluster_mod.DaskBackend, "__enter__", enter)
+    monkeypatch.setattr(cluster_mod.DaskBackend, "close", lambda self: None)
+    monkeypatch.setattr(cluster_mod.DaskBackend, "threads", lambda self: 2)
+    monkeypatch.setattr(cluster_mod.DaskBackend, "_submit", submit)
+    for memos in (False, True):
+        kw = dict(base_path=base, rules_path=str(rules), templates_dir=templates, memos=memos)
+        run_batch(register, tmp_path / f"local{memos}", workers=2, **kw)
+        run_batch(register, tmp_path / f"sent{memos}", cluster=ClusterOptions("tcp://127.0.0.1:1"), **kw)
+        _assert_same_output_set(tmp_path / f"local{memos}", tmp_path / f"sent{memos}")
+        errors = (tmp_path / f"sent{memos}" / "errors.csv").read_text(encoding="utf-8")
+        assert "missing-file.yaml" in errors and "U-bad" in errors  # the messages kept back are written
+    assert len(sent) >= 4
+    for payload in sent:
+        for text in ("site-secret-folder", "missing-file.yaml", "heavy.yaml", "rules.toml"):
+            assert text.encode() not in payload, f"{text} sent to a worker"
+
+
+def _certificates(folder: Path) -> dict:
+    """A throw-away CA and one certificate for 127.0.0.1 (scheduler, worker and client), made with openssl."""
+    import shutil
+    import subprocess
+
+    if shutil.which("openssl") is None:
+        pytest.skip("openssl is needed to make test certificates")
+
+    def run(*args):
+        subprocess.run(["openssl", *args], check=True, capture_output=True, cwd=folder, timeout=60)
+
+    run("req", "-x509", "-newkey", "rsa:2048", "-nodes", "-keyout", "ca.key", "-out", "ca.pem", "-days", "2",
+        "-subj", "/CN=heatscreen-test-ca")
+    (folder / "ext.cnf").write_text("subjectAltName=IP:127.0.0.1,DNS:localhost\nbasicConstraints=CA:FALSE\n"
+                                    "extendedKeyUsage=serverAuth,clientAuth\n", encoding="utf-8")
+    run("req", "-newkey", "rsa:2048", "-nodes", "-keyout", "node.key", "-out", "node.csr", "-subj", "/CN=127.0.0.1")
+    run("x509", "-req", "-in", "node.csr", "-CA", "ca.pem", "-CAkey", "ca.key", "-CAcreateserial", "-out",
+        "node.pem", "-days", "2", "-extfile", "ext.cnf")
+    return {"ca": str(folder / "ca.pem"), "cert": str(folder / "node.pem"), "key": str(folder / "node.key")}
+
+
+def test_tls_cluster_with_certificates_from_options_or_dask_configuration(tmp_path):
+    import dask
+    from distributed import LocalCluster
+    from distributed.security import Security
+
+    certs_dir = tmp_path / "certs"
+    certs_dir.mkdir()
+    c = _certificates(certs_dir)
+    security = Security(tls_ca_file=c["ca"], tls_scheduler_cert=c["cert"], tls_scheduler_key=c["key"],
+                        tls_worker_cert=c["cert"], tls_worker_key=c["key"], tls_client_cert=c["cert"],
+                        tls_client_key=c["key"], require_encryption=True)
+    register, base = _uncertain_register(tmp_path, rows=3, samples=60)
+    run_batch(register, tmp_path / "local", base_path=base)
+    with LocalCluster(n_workers=1, threads_per_worker=1, processes=True, host="127.0.0.1", protocol="tls://",
+                      security=security, dashboard_address=None, silence_logs=logging.CRITICAL) as lc:
+        assert lc.scheduler_address.startswith("tls://127.0.0.1:")
+        res = CliRunner().invoke(app, ["batch", str(register), "--out", str(tmp_path / "options"), "--base",
+                                       str(base), "--scheduler", lc.scheduler_address, "--tls-ca", c["ca"],
+                                       "--tls-cert", c["cert"], "--tls-key", c["key"]])
+        assert res.exit_code == 2, res.output  # the invalid row
+        assert "without authentication" not in res.output  # no warning for tls://
+        _assert_same_output_set(tmp_path / "local", tmp_path / "options")
+        with dask.config.set({"distributed.comm.tls.ca-file": c["ca"], "distributed.comm.tls.client.cert": c["cert"],
+                              "distributed.comm.tls.client.key": c["key"]}):
+            run_batch(register, tmp_path / "config", base_path=base, cluster=ClusterOptions(lc.scheduler_address))
+        _assert_same_output_set(tmp_path / "local", tmp_path / "config")
