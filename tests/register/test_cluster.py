@@ -33,7 +33,7 @@ def cluster():
     from distributed import Client, LocalCluster
 
     lc = LocalCluster(n_workers=2, threads_per_worker=1, processes=True, host="127.0.0.1",
-                      dashboard_address=None, silence_logs=logging.CRITICAL)
+                      dashboard_address="127.0.0.1:0", silence_logs=logging.CRITICAL)  # HTTP on a free loopback port
     client = Client(lc, set_as_default=False)
     try:
         yield lc, client
@@ -386,7 +386,7 @@ def test_tls_cluster_with_certificates_from_options_or_dask_configuration(tmp_pa
     register, base = _uncertain_register(tmp_path, rows=3, samples=60)
     run_batch(register, tmp_path / "local", base_path=base)
     with LocalCluster(n_workers=1, threads_per_worker=1, processes=True, host="127.0.0.1", protocol="tls://",
-                      security=security, dashboard_address=None, silence_logs=logging.CRITICAL) as lc:
+                      security=security, dashboard_address="127.0.0.1:0", silence_logs=logging.CRITICAL) as lc:
         assert lc.scheduler_address.startswith("tls://127.0.0.1:")
         res = CliRunner().invoke(app, ["batch", str(register), "--out", str(tmp_path / "options"), "--base",
                                        str(base), "--scheduler", lc.scheduler_address, "--tls-ca", c["ca"],
