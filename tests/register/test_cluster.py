@@ -291,10 +291,11 @@ def test_the_local_backend_imports_no_dask(tmp_path):
 
 def test_what_leaves_the_client_names_no_user_path(tmp_path, monkeypatch):
     """The tasks a cluster would get, pickled as Dask sends them: no folder of the user's in them (the
-    register's, the per-row case files', the rule file's, the templates'), and computed from those bytes
-    alone they give the local run's output set."""
+    register's, the per-row case files', the rule file's, the templates'); computed from those bytes
+    alone they open no user file and no file for writing, and give the local run's output set."""
     import pickle
     import shutil
+    import sys
 
     from screening.register import cluster as cluster_mod
     from screening.register.chunks import compute_chunk
@@ -315,13 +316,22 @@ def test_what_leaves_the_client_names_no_user_path(tmp_path, monkeypatch):
     shutil.copytree(next(p for p in template_dir_candidates() if p.is_dir()), templates)
 
     sent = []
+    opened = []  # files a worker's computation opens (Python's audit events), while computing
+    watching = []
+    sys.addaudithook(lambda event, args: opened.append(args[:2]) if watching and event == "open" else None)
 
     class Done:
         def __init__(self, payload):
             self.payload = payload
 
         def result(self):
-            return "worker-in-test", cluster_mod.versions(), compute_chunk(pickle.loads(self.payload))
+            task = pickle.loads(self.payload)
+            watching.append(True)
+            try:
+                chunk = compute_chunk(task)
+            finally:
+                watching.clear()
+            return "worker-in-test", cluster_mod.versions(), chunk
 
         def release(self):
             pass
@@ -346,6 +356,14 @@ def test_what_leaves_the_client_names_no_user_path(tmp_path, monkeypatch):
         errors = (tmp_path / f"sent{memos}" / "errors.csv").read_text(encoding="utf-8")
         assert "missing-file.yaml" in errors and "U-bad" in errors  # the messages kept back are written
     assert len(sent) >= 4
+    probe = tmp_path / "probe.txt"  # the hook sees what it should: a file opened while watching is recorded
+    watching.append(True)
+    probe.write_text("x", encoding="utf-8")
+    watching.clear()
+    assert opened.pop()[0] == str(probe)
+    assert not [p for p, mode in opened if str(tmp_path) in str(p)], "a worker opened a user's file"
+    assert not [(p, mode) for p, mode in opened if isinstance(mode, str) and set(mode) & set("wax+")], \
+        "a worker opened a file for writing"
     for payload in sent:
         for text in ("site-secret-folder", "missing-file.yaml", "heavy.yaml", "rules.toml"):
             assert text.encode() not in payload, f"{text} sent to a worker"
