@@ -282,7 +282,7 @@ class DaskBackend:
                 task, kept = detach(make_task(a, b))
                 sent.append(((a, b), self._submit(task, f"heatscreen-{run}-{a:09d}"), kept))
             for i, (span, fut, kept) in enumerate(sent):
-                worker, theirs, chunk = fut.result()
+                worker, theirs, chunk = self._result(fut, span)
                 self._check(worker, theirs)
                 sent[i] = None
                 fut.release()
@@ -294,6 +294,22 @@ class DaskBackend:
                     self.client.cancel(pending)
                 except Exception:  # noqa: BLE001 - the connection may be gone already
                     pass
+
+    def _result(self, fut, span):
+        """A chunk's result; the cluster's failures (not the rows') as ClusterError, with what to do."""
+        from concurrent.futures import CancelledError
+
+        from distributed import KilledWorker
+
+        try:
+            return fut.result()
+        except KilledWorker as exc:
+            raise ClusterError(f"the cluster at {self.options.address} lost the workers computing register data rows "
+                               f"{span[0] + 1} to {span[1]} several times ({exc}); a worker may be running out of "
+                               f"memory: give workers more memory, or fewer threads each") from None
+        except (OSError, TimeoutError, CancelledError) as exc:
+            raise ClusterError(f"lost the cluster at {self.options.address} during the run: "
+                               f"{type(exc).__name__}: {exc}; nothing was written") from None
 
     def _submit(self, task, key: str):
         return self.client.submit(_remote_compute, task, key=key, pure=False)

@@ -21,7 +21,14 @@ from typer.testing import CliRunner  # noqa: E402
 
 from screening.cli import app  # noqa: E402
 from screening.register.batch import run_batch  # noqa: E402
-from screening.register.cluster import ClusterError, ClusterOptions, is_loopback, split_address  # noqa: E402
+from screening.register.cluster import (  # noqa: E402
+    ClusterError,
+    ClusterOptions,
+    is_loopback,
+    split_address,
+    version_problem,
+    versions,
+)
 from screening.resources import demo_cases  # noqa: E402
 
 REGISTERS = Path(str(demo_cases().joinpath("registers")))
@@ -171,6 +178,50 @@ def test_a_worker_with_other_versions_is_refused(two_workers, tmp_path):
         client.run(set_numpy_version, None, workers=[worker])
     assert res.exit_code == 2, res.output
     assert "numpy 0.0.test on the worker" in res.output and "Traceback" not in res.output
+
+
+def test_a_worker_whose_versions_change_after_the_start_is_caught_on_its_chunks(two_workers, tmp_path, monkeypatch):
+    """Each chunk comes back with its worker's versions (a worker that joins after the start is checked too)."""
+    from screening.register import cluster as cluster_mod
+
+    lc, client = two_workers
+    register, base = _uncertain_register(tmp_path, rows=6, samples=50)
+
+    def set_scipy_version(text):
+        import scipy
+
+        if text is None:
+            scipy.__version__ = scipy.__dict__.pop("_heatscreen_test_version")
+        else:
+            scipy._heatscreen_test_version = scipy.__version__
+            scipy.__version__ = text
+
+    real_enter = cluster_mod.DaskBackend.__enter__
+
+    def enter_then_change(self):
+        out = real_enter(self)  # every worker checked at the start ...
+        client.run(set_scipy_version, "0.0.late")  # ... then changed, as a worker joining later would be
+        return out
+
+    monkeypatch.setattr(cluster_mod.DaskBackend, "__enter__", enter_then_change)
+    try:
+        with pytest.raises(ClusterError, match="scipy 0.0.late on the worker"):
+            run_batch(register, tmp_path / "out", base_path=base, cluster=ClusterOptions(lc.scheduler_address))
+    finally:
+        client.run(set_scipy_version, None)
+    assert not (tmp_path / "out").exists()
+
+
+def test_versions_compared_name_by_name():
+    ours = versions()
+    assert set(ours) == {"heatscreen", "numpy", "scipy", "python"}
+    assert version_problem("tcp://127.0.0.1:1", dict(ours), ours) is None
+    theirs = dict(ours, scipy="0.1", heatscreen="0.0.9 (source 000000000000)")
+    message = version_problem("tcp://127.0.0.1:1", theirs, ours)
+    assert "scipy 0.1 on the worker" in message and f"{ours['scipy']} here" in message
+    assert "heatscreen 0.0.9 (source 000000000000) on the worker" in message and "numpy" not in message
+    assert "python missing on the worker" in version_problem("w", {k: v for k, v in ours.items() if k != "python"},
+                                                             ours)
 
 
 def test_scheduler_from_the_environment_is_announced(two_workers, tmp_path, monkeypatch):
