@@ -313,6 +313,17 @@ def test_tls_needs_its_files_before_connecting(tmp_path, no_connection, monkeypa
             ClusterOptions(bad).check()
 
 
+def test_an_unreachable_scheduler_is_an_input_problem(tmp_path, monkeypatch):
+    """Nothing listens on the discard port of loopback (port 9, RFC 863, not served here): exit 2, nothing written."""
+    from screening.register import cluster as cluster_mod
+
+    monkeypatch.setattr(cluster_mod, "CONNECT_TIMEOUT_S", 1.0)
+    register, base = _uncertain_register(tmp_path, rows=2, samples=50)
+    with pytest.raises(ClusterError, match="cannot reach the scheduler at tcp://127.0.0.1:9"):
+        run_batch(register, tmp_path / "out", base_path=base, cluster=ClusterOptions("tcp://127.0.0.1:9"))
+    assert not (tmp_path / "out").exists()
+
+
 def test_tls_options_without_a_scheduler_are_refused(tmp_path, no_connection):
     register, base = _uncertain_register(tmp_path, rows=2, samples=50)
     res = CliRunner().invoke(app, ["batch", str(register), "--out", str(tmp_path / "out"), "--base", str(base),
