@@ -19,6 +19,7 @@ from pydantic import BaseModel
 
 from screening.case.prepare import PreparedCase
 from screening.case.schema import Quantity
+from screening.core.terms import model_terms
 
 #: Fields shown elsewhere in the memo (the title block and the scope section).
 ELSEWHERE = ("id", "title", "meta")
@@ -113,7 +114,7 @@ def derived_inputs(prepared: PreparedCase, result: dict) -> list[dict]:
     else:
         out.append(_d("ua", model.ua, "W/K", "ua_from_area", area=hl.area if isinstance(hl.area, str) else "given"))
     if model.heating_media:
-        out.append(_d("conductance", model.ua + sum(h.ua for h in model.heating_media), "W/K"))
+        out.append(_d("conductance", model_terms(model).conductance, "W/K"))
     for i, f in enumerate(model.fire_sources):
         n = _source_index(spec, "fire", i)
         name = f"heat_sources.{n}"
