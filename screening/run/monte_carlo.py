@@ -15,11 +15,13 @@ vectorised Rosenbrock integrator for Arrhenius sources
 """
 from __future__ import annotations
 
+import dataclasses
 import math
 from dataclasses import dataclass
 
 import numpy as np
 
+from screening import progress
 from screening.case.paths import apply_updates, locate_quantity, model_slot
 from screening.case.prepare import PreparedCase, prepare_case
 from screening.case.schema import (
@@ -197,6 +199,29 @@ class SampleTimes:
     detection: np.ndarray  # (N,), NaN: never detected (alarm not reached)
 
 
+#: Samples integrated together at least, for cases with Arrhenius sources, when progress is reported in steps
+#: (the batch integrator shares work between two processes only for twice its own chunk or more).
+ARRHENIUS_STEP = 4 * 8192
+
+
+def screen_samples_in_steps(prepared: PreparedCase, arrays: SampleArrays, advance) -> SampleTimes:
+    """:func:`screen_samples` in about 20 steps when someone watches the progress (each sample's result does not
+    depend on the others it is screened with), at once otherwise."""
+    n = arrays.n
+    step = max(math.ceil(n / 20), ARRHENIUS_STEP if prepared.model.arrhenius_sources else 1)
+    if not progress.active() or n <= step:
+        st = screen_samples(prepared, arrays)
+        advance(n)
+        return st
+    parts = []
+    for start in range(0, n, step):
+        rows = slice(start, min(start + step, n))
+        parts.append(screen_samples(prepared, SampleArrays(**{f.name: getattr(arrays, f.name)[rows]
+                                                               for f in dataclasses.fields(SampleArrays)})))
+        advance(rows.stop - rows.start)
+    return SampleTimes(np.concatenate([p.limit_times for p in parts]), np.concatenate([p.detection for p in parts]))
+
+
 def screen_samples(prepared: PreparedCase, arrays: SampleArrays) -> SampleTimes:
     """First crossing of each limit (and the alarm) for every sample."""
     n = arrays.n
@@ -286,7 +311,12 @@ def analyse(prepared: PreparedCase, plan: UncertaintyPlan | None = None) -> dict
                                                             f"capacity): the distributions of "
                                                             f"{', '.join(inp.path for inp in plan.inputs)} give no "
                                                             f"value the case can take")])
-    st = screen_samples(prepared, arrays)
+    with progress.task(f"Monte Carlo: {n} samples", total=n + 2 * len(plan.inputs)) as advance:
+        st = screen_samples_in_steps(prepared, arrays, advance)
+        return _summarise(prepared, plan, values, arrays, st, n, rejected, advance)
+
+
+def _summarise(prepared, plan, values, arrays, st, n, rejected, advance) -> dict:
     model = prepared.model
     limits_out = []
     deadline = st.detection + arrays.response  # NaN when no response time, or never detected
@@ -313,6 +343,7 @@ def analyse(prepared: PreparedCase, plan: UncertaintyPlan | None = None) -> dict
         })
     first = int(np.argmin([lim.temperature for lim in model.limits]))
     sensitivity = _sensitivity(prepared, plan, values, st.limit_times[:, first], float(np.max(arrays.horizon)))
+    advance(2 * len(plan.inputs))
     cdf = _cdf(st.limit_times[:, first])
     return {
         "samples": plan.samples, "accepted": n, "rejected": rejected, "seed": plan.seed, "sampling": plan.sampling,

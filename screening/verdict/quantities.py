@@ -602,6 +602,20 @@ def _q_steady_temperature(r):
     return _Missing(NOT_APPLICABLE, "there is no stable steady state") if v is None else (v, None)
 
 
+@_safe
+def _q_steady_gap_to_limit(r):
+    """Smallest (limit temperature - steady temperature) over the limits at or above the steady temperature."""
+    steady = _num(r, "steady_temperature_K")
+    if steady is None:
+        return _Missing(NOT_APPLICABLE, "there is no stable steady state")
+    above = [(tl - steady, lim, tl) for lim in _limits(r) if (tl := _num(lim, "temperature_K")) is not None
+             and tl >= steady]
+    if not above:
+        return _Missing(NOT_APPLICABLE, "every limit lies below the steady temperature")
+    gap, lim, tl = min(above, key=lambda x: x[0])
+    return gap, {"limit": _lname(lim), "limit_temperature": tl, "steady_temperature": steady}
+
+
 def _boiling(key: str, label: str):
     @_safe
     def fn(r):
@@ -733,6 +747,10 @@ def _quantity_table() -> dict[str, Quantity]:
                  "time + response time), the most the calculation can show about their margin",
                  _q_horizon_margin, (("limit", TEXT),)),
         Quantity("limit_count", COUNT, "number of limit temperatures given", _q_limit_count),
+        Quantity("steady_gap_to_limit", DELTA_T, "the nearest limit at or above the stable steady temperature "
+                 "minus that steady temperature; not applicable without a steady state or without such a limit",
+                 _q_steady_gap_to_limit, (("limit", TEXT), ("limit_temperature", TEMPERATURE),
+                                          ("steady_temperature", TEMPERATURE))),
         Quantity("limit_exceeded_at_start", FLAG, "a limit is already reached or exceeded at t = 0",
                  _q_limit_exceeded_at_start, (("limit", TEXT),)),
         Quantity("undetected_limit", FLAG, "a limit is reached within the horizon while nothing detects it: the "
