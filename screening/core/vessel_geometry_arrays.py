@@ -599,7 +599,8 @@ def liquid_height(v: VesselArrays, liquid_volume, with_area: bool = False):
     Returns
     -------
     ndarray, [m] (and ndarray, [m^2] with ``with_area``)
-        0 for no liquid; the full height at or above the total volume.
+        0 for no liquid; the full height at or above the total volume (within
+        :data:`FULL_TOLERANCE` of it, which is rounding).
 
     Notes
     -----
@@ -633,11 +634,18 @@ def liquid_height(v: VesselArrays, liquid_volume, with_area: bool = False):
     return h, _wetted(hd, h)
 
 
+#: A liquid volume within this fraction of the vessel's volume is taken as full: the difference is
+#: rounding (of a mass over a density, say), and near a curved top the height's error grows as its
+#: square root (1e-16 short of full would leave a dry cap 1e-8 of the diameter deep).
+FULL_TOLERANCE = 1e-14
+
+
 def _heights(hd: _Heads, Vq):
     hmax, Vt = hd.hmax, hd.Vt
-    h = np.where(Vq >= Vt, hmax, 0.0)
+    full = Vq >= Vt * (1.0 - FULL_TOLERANCE)
+    h = np.where(full, hmax, 0.0)
     h = np.where(np.isnan(Vt) | np.isnan(Vq), np.nan, h)
-    inside = (Vq > 0) & (Vq < Vt)
+    inside = (Vq > 0) & ~full
     pi = math.pi
     vertical = hd.cylinder & ~hd.horizontal
     with np.errstate(invalid="ignore", divide="ignore"):
