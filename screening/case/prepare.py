@@ -36,7 +36,7 @@ from screening.case.units import parse_quantity, temperature_unit_of
 from screening.core import model as m
 from screening.core.fire_exposure import api521_fire_heat_input, fire_wetted_area
 from screening.core.vessel_geometry import VesselShape, conduction_shape, liquid_height, wetted_area_below
-from screening.core.vessel_geometry_arrays import VesselArrays
+from screening.core.vessel_geometry_arrays import DEFAULT_CROWN_FRACTION, DEFAULT_KNUCKLE_FRACTION, VesselArrays
 
 
 @dataclass
@@ -115,6 +115,18 @@ def _geometry_problem(spec: CaseSpec) -> CaseError:
     """Dimensions so small or large that the vessel's volume, area or heights cannot be computed (or give a
     zero or infinite volume or area): the case's problem, named by field."""
     v = spec.vessel
+    if v.heads == "torispherical" and v.shape in ("vertical-cylinder", "horizontal-cylinder"):
+        D = v.diameter.si
+        crown = v.crown_radius.si if v.crown_radius is not None else DEFAULT_CROWN_FRACTION * D
+        knuckle = v.knuckle_radius.si if v.knuckle_radius is not None else DEFAULT_KNUCKLE_FRACTION * D
+        if not (crown >= D / 2 and 0 < knuckle <= D / 2):
+            name = "knuckle_radius" if not 0 < knuckle <= D / 2 else "crown_radius"
+            stated = lambda q, default: q.text if q is not None else f"{default} x the diameter (default)"  # noqa: E731
+            return CaseError([FieldProblem(f"vessel.{name}", (
+                f"a torispherical head needs a crown radius of at least half the diameter and a knuckle radius of "
+                f"at most half the diameter, so that the knuckle meets the shell and the crown tangentially "
+                f"(diameter {v.diameter.text}, crown_radius {stated(v.crown_radius, DEFAULT_CROWN_FRACTION)}, "
+                f"knuckle_radius {stated(v.knuckle_radius, DEFAULT_KNUCKLE_FRACTION)})"))])
     given = [f"vessel.{k} = {getattr(v, k).text}" for k in _DIMENSIONS
              if getattr(v, k, None) is not None and getattr(getattr(v, k), "text", None) is not None]
     return CaseError([FieldProblem("vessel", "the vessel's volume, area or height cannot be computed from its "
