@@ -167,6 +167,15 @@ class _Heads:
         return out
 
 
+def _heads_of(v: VesselArrays) -> _Heads:
+    """The head parameters of ``v``, computed once per VesselArrays (it is immutable)."""
+    hd = v.__dict__.get("_heads")
+    if hd is None:
+        hd = _Heads(v)
+        object.__setattr__(v, "_heads", hd)
+    return hd
+
+
 def _x_minus_sin(x):
     """x - sin x without cancellation for small x (Taylor series below 1)."""
     x = np.asarray(x, dtype=float)
@@ -389,7 +398,7 @@ def total_volume(v: VesselArrays) -> np.ndarray:
     >>> np.round(total_volume(v), 6).tolist()
     [9.424778, 11.519173, 4.18879, 3.0]
     """
-    return _Heads(v).Vt
+    return _heads_of(v).Vt
 
 
 def total_area(v: VesselArrays) -> np.ndarray:
@@ -424,7 +433,7 @@ def total_area(v: VesselArrays) -> np.ndarray:
     >>> np.round(total_area(v), 6).tolist()
     [25.132741, 31.415927]
     """
-    return _Heads(v).At
+    return _heads_of(v).At
 
 
 def maximum_height(v: VesselArrays) -> np.ndarray:
@@ -446,7 +455,7 @@ def maximum_height(v: VesselArrays) -> np.ndarray:
     >>> maximum_height(VesselArrays.from_columns("vertical-cylinder", "ellipsoidal", 2.0, 3.0)).tolist()
     [4.0]
     """
-    return _Heads(v).hmax
+    return _heads_of(v).hmax
 
 
 def _at_height(hd: _Heads, h, want_area: bool, approximate: bool = False):
@@ -537,7 +546,7 @@ def volume_at_height(v: VesselArrays, h) -> np.ndarray:
     >>> round(float(vol[0]), 6), bool(abs(vol[1] / total_volume(v)[1] - 0.5) < 1e-13)
     (2.094395, True)
     """
-    hd = _Heads(v)
+    hd = _heads_of(v)
     return _at_height(hd, np.broadcast_to(np.asarray(h, dtype=float), (len(v),)), False)[0]
 
 
@@ -577,7 +586,7 @@ def wetted_area_at_height(v: VesselArrays, h) -> np.ndarray:
     >>> round(float(area[0]), 6), bool(abs(area[1] / total_area(v)[1] - 0.5) < 1e-12)
     (12.566371, True)
     """
-    hd = _Heads(v)
+    hd = _heads_of(v)
     h = np.broadcast_to(np.asarray(h, dtype=float), (len(v),))
     return _wetted(hd, h)
 
@@ -625,7 +634,7 @@ def liquid_height(v: VesselArrays, liquid_volume, with_area: bool = False):
     >>> np.round(liquid_height(v, volume), 12).tolist()
     [1.0, 1.0, 1.5]
     """
-    hd = _Heads(v)
+    hd = _heads_of(v)
     n = len(v)
     Vq = np.broadcast_to(np.asarray(liquid_volume, dtype=float), (n,)).copy()
     h = _heights(hd, Vq)

@@ -4,11 +4,15 @@ Most registers are many rows of one shape: the same filled columns over the
 same base case, differing only in numbers.  When such a group's representative
 row (validated and screened in full) is a simple closed-form case, namely
 
-* a heat-up scenario (no synthesis or decomposition source), no vessel geometry, heat loss as a given
-  UA, no fire, heating medium, boiling data, cooling recovery, alarm or uncertainty block,
+* a heat-up scenario (no synthesis or decomposition source), no fire, heating medium, boiling data,
+  cooling recovery, alarm or uncertainty block, and either
+* no vessel block and heat loss as a given UA, or
+* a vessel given by geometry with stirred contents and heat loss as a given UA or a coefficient on
+  the wetted, total or a given area (a group of tanks: its volumes, areas, mass and UA come from
+  :mod:`screening.case.geometry_columns`, the functions prepare_case calls with a group of one),
 
 and every column that varies in the group is one of the quantities listed in
-:data:`VARYING_PATHS` (or the id or title), the other rows need not be built
+:data:`VARYING_PATHS` (or :data:`GEOMETRY_PATHS` for tanks, or the id or title), the other rows need not be built
 one by one.  Their cells are parsed a column at a time with the column's unit
 looked up once, the SI model numbers are assembled as arrays, the vectorised
 engine runs once for the group, and each row's result object is the
