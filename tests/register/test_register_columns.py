@@ -304,3 +304,22 @@ def test_tank_register_goes_the_array_path(tmp_path, monkeypatch, strict):
     assert len(taken) >= 1 and sum(taken) == len(rows) - len(taken)
     slow = _run(tmp_path, header, rows, TANK_BASE, True, monkeypatch)
     assert fast[1] == slow[1] and fast[3] == slow[3]
+
+
+@pytest.mark.parametrize("shape,heads", TANK_SHAPES)
+def test_every_tank_shape_equals_row_by_row(tmp_path, monkeypatch, strict, shape, heads):
+    """Each shape and head once, with its dimensions, fill, density and coefficient varying per row."""
+    import random
+
+    rnd = random.Random(f"{shape}-{heads}")
+    dims = {"box": ["vessel.length [m]", "vessel.width [m]", "vessel.height [m]"],
+            "sphere": ["vessel.diameter [m]"]}.get(shape, ["vessel.diameter [m]", "vessel.length [m]"])
+    header = ["id"] + dims + ["contents.fill", "contents.density [kg/m^3]", "heat_loss.coefficient [W/(m^2*K)]"]
+    rows = [[f"V-{i}"] + [f"{rnd.uniform(0.3, 5):.4g}" for _ in dims]
+            + [f"{rnd.uniform(0.001, 1.05):.4g}", f"{rnd.uniform(600, 1500):.4g}", f"{rnd.uniform(0, 30):.3g}"]
+            for i in range(12)]
+    base = _tank_base(shape, heads, "wetted", "fill")
+    fast = _run(tmp_path, header, rows, base, False, monkeypatch)
+    slow = _run(tmp_path, header, rows, base, True, monkeypatch)
+    assert fast[1] == slow[1] and fast[2] == slow[2] and fast[3] == slow[3]
+    assert all(r["geometry"]["wetted_area_m2"] > 0 for r in fast[1])
