@@ -392,7 +392,10 @@ class _Memo:
 
     def sec_method(self):
         lay = self.lay
-        return [lay.heading(self.numbers["method"], "method")] + lay.prose(lay.T("method.text"))
+        out = [lay.heading(self.numbers["method"], "method")] + lay.prose(lay.T("method.text"))
+        if self._conduction() is not None:
+            out += lay.prose(lay.T("method.unstirred"))
+        return out
 
     def sec_results(self):
         lay = self.lay
@@ -1316,6 +1319,8 @@ class _Memo:
     def sec_assumptions(self):
         lay = self.lay
         out = [lay.heading(self.numbers["assumptions"], "assumptions")] + lay.prose(lay.T("assumptions.text"))
+        if self._conduction() is not None:
+            out += lay.prose(lay.T("assumptions.unstirred"))
         own = [_any_text(a) for a in _seq(self.r.get("assumptions"), "assumptions")]
         if own:
             out.append(lay.P(f"<b>{self.esc(self.L('case_assumptions'))}</b>", "body"))

@@ -31,7 +31,7 @@ import numpy as np
 from screening.case.display import duration, temp
 from screening.case.prepare import PreparedCase
 from screening.core.model import ScreeningModel
-from screening.core.terms import released_specific_energy, start_temperature
+from screening.core.terms import constant_power, fire_power, released_specific_energy, start_temperature
 from screening.core.transient_conduction import (
     GEOMETRY_INDEX,
     MESH_TOLERANCE,
@@ -100,9 +100,10 @@ def conduction_body(model: ScreeningModel, *, sources=None, initial_temperature:
         initial_temperature = start_temperature(model.initial_temperature, m, m * cp, released_specific_energy(model))
     uniform, decaying, flux, hm, tm = 0.0, (), 0.0, 0.0, 0.0
     if other_heat:
-        uniform = sum(s.power for s in model.constant_sources) / m
+        fire = fire_power(model)
+        uniform = (constant_power(model) - fire) / m  # the constant sources alone
         decaying = tuple((s.power / m, s.time_constant) for s in model.decaying_sources)
-        flux = sum(f.power for f in model.fire_sources) / m * mass_per_area
+        flux = fire / m * mass_per_area
         media = [x for x in model.heating_media if x.ua > 0]
         if media:
             ua_m = sum(x.ua for x in media)
