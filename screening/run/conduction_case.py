@@ -52,6 +52,8 @@ APPROXIMATIONS = {
 }
 
 RISING_K = 0.1  # K over the last tenth of the horizon: "still rising" (smaller rises are a settling approach)
+SELF_LIMITING = ("The synthesis is self-limiting here: the contents peak and cool instead of running away, and the "
+                 "MTSR (adiabatic, no heat loss) bounds the peak.")
 LUMPED_PHRASE = "In the computed history (with the heat loss as stated)"
 
 
@@ -135,8 +137,9 @@ def _rows(model: ScreeningModel, hist: ConductionHistory, mesh_change, unit: str
         if ill and t is not None:
             change = "a limit reached on one mesh only" if math.isinf(mesh_change) else f"{mesh_change * 100:.2g} %"
             row["time_note"] = (f"hot-spot time not mesh-converged: halving the mesh moved a limit time by {change} "
-                                f"(more than {MESH_TOLERANCE * 100:.1g} %); near criticality the time is "
-                                f"ill-conditioned, read it with care")
+                                f"(more than {MESH_TOLERANCE * 100:.1g} %): the time is ill-conditioned (near "
+                                f"criticality) or the mesh is coarse for a fast change at the surface; read it "
+                                f"with care")
             text = f"Limit '{lim.name}' reached by the hot spot after {duration(t)}: {row['time_note']}."
             warnings.append(text)
         rows.append(row)
@@ -174,6 +177,8 @@ _DROP_PREFIXES = (
     "The temperature is still rising at the end of the horizon",
     "The alarm temperature is not reached within the horizon",
     "The horizon (",  # response beyond horizon / short horizon: re-added below where they still hold
+    "Tempering credit taken",  # the lumped history's boiling: the conduction solution takes no credit
+    "The contents boil dry at",
 )
 
 
@@ -236,6 +241,13 @@ def apply_conduction(prepared: PreparedCase, core: dict) -> None:
         notes.append(f"Boiling is not modelled in the conduction solution: no tempering credit is taken, so the hot "
                      f"spot may pass the boiling point ({temp(boiling_point, unit)}); conservative for the times to "
                      f"the limits. The time shown to boil is when the hot spot first reaches the boiling point.")
+    if model.fire_sources or any(x.ua > 0 for x in model.heating_media) \
+            or model.ambient_temperature > body.initial_temperature:
+        warnings.append(f"Heat enters the unstirred contents through their surface (a fire, a heating medium or a "
+                        f"warmer ambient): the hottest point can be the surface itself, while the hot spot is taken "
+                        f"at the centre of the outer cell, {body.half_thickness / hist.cells * 500:.3g} mm inside "
+                        f"it, which reaches a limit somewhat later than the surface (not conservative); the mesh "
+                        f"change shown says by how much the times still move.")
     if prepared.detection_alarm is not None:
         notes.append("The alarm is taken to sound when the surface of the contents reaches the alarm temperature "
                      "(a probe on the outside of the mass).")
@@ -250,8 +262,11 @@ def apply_conduction(prepared: PreparedCase, core: dict) -> None:
                         "pure-conduction hot-spot times are very conservative (early) and the hot spot is hotter "
                         "than it would be.")
     if core.get("runaway_summary"):
-        core["runaway_summary"] = core["runaway_summary"].replace(
-            LUMPED_PHRASE, "In the lumped (well-mixed) history, kept for comparison,")
+        summary = core["runaway_summary"].replace(LUMPED_PHRASE,
+                                                  "In the lumped (well-mixed) history, kept for comparison,")
+        # said of the lumped history; the hot spot's own sentence follows
+        summary = summary.replace(" " + SELF_LIMITING, "").replace(SELF_LIMITING, "")
+        core["runaway_summary"] = summary
     sentence = _history_sentence(hist, model, unit)
     core["runaway_summary"] = (core.get("runaway_summary") + " " + sentence) if core.get("runaway_summary") \
         else sentence
