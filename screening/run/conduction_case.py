@@ -185,9 +185,10 @@ _DROP_PREFIXES = (
 def apply_conduction(prepared: PreparedCase, core: dict) -> None:
     """Turn the lumped core of an unstirred case's result into the conduction result, in place.
 
-    ``limits`` (and their margins), ``peak_temperature_K`` / ``peak_time_s``, the detection time, ``boiling``
-    and ``_history`` become the hot spot's; the lumped values go under ``lumped``; ``conduction`` says how
-    the body was built and how well the mesh converged.
+    ``limits`` (and their margins), ``peak_temperature_K`` / ``peak_time_s``, the detection time and ``boiling``
+    become the hot spot's; the lumped values go under ``lumped`` (``_history`` stays the lumped history, and
+    ``_conduction_history`` holds the hot spot, centre and surface); ``conduction`` says how the body was built
+    and how well the mesh converged.
     """
     model = prepared.model
     unit = prepared.display_temperature_unit
@@ -293,7 +294,6 @@ def apply_conduction(prepared: PreparedCase, core: dict) -> None:
         "notes": notes,
     }
     core["warnings"] = _unique(warnings)
-    core.setdefault("assumptions", [])
     core["_conduction_history"] = {"time_s": hist.time.tolist(), "hot_spot_K": hist.hot_spot.tolist(),
                                    "centre_K": hist.centre.tolist(), "surface_K": np.asarray(hist.surface).tolist()}
 
