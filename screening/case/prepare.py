@@ -11,6 +11,7 @@ from screening.case.paths import source_positions
 from screening.case.schema import (
     DEFAULT_HORIZON_TEXT,
     ArrheniusSpec,
+    AutocatalyticSpec,
     CaseError,
     CaseSpec,
     ConstantSpec,
@@ -210,6 +211,8 @@ def prepare_case(spec: CaseSpec, inputs: list[dict] | None = None) -> PreparedCa
             decaying.append(m.DecayingSource(s.power.si, a, s.role))
         elif isinstance(s, HeatingMediumSpec):
             media.append(m.HeatingMedium(s.medium_temperature.si, s.ua.si))
+        elif isinstance(s, AutocatalyticSpec):
+            arrh.append(_autocatalytic_source(s, i, assumptions))
         elif isinstance(s, ArrheniusSpec):
             source = _arrhenius_source(s, i, assumptions)
             (arrh if isinstance(source, m.ArrheniusSource) else released).append(source)
@@ -295,6 +298,12 @@ def unstirred_problems(spec: CaseSpec) -> list[FieldProblem]:
     if c.density is None:
         out.append(FieldProblem("contents.density", f"{why} the contents' density: add contents.density "
                                 f"(e.g. 650 kg/m^3)"))
+    for i, s in enumerate(spec.heat_sources):
+        if getattr(s, "kind", None) == "autocatalytic":
+            out.append(FieldProblem(f"heat_sources.{i}.kind", "the transient conduction solution of unstirred "
+                                    "contents does not yet take an autocatalytic source (its rate would be "
+                                    "understated); screen these contents as stirred only with a stated reason, or "
+                                    "give the source as an arrhenius one fitted conservatively"))
     if spec.vessel is None or spec.vessel.shape is None:
         out.append(FieldProblem("vessel.shape", f"{why} the shape of the mass: add vessel.shape (sphere, box, or a "
                                 f"cylinder) with its dimensions; a box is taken as a slab of its smallest "
@@ -312,8 +321,8 @@ def _arrhenius_source(s: ArrheniusSpec, index: int, assumptions: list[str]):
     name = source_name(s, index)
     role = s.effective_role
     dh = s.specific_heat_of_reaction.si if s.specific_heat_of_reaction is not None else None
-    if s.accumulated_fraction is not None:
-        af = s.accumulated_fraction.si
+    if s.remaining_fraction is not None:
+        af = s.remaining_fraction
     else:
         af = 1.0
         if role == "synthesis":
@@ -340,6 +349,31 @@ def _arrhenius_source(s: ArrheniusSpec, index: int, assumptions: list[str]):
                                f"closed vessel or package).")
     return m.ArrheniusSource(q0, s.reference_temperature.si, s.activation_energy.si, float(s.order), dh, af, gas,
                              _tested_range(s), role, name)
+
+
+def _autocatalytic_source(s: AutocatalyticSpec, index: int, assumptions: list[str]) -> m.ArrheniusSource:
+    """The SI source of an autocatalytic entry: an ArrheniusSource whose specific power is Delta h k_ref."""
+    name = source_name(s, index)
+    role = s.effective_role
+    dh = s.specific_heat_of_reaction.si
+    af = s.remaining_fraction if s.remaining_fraction is not None else 1.0
+    if s.initial_conversion is None:
+        assumptions.append(f"{name}: initial_conversion is not stated, so the material is taken as fresh (0 % "
+                           f"converted). Aged, recycled or contaminated material may be partly converted or seeded "
+                           f"with its own products, and then reacts much sooner: state its conversion if so.")
+    if role == "synthesis" and s.initial_conversion is None:
+        assumptions.append(f"{name}: the whole heat of reaction (100 %) is taken as accumulated when cooling fails "
+                           f"(conservative).")
+    gas = s.gas_generating
+    if gas is None:
+        gas = role == "decomposition"
+        if gas:
+            assumptions.append(f"{name}: gas_generating is not stated, so the decomposition is taken to make "
+                               f"permanent gas (conservative: no credit for boiling, and the gas pressurises a "
+                               f"closed vessel or package).")
+    return m.ArrheniusSource(dh * s.rate_constant.si, s.reference_temperature.si, s.activation_energy.si,
+                             float(s.order), dh, af, gas, _tested_range(s), role, name,
+                             autocatalytic_order=float(s.autocatalytic_order), initiation=float(s.initiation))
 
 
 def _tested_range(s: ArrheniusSpec):

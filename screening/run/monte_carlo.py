@@ -73,6 +73,9 @@ class SampleArrays:
     order: np.ndarray
     dh: np.ndarray  # NaN: none
     af: np.ndarray
+    kr: np.ndarray  # (N, J) rate constant of an autocatalytic source, 1/s (its q is dh kr); NaN: not one
+    am: np.ndarray  # (N, J) autocatalytic order m (0: n-th order)
+    az: np.ndarray  # (N, J) initiation z
     limits: np.ndarray  # (N, L)
     horizon: np.ndarray
     response: np.ndarray  # NaN when not given
@@ -100,6 +103,8 @@ def base_arrays(prepared: PreparedCase, n: int) -> SampleArrays:
         E=cols([s.activation_energy for s in srcs]), order=cols([s.order for s in srcs]),
         dh=cols([s.specific_heat_of_reaction if s.specific_heat_of_reaction is not None else np.nan for s in srcs]),
         af=cols([s.accumulated_fraction for s in srcs]),
+        kr=cols([s.specific_power / s.specific_heat_of_reaction if s.autocatalytic else np.nan for s in srcs]),
+        am=cols([s.autocatalytic_order for s in srcs]), az=cols([s.initiation for s in srcs]),
         limits=cols([lim.temperature for lim in model.limits]), horizon=full(model.horizon),
         response=full(prepared.response_time if prepared.response_time is not None else np.nan),
         delay=full(prepared.detection_delay if prepared.detection_delay is not None else np.nan),
@@ -111,7 +116,8 @@ def base_arrays(prepared: PreparedCase, n: int) -> SampleArrays:
 #: Monte Carlo array of each model slot (see screening.case.paths); per-source slots are columns.
 _ARRAY_OF_SLOT = {"mass": "m", "cp": "cp", "T0": "T0", "Ta": "Ta", "ua": "ua", "H": "horizon", "response": "response",
                   "delay": "delay", "alarm": "alarm", "limit": "limits", "const": "Pc", "dpower": "Pd", "dtau": "ad",
-                  "medium_ua": "mua", "medium_T": "mT", "q": "q", "Tr": "Tr", "E": "E", "dh": "dh", "af": "af"}
+                  "medium_ua": "mua", "medium_T": "mT", "q": "q", "Tr": "Tr", "E": "E", "dh": "dh", "af": "af",
+                  "kr": "kr", "ic": "af"}
 
 
 def direct_setter(prepared: PreparedCase, parts: tuple):
@@ -135,7 +141,9 @@ def direct_setter(prepared: PreparedCase, parts: tuple):
     name = _ARRAY_OF_SLOT.get(slot.kind)
     if name is None:
         return None
-    if slot.kind == "limit" or name in ("Pc", "Pd", "ad", "mua", "mT", "q", "Tr", "E", "dh", "af"):
+    if slot.kind == "ic":  # the initial conversion: the fraction left is 1 - it
+        return lambda a, v: a.af.__setitem__((slice(None), slot.index), 1.0 - v)
+    if slot.kind == "limit" or name in ("Pc", "Pd", "ad", "mua", "mT", "q", "Tr", "E", "dh", "af", "kr"):
         return lambda a, v: getattr(a, name).__setitem__((slice(None), slot.index), v)
     return lambda a, v: setattr(a, name, v)
 
@@ -207,13 +215,16 @@ def screen_samples(prepared: PreparedCase, arrays: SampleArrays) -> SampleTimes:
             first_crossing_times_arrhenius,
         )
 
+        auto = np.isfinite(arrays.kr)
         params = ArrheniusSamples(
             heat_capacity=C, contents_mass=arrays.m, ua=arrays.ua, ambient_temperature=arrays.Ta,
             initial_temperature=T_start, constant_power=p_const,
             decaying_power=arrays.Pd, decay_time=arrays.ad, media_ua=arrays.mua, media_temperature=arrays.mT,
-            specific_power=arrays.q, reference_temperature=arrays.Tr, activation_energy=arrays.E,
+            specific_power=np.where(auto, arrays.dh * np.where(auto, arrays.kr, 0.0), arrays.q),
+            reference_temperature=arrays.Tr, activation_energy=arrays.E,
             order=np.where(np.isnan(arrays.dh), 0.0, arrays.order), heat_of_reaction=arrays.dh,
-            initial_conversion=np.where(np.isnan(arrays.dh), 0.0, np.clip(1.0 - arrays.af, 0.0, 1.0)))
+            initial_conversion=np.where(np.isnan(arrays.dh), 0.0, np.clip(1.0 - arrays.af, 0.0, 1.0)),
+            **({"autocatalytic_order": arrays.am, "initiation": arrays.az} if auto.any() else {}))
         times = first_crossing_times_arrhenius(params, L, arrays.horizon).times
     else:
         from screening.core.time_to_limit_batch import first_crossing_times

@@ -404,6 +404,34 @@ def _runaway(key: str, label: str):
     return fn
 
 
+_INDUCTION_SCENARIO = {"induction_time_at_storage_temperature_s": "storage",
+                       "induction_time_over_storage_period": "storage", "induction_time_at_mtsr_s": "cooling-failure"}
+
+
+def _q_induction_time(key: str):
+    scenario_of_key = _INDUCTION_SCENARIO[key]
+
+    @_safe
+    def fn(r):
+        scenario = _scenario(r)
+        if scenario != scenario_of_key:
+            return _Missing(NOT_APPLICABLE, f"{scenario or 'this'} scenario: the induction time is judged "
+                                            f"{'in storage' if scenario_of_key == 'storage' else 'at MTSR'}")
+        v = _num(r, key)
+        if v is not None:
+            if key == "induction_time_over_storage_period":
+                return v, {"induction_time": _num(r, "induction_time_at_storage_temperature_s"),
+                           "storage_period": _num(r, "horizon_s")}
+            return v, None
+        if not isinstance(r.get("autocatalytic"), dict):
+            return _Missing(NOT_APPLICABLE, "no autocatalytic decomposition, so no induction time")
+        return _Missing(UNKNOWN, "induction time not in the result (none at all: the material starts at its "
+                                 "maximum rate)" if key != "induction_time_at_mtsr_s" else
+                        "induction time not in the result")
+
+    return fn
+
+
 def _storage_gap(r):
     missing = _scenario_missing(r, "critical_ambient_temperature_K")
     if missing is not None:
@@ -802,6 +830,15 @@ def _quantity_table() -> dict[str, Quantity]:
                  _runaway("tmr_at_storage_temperature_s", "TMRad at the storage temperature")),
         Quantity("gas_in_closed_package", FLAG, "a decomposition makes gas and the vessel or package is closed "
                  "(storage)", _flag("gas_in_closed_package", ("storage",), "gas in a closed package")),
+        Quantity("induction_time_at_storage_temperature", TIME, "isothermal induction time (time to the maximum "
+                 "rate at a constant temperature) of an autocatalytic decomposition at the storage temperature "
+                 "(storage)", _q_induction_time("induction_time_at_storage_temperature_s")),
+        Quantity("induction_time_over_storage_period", NUMBER, "isothermal induction time at the storage "
+                 "temperature divided by the storage period (the horizon) (storage, autocatalytic decomposition)",
+                 _q_induction_time("induction_time_over_storage_period"),
+                 (("induction_time", TIME), ("storage_period", TIME))),
+        Quantity("induction_time_at_mtsr", TIME, "isothermal induction time of an autocatalytic decomposition at "
+                 "the MTSR (cooling failure)", _q_induction_time("induction_time_at_mtsr_s")),
         Quantity("unstirred_hot_start", FLAG, "unstirred contents start above the ambient, which the steady "
                  "critical-ambient criterion does not cover (storage)",
                  _flag("unstirred_hot_start", ("storage",), "the hot start of unstirred contents")),

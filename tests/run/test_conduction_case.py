@@ -249,3 +249,15 @@ def test_monte_carlo_samples_of_unstirred_contents_are_the_core_solvers():
     u = r["uncertainty"]
     assert "transient conduction" in u["method"] and u["accepted"] == 12
     assert 0.0 <= u["limits"][0]["probability_within_horizon"] <= 1.0
+
+
+def test_an_autocatalytic_source_in_unstirred_contents_is_refused_not_understated():
+    # the conduction core takes the n-th order form only; an autocatalytic rate (its rise with conversion,
+    # Sestak and Berggren 1971) would be understated, so the case is refused naming the source
+    data = copy.deepcopy(BAG)
+    data["heat_sources"] = [{"kind": "autocatalytic", "rate_constant": "1e-6 1/s", "reference_temperature": "60 degC",
+                             "activation_energy": "120 kJ/mol", "order": 1, "autocatalytic_order": 1,
+                             "initiation": 0.01, "specific_heat_of_reaction": "500 kJ/kg", "gas_generating": False}]
+    with pytest.raises(CaseError) as exc:
+        prepared_of(data)
+    assert [p.field for p in exc.value.problems] == ["heat_sources.0.kind"]
