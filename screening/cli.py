@@ -104,9 +104,30 @@ def history_csv(result: dict) -> str:
     h = result["_history"]
     buf = StringIO()
     w = csv.writer(buf, lineterminator="\n")
-    w.writerow(["time_s", "time_h", "temperature_K", f"temperature_{unit}", "heat_generation_W", "heat_loss_W"])
+    header = ["time_s", "time_h", "temperature_K", f"temperature_{unit}", "heat_generation_W", "heat_loss_W"]
+    cond = result.get("_conduction_history")
+    if cond is None:
+        w.writerow(header)
+        for t, T, g, l in zip(h["time_s"], h["temperature_K"], h["generation_W"], h["loss_W"]):
+            w.writerow([f"{t:.9g}", f"{t / 3600:.9g}", f"{T:.9g}", f"{kelvin_to(T, unit):.9g}", f"{g:.9g}",
+                        f"{l:.9g}"])
+        return buf.getvalue()
+    # unstirred contents: the lumped columns as for any case, then the conduction solution's hot spot, centre
+    # and surface at the same times (empty after the conduction solution stopped: the hot spot ran away)
+    import numpy as np
+
+    w.writerow(header + ["hot_spot_K", f"hot_spot_{unit}", "centre_K", "surface_K"])
+    ct = np.asarray(cond["time_s"], dtype=float)
+    end = ct[-1] if len(ct) else -1.0
+    cols = {k: np.asarray(cond[k], dtype=float) for k in ("hot_spot_K", "centre_K", "surface_K")}
     for t, T, g, l in zip(h["time_s"], h["temperature_K"], h["generation_W"], h["loss_W"]):
-        w.writerow([f"{t:.9g}", f"{t / 3600:.9g}", f"{T:.9g}", f"{kelvin_to(T, unit):.9g}", f"{g:.9g}", f"{l:.9g}"])
+        row = [f"{t:.9g}", f"{t / 3600:.9g}", f"{T:.9g}", f"{kelvin_to(T, unit):.9g}", f"{g:.9g}", f"{l:.9g}"]
+        if t <= end * (1 + 1e-12):
+            hs, c, s_ = (float(np.interp(t, ct, cols[k])) for k in ("hot_spot_K", "centre_K", "surface_K"))
+            row += [f"{hs:.9g}", f"{kelvin_to(hs, unit):.9g}", f"{c:.9g}", f"{s_:.9g}"]
+        else:
+            row += ["", "", "", ""]
+        w.writerow(row)
     return buf.getvalue()
 
 

@@ -73,6 +73,8 @@ def memo_view(result: dict) -> dict:
         out["heat_balance"] = result["_heat_balance"]
     if result.get("_recovery_history") is not None:
         out["recovery_history"] = result["_recovery_history"]
+    if result.get("_conduction_history") is not None:
+        out["conduction_history"] = result["_conduction_history"]
     if result.get("_uncertainty_cdf") is not None:
         out["uncertainty_cdf"] = result["_uncertainty_cdf"]
     for key in ("case_fields", "derived_inputs"):  # every field as written; what the tool derived and used

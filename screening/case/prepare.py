@@ -230,6 +230,7 @@ def prepare_case(spec: CaseSpec, inputs: list[dict] | None = None) -> PreparedCa
             (arrh if isinstance(source, m.ArrheniusSource) else released).append(source)
         elif isinstance(s, FireSpec):
             fires.append(_fire_source(s, i, shape, liquid_volume, problems, warnings))
+    problems.extend(unstirred_problems(spec))
     if problems:
         raise CaseError(problems)
     if fires and ua > 0:
@@ -292,6 +293,34 @@ def prepare_case(spec: CaseSpec, inputs: list[dict] | None = None) -> PreparedCa
     if spec.uncertainty is not None:
         prepared.uncertainty_plan = plan_uncertainty(spec)
     return prepared
+
+
+def unstirred_problems(spec: CaseSpec) -> list[FieldProblem]:
+    """What unstirred contents lack for the transient conduction solution (their limit times come from it)."""
+    c = spec.contents
+    if c.mixing != "unstirred":
+        return []
+    why = ("unstirred contents (contents.mixing: unstirred) are screened by transient conduction through the mass, "
+           "which needs")
+    out = []
+    if c.thermal_conductivity is None:
+        out.append(FieldProblem("contents.thermal_conductivity", f"{why} the contents' thermal conductivity: add "
+                                f"contents.thermal_conductivity (e.g. 0.12 W/(m*K)), or set contents.mixing: stirred "
+                                f"if the contents are well mixed"))
+    if c.density is None:
+        out.append(FieldProblem("contents.density", f"{why} the contents' density: add contents.density "
+                                f"(e.g. 650 kg/m^3)"))
+    for i, s in enumerate(spec.heat_sources):
+        if getattr(s, "kind", None) == "autocatalytic":
+            out.append(FieldProblem(f"heat_sources.{i}.kind", "the transient conduction solution of unstirred "
+                                    "contents does not yet take an autocatalytic source (its rate would be "
+                                    "understated); screen these contents as stirred only with a stated reason, or "
+                                    "give the source as an arrhenius one fitted conservatively"))
+    if spec.vessel is None or spec.vessel.shape is None:
+        out.append(FieldProblem("vessel.shape", f"{why} the shape of the mass: add vessel.shape (sphere, box, or a "
+                                f"cylinder) with its dimensions; a box is taken as a slab of its smallest "
+                                f"half-thickness and a cylinder as infinitely long (both conservative)"))
+    return out
 
 
 def source_name(spec: ArrheniusSpec, index: int) -> str:

@@ -784,7 +784,8 @@ def integrate_history(model: ScreeningModel, stop_temperature: float | None = No
     limit.
 
     Well stirred: one temperature for contents and wall (the lumped model); for
-    unstirred contents this understates the hot spot and a warning says so.
+    unstirred contents this understates the hot spot and a warning says so (the screening result of
+    unstirred contents takes its limit times from :mod:`screening.core.transient_conduction`).
 
     References
     ----------
@@ -848,7 +849,8 @@ def _integrate(model: ScreeningModel, stop_temperature: float | None) -> Numeric
         warnings.append(time_warnings[-1])
     if model.mixing == "unstirred":
         time_warnings.append("Contents are unstirred: the lumped (well-mixed) history understates the "
-                             "hot-spot temperature (not conservative); use the conduction criteria as well.")
+                             "hot-spot temperature (not conservative); the transient conduction solution "
+                             "(core.transient_conduction) gives the hot spot.")
         warnings.append(time_warnings[-1])
     limit_warn = {i: [] for i in range(len(limits))}
 

@@ -12,8 +12,9 @@ temperature-dependent heat sources in a slab, an infinite cylinder or a sphere.
 
 with :math:`j = 0, 1, 2` for the slab (half-thickness R), the cylinder and the sphere (radius R),
 symmetry at :math:`r = 0` and a convective surface
-:math:`-k\,\partial T/\partial r = h\,(T_s - T_a) - q''` at :math:`r = R` (:math:`q''` a heat flux
-into the surface, e.g. from a fire). :math:`q_s = q_{ref} \exp[-E/R (1/T - 1/T_{ref})] (1 - X_s)^n`
+:math:`-k\,\partial T/\partial r = h\,(T_s - T_a) + h_m (T_s - T_m) - q''` at :math:`r = R`
+(:math:`q''` a heat flux into the surface, e.g. from a fire; :math:`h_m` the conductance per unit area to a
+heating medium at :math:`T_m`). :math:`q_s = q_{ref} \exp[-E/R (1/T - 1/T_{ref})] (1 - X_s)^n`
 (:func:`screening.core.arrhenius.log_arrhenius_rate`), :math:`p(t)` a uniform specific power
 (constant and decaying sources per unit mass).
 
@@ -34,7 +35,7 @@ Frank-Kamenetskii, D. A., *Diffusion and Heat Exchange in Chemical Kinetics*, Pr
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -78,6 +79,16 @@ class ConductionBody:
         (W/kg at t = 0, time constant s) of uniform sources decaying as exp(-t/a).
     surface_flux : float, [W/m^2]
         Constant heat flux into the surface (e.g. fire exposure per exposed area).
+    medium_coefficient : float, [W/(m^2 K)]
+        Conductance per unit surface area to a heating (or cooling) medium at the surface, in parallel
+        with the film to the ambient (0: none).
+    medium_temperature : float, [K]
+        Temperature of that medium (used only when ``medium_coefficient`` > 0).
+
+    Notes
+    -----
+    A film h to the ambient and a medium h_m in parallel act as one film h + h_m to the weighted
+    temperature (h T_a + h_m T_m) / (h + h_m).
     """
 
     geometry: str
@@ -92,6 +103,21 @@ class ConductionBody:
     uniform_power: float = 0.0
     decaying_power: tuple = ()
     surface_flux: float = 0.0
+    medium_coefficient: float = 0.0
+    medium_temperature: float = 0.0
+
+    @property
+    def surrounding_coefficient(self) -> float:
+        """h + h_m: the film to the ambient and the medium together, W/(m^2 K)."""
+        return self.surface_coefficient + self.medium_coefficient
+
+    @property
+    def surrounding_temperature(self) -> float:
+        """(h T_a + h_m T_m) / (h + h_m), K: what the surface exchanges heat with (T_a when no medium)."""
+        if self.medium_coefficient <= 0:
+            return self.ambient_temperature
+        h, hm = self.surface_coefficient, self.medium_coefficient
+        return (h * self.ambient_temperature + hm * self.medium_temperature) / (h + hm)
 
     @property
     def biot_number(self) -> float:
@@ -119,6 +145,9 @@ class ConductionHistory:
     stopped : bool
         True when the integration stopped at the stop temperature (a runaway past every limit).
     cells : int
+    surface_limit_times : list of float or None, [s]
+        First time the surface reaches each of the ``surface_limits`` asked for (e.g. an alarm probe at the
+        surface).
     """
 
     limit_times: list
@@ -130,6 +159,7 @@ class ConductionHistory:
     peak_time: float
     stopped: bool
     cells: int
+    surface_limit_times: list = field(default_factory=list)
 
 
 class _System:
@@ -139,8 +169,8 @@ class _System:
         if body.geometry not in GEOMETRY_INDEX:
             raise ValueError(f"geometry must be one of {sorted(GEOMETRY_INDEX)}")
         if not (body.half_thickness > 0 and body.density > 0 and body.specific_heat > 0 and body.conductivity > 0
-                and body.surface_coefficient >= 0 and cells >= 2):
-            raise ValueError("half_thickness, density, specific_heat, conductivity > 0, h >= 0, cells >= 2")
+                and body.surface_coefficient >= 0 and body.medium_coefficient >= 0 and cells >= 2):
+            raise ValueError("half_thickness, density, specific_heat, conductivity > 0, h >= 0, h_m >= 0, cells >= 2")
         j = GEOMETRY_INDEX[body.geometry]
         n = cells
         R = body.half_thickness
@@ -148,7 +178,8 @@ class _System:
         faces = np.arange(n + 1) * dr
         self.volume = (faces[1:] ** (j + 1) - faces[:-1] ** (j + 1)) / (j + 1)  # per unit angle, m^(j+1)
         area = faces ** j if j else np.ones(n + 1)
-        k, h = body.conductivity, body.surface_coefficient
+        k, h = body.conductivity, body.surrounding_coefficient
+        self.t_inf = body.surrounding_temperature
         # conductances between neighbouring cells (W/K per unit angle) and from the outer cell to ambient
         self.g_inner = k * area[1:-1] / dr
         resistance = dr / (2.0 * k) + (1.0 / h if h > 0 else math.inf)
@@ -215,7 +246,7 @@ class _System:
         d = self.g_inner * (T[1:] - T[:-1])
         flow[:-1] += d
         flow[1:] -= d
-        flow[-1] += self.g_out * (self.body.ambient_temperature - T[-1])  # g_out is 0 for an insulated surface
+        flow[-1] += self.g_out * (self.t_inf - T[-1])  # g_out is 0 for an insulated surface
         flux_in = self.body.surface_flux * self.surface_area
         if flux_in:
             flow[-1] += flux_in
@@ -250,11 +281,12 @@ class _System:
             return T_outer
         half = (b.half_thickness / self.n) / (2.0 * b.conductivity)
         film = 1.0 / self.film
-        return (T_outer * film + (b.ambient_temperature + b.surface_flux * film) * half) / (half + film)
+        return (T_outer * film + (self.t_inf + b.surface_flux * film) * half) / (half + film)
 
 
 def hot_spot_history(body: ConductionBody, limits, horizon: float, *, cells: int = DEFAULT_CELLS,
-                     stop_temperature: float | None = None, points: int = 401) -> ConductionHistory:
+                     stop_temperature: float | None = None, points: int = 401,
+                     surface_limits=()) -> ConductionHistory:
     r"""History of the hottest point of an unstirred body, and the first time it reaches each limit.
 
     Parameters
@@ -268,6 +300,9 @@ def hot_spot_history(body: ConductionBody, limits, horizon: float, *, cells: int
         Stop once the hot spot passes it (default: 100 K above the highest limit, at most 2000 K).
     points : int, optional
         Points of the returned history (evenly spaced, plus every limit crossing).
+    surface_limits : sequence of float, [K], optional
+        Temperatures whose first upward crossing by the surface is also located (a surface at or above one
+        at t = 0 reaches it at t = 0).
 
     Returns
     -------
@@ -312,6 +347,18 @@ def hot_spot_history(body: ConductionBody, limits, horizon: float, *, cells: int
         return g
 
     events = [crossing(limits[i]) for i in pending]
+    surface_limits = [float(x) for x in surface_limits]
+    s0 = float(system.surface_temperature(body.initial_temperature))
+    surface_pending = [i for i, L in enumerate(surface_limits) if L > s0]
+    surface_times: list = [0.0 if L <= s0 else None for L in surface_limits]
+
+    def surface_crossing(level):
+        def g(t, y):
+            return float(system.surface_temperature(y[n - 1])) - level
+        g.direction = 1.0
+        return g
+
+    events += [surface_crossing(surface_limits[i]) for i in surface_pending]
     stop_event = crossing(stop)
     stop_event.terminal = True
     events.append(stop_event)
@@ -324,6 +371,9 @@ def hot_spot_history(body: ConductionBody, limits, horizon: float, *, cells: int
     for k, i in enumerate(pending):
         if len(sol.t_events[k]):
             times[i] = float(sol.t_events[k][0])
+    for k, i in enumerate(surface_pending, start=len(pending)):
+        if len(sol.t_events[k]):
+            surface_times[i] = float(sol.t_events[k][0])
     stopped = bool(len(sol.t_events[-1]))
     t_hist = sol.t
     extra = [x for x in times if x is not None and x > 0]
@@ -337,12 +387,15 @@ def hot_spot_history(body: ConductionBody, limits, horizon: float, *, cells: int
     hot = T.max(axis=0)
     k = int(np.argmax(hot))
     return ConductionHistory(times, t_hist, hot, T[0], system.surface_temperature(T[-1]), float(hot[k]),
-                             float(t_hist[k]), stopped, n)
+                             float(t_hist[k]), stopped, n, surface_times)
 
 
 def hot_spot_with_mesh_check(body: ConductionBody, limits, horizon: float, *, cells: int = DEFAULT_CELLS,
-                             stop_temperature: float | None = None) -> tuple[ConductionHistory, float | None]:
+                             stop_temperature: float | None = None,
+                             surface_limits=()) -> tuple[ConductionHistory, float | None]:
     """The hot-spot history on a mesh of 2 ``cells``, and the change from the mesh of ``cells``.
+
+    ``surface_limits`` are located on the finer mesh only (see :func:`hot_spot_history`).
 
     Returns
     -------
@@ -352,7 +405,8 @@ def hot_spot_with_mesh_check(body: ConductionBody, limits, horizon: float, *, ce
         Above ``MESH_TOLERANCE`` the time is ill-conditioned (near criticality) and must be read with care.
     """
     coarse = hot_spot_history(body, limits, horizon, cells=cells, stop_temperature=stop_temperature)
-    fine = hot_spot_history(body, limits, horizon, cells=2 * cells, stop_temperature=stop_temperature)
+    fine = hot_spot_history(body, limits, horizon, cells=2 * cells, stop_temperature=stop_temperature,
+                            surface_limits=surface_limits)
     change = None
     for a, b in zip(coarse.limit_times, fine.limit_times):
         if a is None and b is None:

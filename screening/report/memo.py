@@ -115,6 +115,7 @@ class _Memo:
             "reached": bool(m.get("reached")) if m.get("reached") is not None else m.get("time_s") is not None,
             "margin_s": _num(m.get("margin_s"), f"{where}.margin_s"),
             "margin_note": _str(m.get("margin_note"), f"{where}.margin_note"),
+            "time_note": _str(m.get("time_note"), f"{where}.time_note"),
         }
 
     def L(self, key, **kw):
@@ -393,9 +394,49 @@ class _Memo:
                 lay.table(rows, [w * 0.34, w * 0.28, w * 0.38]),
                 lay.P(self.esc(self.L("derived_note")), "small")]
 
+    def _conduction(self) -> dict | None:
+        return _mapping(self.r.get("conduction"), "conduction")
+
+    def _conduction_note(self) -> list:
+        """Unstirred contents: what the times are, how well the mesh converged, the lumped times beside them."""
+        cond = self._conduction()
+        if cond is None:
+            return []
+        change = _num(cond.get("mesh_relative_change"), "conduction.mesh_relative_change")
+        if change is not None:
+            mesh = self.L("conduction_mesh", change=f"{change * 100:.2g} %")
+        elif cond.get("mesh_converged") is None:
+            mesh = self.L("conduction_mesh_none")
+        else:
+            mesh = self.L("conduction_mesh_one")
+        lumped = _mapping(self.r.get("lumped"), "lumped") or {}
+        parts = []
+        for i, item in enumerate(_seq(lumped.get("limits"), "lumped.limits")):
+            m = _mapping(item, f"lumped.limits[{i}]") or {}
+            t = _num(m.get("time_s"), f"lumped.limits[{i}].time_s")
+            parts.append(f"{_str(m.get('name'), f'lumped.limits[{i}].name')}: "
+                         + (_hours_short(t) if t is not None else self.L("not_reached", horizon=self.horizon_text())))
+        geometry = _str(cond.get("geometry"), "conduction.geometry") or "?"
+        half = _num(cond.get("half_thickness_m"), "conduction.half_thickness_m")
+        biot = _num(cond.get("biot_number"), "conduction.biot_number")
+        text = self.L("conduction_note", geometry=geometry,
+                      size="half-thickness" if geometry == "slab" else "radius",
+                      half_thickness=f"{half:.4g} m" if half is not None else "?",
+                      biot=_num_text(biot, 3) if biot is not None else "?", mesh=mesh,
+                      lumped="; ".join(parts) or self.L("not_applicable"))
+        approx = _str(cond.get("geometry_approximation"), "conduction.geometry_approximation")
+        if approx:
+            text += f" Geometry approximated: {approx} (conservative)."
+        if cond.get("runs_away") is True:
+            text += " " + self.L("conduction_runs_away")
+        return [self.lay.P(self.esc(text), "small")]
+
     def sec_method(self):
         lay = self.lay
-        return [lay.heading(self.numbers["method"], "method")] + lay.prose(lay.T("method.text"))
+        out = [lay.heading(self.numbers["method"], "method")] + lay.prose(lay.T("method.text"))
+        if self._conduction() is not None:
+            out += lay.prose(lay.T("method.unstirred"))
+        return out
 
     def sec_results(self):
         lay = self.lay
@@ -428,6 +469,8 @@ class _Memo:
                     if self._near_peak(lim):
                         t_txt += f"<br/><i>{self.esc(self.L('sensitive_short'))}</i>"
                         sensitive.append(lim["name"])
+                    if lim.get("time_note"):
+                        t_txt += f"<br/><i>{self.esc(lim['time_note'])}</i>"
                 else:
                     t_txt = self.esc(not_reached)
                 if lim["margin_s"] is not None:
@@ -470,6 +513,7 @@ class _Memo:
                 out.append(lay.P(f"<b>{self.esc(self.L('detection_unmonitored'))}</b>", "small"))
         else:
             out.append(lay.P(f"<i>{self.esc(self.L('no_limits'))}</i>"))
+        out += self._conduction_note()
         start = _mapping(self.r.get("start_release"), "start_release")
         if start is not None:
             st = _num(start.get("temperature_K"), "start_release.temperature_K")
@@ -500,7 +544,8 @@ class _Memo:
             (self.L("mixing"), self.esc(mixing) if mixing else self.na()),
         ]
         if biot is not None or (mixing and mixing != "stirred"):
-            pairs.append((self.L("biot"), self.esc(_num_text(biot, 3)) if biot is not None else self.na()))
+            pairs.append((self.L("biot_lumped" if self._conduction() is not None else "biot"),
+                          self.esc(_num_text(biot, 3)) if biot is not None else self.na()))
         out.append(lay.kv_table(pairs))
         if _seq(self.r.get("allowable_values"), "allowable_values"):
             out += self.allowable_values()
@@ -536,7 +581,8 @@ class _Memo:
             pairs = [(self.L("horizon_temperature"), self.temp(peak))]
         else:
             pairs = [(self.L("peak_temperature"), self.temp(peak)), (self.L("peak_time"), self.hrs(t_peak))]
-        pairs.append((self.L("steady_temperature"), self.temp(steady, self.L("no_steady_state"))))
+        pairs.append((self.L("steady_temperature"), self.temp(steady, self.L(
+            "steady_unstirred" if self._conduction() is not None else "no_steady_state"))))
         return pairs
 
     def allowable_values(self) -> list:
@@ -665,6 +711,9 @@ class _Memo:
         vlines = self._response_line()
         x_range = self._x_range([max(xs)] + [v.x * 1.04 for v in vlines])
         series = [Series(xs, ys, self.tx.clean(self.L("chart_series")))]
+        series, conduction_xs = self._conduction_series(series)
+        if conduction_xs:
+            x_range = self._x_range([max(conduction_xs), max(xs)] + [v.x * 1.04 for v in vlines])
         drawing = line_chart(
             self._chart_width(), 250, series, lay.chart_fonts(),
             x_label=self.tx.clean(self.L("chart_x")),
@@ -680,8 +729,42 @@ class _Memo:
             caption += " " + self.L("chart_caption_limits")
         if vlines:
             caption += " " + self.L("chart_caption_response")
+        if conduction_xs:
+            caption += " " + self.L("chart_caption_conduction")
         out.append(KeepTogether([out.pop(), drawing, lay.P(self.esc(caption), "caption")]))
         return out
+
+    def _conduction_series(self, lumped: list):
+        """Unstirred contents: hot spot, centre (where it differs) and surface, with the lumped line dashed."""
+        from screening.report.charts import FRAME, TRACE, TRACE_2, Series
+
+        hist = _mapping(self.plot("conduction_history"), "conduction_history")
+        if not hist:
+            return lumped, []
+        ts = _floats(hist.get("time_s"), "conduction_history.time_s")
+        if not ts:
+            return lumped, []
+        xs = [t / 3600.0 for t in ts]
+        curves = {}
+        for key in ("hot_spot_K", "centre_K", "surface_K"):
+            values = _floats(hist.get(key), f"conduction_history.{key}")
+            if values:
+                n = min(len(xs), len(values))
+                curves[key] = (xs[:n], [self.u.convert(k) for k in values[:n]], values[:n])
+        if "hot_spot_K" not in curves:
+            return lumped, []
+        out = [Series(curves["hot_spot_K"][0], curves["hot_spot_K"][1], self.tx.clean(self.L("chart_series_hot_spot")),
+                      TRACE, 1.6)]
+        hot = curves["hot_spot_K"][2]
+        if "centre_K" in curves and any(abs(a - b) > 0.05 for a, b in zip(curves["centre_K"][2], hot)):
+            out.append(Series(curves["centre_K"][0], curves["centre_K"][1], self.tx.clean(self.L("chart_series_centre")),
+                              TRACE, 1.0, (1, 2)))
+        if "surface_K" in curves:
+            out.append(Series(curves["surface_K"][0], curves["surface_K"][1],
+                              self.tx.clean(self.L("chart_series_surface")), TRACE_2, 1.2))
+        for s in lumped:
+            out.append(Series(s.xs, s.ys, self.tx.clean(self.L("chart_series_lumped")), FRAME, 1.0, (4, 3)))
+        return out, xs
 
     def sec_runaway(self):
         lay = self.lay
@@ -1329,6 +1412,8 @@ class _Memo:
     def sec_assumptions(self):
         lay = self.lay
         out = [lay.heading(self.numbers["assumptions"], "assumptions")] + lay.prose(lay.T("assumptions.text"))
+        if self._conduction() is not None:
+            out += lay.prose(lay.T("assumptions.unstirred"))
         own = [_any_text(a) for a in _seq(self.r.get("assumptions"), "assumptions")]
         if own:
             out.append(lay.P(f"<b>{self.esc(self.L('case_assumptions'))}</b>", "body"))

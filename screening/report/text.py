@@ -102,6 +102,32 @@ def criteria_rows(r: dict, u: str) -> list[tuple[str, str]]:
     return rows
 
 
+def _conduction_lines(r: dict, u: str) -> list[str]:
+    """Unstirred contents: what the limit times above are, and the lumped times beside them."""
+    cond = r.get("conduction")
+    if not isinstance(cond, dict):
+        return []
+    size = "half-thickness" if cond.get("geometry") == "slab" else "radius"
+    change = cond.get("mesh_relative_change")
+    mesh = (f"halving the mesh moved the limit times by {change * 100:.2g} %" if change is not None
+            else "no limit reached, so no mesh change of a time" if cond.get("mesh_converged") is None
+            else "a limit reached on one mesh only")
+    out = [_wrap(f"Times above: the hottest point of the unstirred contents (transient conduction, "
+                 f"{cond.get('geometry')}, {size} {cond.get('half_thickness_m'):.4g} m, surface Biot number "
+                 f"{cond.get('biot_number'):.3g}; {mesh}). Centre at the end of the horizon: "
+                 + (temp(cond["centre_temperature_at_horizon_K"], u)
+                    if cond.get("centre_temperature_at_horizon_K") is not None else "— (the hot spot ran away)")
+                 + ".", "  ")]
+    if cond.get("geometry_approximation"):
+        out.append(_wrap(f"Geometry approximated: {cond['geometry_approximation']} (conservative).", "  "))
+    lumped = r.get("lumped") or {}
+    parts = [f"{x['name']}: {duration(x['time_s']) if x.get('time_s') is not None else 'not reached'}"
+             for x in lumped.get("limits", [])]
+    if parts:
+        out.append(_wrap("Lumped (well-mixed) times, for comparison only: " + "; ".join(parts) + ".", "  "))
+    return out
+
+
 def format_result(r: dict) -> str:
     u = (r.get("units") or {}).get("temperature", "K")
     lines = []
@@ -144,12 +170,24 @@ def format_result(r: dict) -> str:
             if l.get("margin_note"):
                 margin += f" ({l['margin_note']})"
         lines.append(f"  {l['name']:<{width}}  {temp(l['temperature_K'], u)}  {when}{margin}")
+        if l.get("time_note"):
+            lines.append(_wrap(f"({l['time_note']})", "    "))
+    lines.extend(_conduction_lines(r, u))
     lines.append("")
     if r.get("start_release"):
         lines.append(_wrap(r["start_release"]["note"], ""))
     st = r.get("steady_temperature_K")
+    cond = r.get("conduction") if isinstance(r.get("conduction"), dict) else None
     plateau = readings.boiling_plateau(r)
-    if plateau is not None:
+    if cond:
+        stop = " (the hot spot runs away: the conduction solution stops there)" if cond.get("runs_away") else ""
+        lines.append(f"Peak {temp(r['peak_temperature_K'], u)} at {duration(r['peak_time_s'])}{stop}")
+        lumped = r.get("lumped") or {}
+        lst = lumped.get("steady_temperature_K")
+        lines.append(_wrap("Steady temperature not computed for the unstirred body" + (
+            f" (the lumped, well-mixed balance settles at {temp(lst, u)}; not valid for unstirred contents)"
+            if lst is not None else ""), ""))
+    elif plateau is not None:
         dry = plateau.get("time_to_dry_s")
         lines.append(f"Boiling plateau (open vessel) {temp(r['peak_temperature_K'], u)} from "
                      f"{duration(plateau['time_to_boil_s'])} until "
@@ -191,7 +229,7 @@ def format_result(r: dict) -> str:
         for k, v in rows:
             lines.append(f"  {k:<{width}}  {v}")
     if r.get("biot_number") is not None:
-        lines.append(f"Biot number {r['biot_number']:.3g}")
+        lines.append(f"Biot number {r['biot_number']:.3g}" + (" (of the lumped model, h V / (A k))" if cond else ""))
     b = r.get("boiling")
     if b:
         lines.append("")

@@ -11,7 +11,9 @@ temperature at or below absolute zero) are rejected and counted, never clipped.
 Every sample is screened by the vectorised engines: the exact closed form
 for constant and decaying sources (:mod:`screening.core.time_to_limit_batch`) and the
 vectorised Rosenbrock integrator for Arrhenius sources
-(:mod:`screening.core.arrhenius_history_batch`).
+(:mod:`screening.core.arrhenius_history_batch`). Unstirred contents are screened sample by
+sample with the transient conduction solution (:func:`unstirred_sample_times`): each sample's
+case is rebuilt and prepared, so uncertain conductivities, densities and dimensions count.
 """
 from __future__ import annotations
 
@@ -267,6 +269,48 @@ def screen_samples(prepared: PreparedCase, arrays: SampleArrays) -> SampleTimes:
     return SampleTimes(times[:, :n_lim], detection)
 
 
+def unstirred_sample_times(prepared: PreparedCase, plan: UncertaintyPlan, values: np.ndarray) -> SampleTimes:
+    """Hot-spot time to each limit (and the surface's to the alarm) for every sample of unstirred contents.
+
+    One method-of-lines solution per sample on the default mesh (the mesh check of the case's own result is
+    not repeated per sample); a sample whose case cannot be prepared gives NaN times (not reached).
+    """
+    from dataclasses import replace
+
+    from screening.core.transient_conduction import hot_spot_history
+    from screening.run.conduction_case import conduction_body
+
+    n, n_lim = values.shape[0], len(prepared.model.limits)
+    times = np.full((n, n_lim), np.nan)
+    detection = np.full(n, np.nan)
+    located = [locate_quantity(prepared.spec, inp.parts)[2] for inp in plan.inputs]
+    for i in range(n):
+        updates = [(inp.parts, replace(q, si=float(values[i, j]))) for j, (inp, q) in
+                   enumerate(zip(plan.inputs, located))]
+        try:
+            p = prepare_case(apply_updates(prepared.spec, updates))
+        except CaseError:
+            continue
+        model = p.model
+        alarm = [p.detection_alarm] if p.detection_alarm is not None else []
+        hist = hot_spot_history(conduction_body(model), [lim.temperature for lim in model.limits], model.horizon,
+                                surface_limits=alarm, points=3)
+        times[i] = [np.nan if t is None else t for t in hist.limit_times]
+        if alarm:
+            detection[i] = np.nan if hist.surface_limit_times[0] is None else hist.surface_limit_times[0]
+        elif model.scenario == "storage" and p.detection_delay is None:
+            detection[i] = np.nan  # unmonitored storage
+        else:
+            detection[i] = p.detection_delay if p.detection_delay is not None else 0.0
+    return SampleTimes(times, detection)
+
+
+def _sample_times(prepared, plan, values, arrays) -> SampleTimes:
+    if prepared.model.mixing == "unstirred":
+        return unstirred_sample_times(prepared, plan, values)
+    return screen_samples(prepared, arrays)
+
+
 # ------------------------------------------------------------------ statistics
 
 
@@ -286,7 +330,8 @@ def analyse(prepared: PreparedCase, plan: UncertaintyPlan | None = None) -> dict
     plan = plan if plan is not None else plan_uncertainty(prepared.spec)
     if plan is None:
         return None
-    if prepared.model.boiling is not None and prepared.model.boiling.venting == "open" and prepared.model.arrhenius_sources:
+    if prepared.model.boiling is not None and prepared.model.boiling.venting == "open" and \
+            prepared.model.arrhenius_sources and prepared.model.mixing == "stirred":
         return {"samples": plan.samples, "seed": plan.seed, "sampling": plan.sampling, "rejected": 0,
                 "limits": [], "sensitivity": [],
                 "note": "Not computed: the vectorised integrator does not model boiling credit (open vessel with "
@@ -312,7 +357,11 @@ def analyse(prepared: PreparedCase, plan: UncertaintyPlan | None = None) -> dict
                                                             f"{', '.join(inp.path for inp in plan.inputs)} give no "
                                                             f"value the case can take")])
     with progress.task(f"Monte Carlo: {n} samples", total=n + 2 * len(plan.inputs)) as advance:
-        st = screen_samples_in_steps(prepared, arrays, advance)
+        if prepared.model.mixing == "unstirred":
+            st = unstirred_sample_times(prepared, plan, values)
+            advance(n)
+        else:
+            st = screen_samples_in_steps(prepared, arrays, advance)
         return _summarise(prepared, plan, values, arrays, st, n, rejected, advance)
 
 
@@ -360,8 +409,10 @@ def _summarise(prepared, plan, values, arrays, st, n, rejected, advance) -> dict
         "limits": limits_out,
         "sensitivity": sensitivity,
         "_cdf": cdf,
-        "method": ("Monte Carlo over the vectorised " + ("Rosenbrock integrator" if model.arrhenius_sources
-                                                        else "closed-form engine")
+        "method": (("Monte Carlo over the transient conduction solution of each sample (hot-spot times, method of "
+                    "lines on the default mesh)" if model.mixing == "unstirred" else
+                    "Monte Carlo over the vectorised " + ("Rosenbrock integrator" if model.arrhenius_sources
+                                                          else "closed-form engine"))
                    + f", {plan.sampling} sampling; probabilities have a binomial standard error "
                      f"sqrt(p (1 - p) / n), n = {n}."),
     }
@@ -399,7 +450,7 @@ def _sensitivity(prepared, plan, values, first_times, horizon) -> list[dict]:
         clipped[bad, j] = inp.nominal
     arrays = sample_arrays(prepared, plan, clipped)
     first = int(np.argmin([lim.temperature for lim in prepared.model.limits]))
-    t = screen_samples(prepared, arrays).limit_times[:, first]
+    t = _sample_times(prepared, plan, clipped, arrays).limit_times[:, first]
     capped = np.where(np.isnan(first_times), np.inf, first_times)
     out = []
     for j, inp in enumerate(plan.inputs):

@@ -313,8 +313,8 @@ def _storage(prepared, facts, out, decomposition, used) -> list[str]:
     if hot:
         warnings.append(f"Unstirred contents that start at {temp(T0, unit)}, above the ambient ({temp(Ta, unit)}): the "
                         f"critical ambient is a steady-state criterion and does not cover the hot start, while the "
-                        f"centre stays hot for a long time; a transient conduction analysis is needed, so this case "
-                        f"never passes on the steady criterion alone.")
+                        f"centre stays hot for a long time; the limit times come from the transient conduction "
+                        f"solution, which covers the hot start within the horizon only.")
     return warnings
 
 
@@ -332,10 +332,10 @@ def frank_kamenetskii_block(model: ScreeningModel, sources, warnings) -> dict | 
                                                               full_output=True)
     warnings.extend(fk_warnings)
     delta = rc.frank_kamenetskii_parameter(model.ambient_temperature, rho, sources, r, k)
-    warnings.append(f"Unstirred contents: the lumped temperature history assumes one temperature for the whole mass "
-                    f"and is not valid for conduction-limited contents; the Frank-Kamenetskii criterion (geometry "
+    warnings.append(f"Unstirred contents: the critical ambient is the Frank-Kamenetskii criterion (geometry "
                     f"{model.conduction_geometry}, radius {r:.3g} m, surface Biot number "
-                    f"{'infinite (no surface coefficient)' if math.isinf(biot) else f'{biot:.3g}'}) governs. A "
+                    f"{'infinite (no surface coefficient)' if math.isinf(biot) else f'{biot:.3g}'}), a steady-state "
+                    f"criterion; the limit times come from the transient conduction solution of the same body. A "
                     f"cylinder is treated as infinitely long and a box as a slab, which is conservative.")
     # JSON has no infinity: an infinite Biot number (surface held at ambient; its warning says so) is null
     return {"geometry": model.conduction_geometry, "radius_m": r,
@@ -528,7 +528,7 @@ def _storage_summary(model, facts, out, unit) -> str:
                     + (" in a closed package." if out["gas_in_closed_package"] else "."))
     if out["unstirred_hot_start"]:
         text.append("The unstirred contents start above the ambient: the steady criterion does not cover the hot "
-                    "start.")
+                    "start; the transient conduction solution does, within the horizon.")
     text += ac.summary_sentences(out, unit)
     if model.mixing == "stirred":
         text.append(_history_sentence(facts, unit))

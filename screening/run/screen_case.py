@@ -32,6 +32,10 @@ def screen_prepared(prepared: PreparedCase, input_hash: str | None = None,
     else:
         core = screen_closed_form(prepared, values, with_history=with_history)
         core.update(_closed_form_criteria(prepared, core))
+    if model.mixing == "unstirred":  # the limit times become the hot spot's (transient conduction)
+        from screening.run.conduction_case import apply_conduction
+
+        apply_conduction(prepared, core)
     spec = prepared.spec
     result = {
         "id": spec.id,
@@ -77,6 +81,8 @@ def screen_prepared(prepared: PreparedCase, input_hash: str | None = None,
         result["uncertainty"] = None
     if "_recovery_history" in core:
         result["_recovery_history"] = core["_recovery_history"]
+    if "_conduction_history" in core:
+        result["_conduction_history"] = core["_conduction_history"]
     if "_heat_balance" in core:
         result["_heat_balance"] = core["_heat_balance"]
     return result

@@ -90,6 +90,11 @@ def biot_and_validity(prepared: PreparedCase, result: dict) -> None:
     h = model.surface_coefficient
     k = model.thermal_conductivity
     lc = model.characteristic_length
+    if result.get("conduction"):  # limit times from the transient conduction solution: the lumped model is not used
+        if None not in (k, h, lc):
+            result["biot_number"] = h * lc / k
+        result["assumptions"].extend(result["conduction"]["notes"])
+        return
     if k is None or h is None or lc is None:
         missing = [n for n, v in (("contents.thermal_conductivity", k), ("a heat-loss coefficient or vessel area", h),
                                   ("the contents volume and wetted area", lc)) if v is None]

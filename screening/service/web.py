@@ -274,6 +274,65 @@ def _fmt(v, digits: int = 4) -> str:
     return esc(str(v))
 
 
+def conduction_history_html(r: dict, history: dict | None) -> str:
+    """Unstirred contents: the hot-spot, centre and surface history as a small chart and a table."""
+    from screening.case.display import duration, temp
+    from screening.case.units import kelvin_to
+
+    if not isinstance(r.get("conduction"), dict) or not isinstance(history, dict):
+        return ""
+    u = (r.get("units") or {}).get("temperature", "K")
+    try:
+        ts = [float(x) for x in history["time_s"]]
+        curves = {k: [float(x) for x in history[k]] for k in ("hot_spot_K", "centre_K", "surface_K")}
+    except (KeyError, TypeError, ValueError):
+        return ""
+    if len(ts) < 2 or any(len(v) != len(ts) for v in curves.values()):
+        return ""
+    width, height, pad = 640.0, 220.0, 36.0
+    t_end = ts[-1] or 1.0
+    lo = min(min(v) for v in curves.values())
+    hi = max(max(v) for v in curves.values())
+    limits = [lim.get("temperature_K") for lim in r.get("limits") or [] if isinstance(lim.get("temperature_K"), float)]
+    hi = max([hi] + [x for x in limits if x < hi + 200])
+    span = (hi - lo) or 1.0
+
+    def pts(values):
+        step = max(1, len(ts) // 300)
+        return " ".join(f"{pad + (t / t_end) * (width - 2 * pad):.1f},{height - pad - (v - lo) / span * (height - 2 * pad):.1f}"
+                        for t, v in list(zip(ts, values))[::step] + [(ts[-1], values[-1])])
+
+    lines = [f'<polyline fill="none" stroke="#1A4C8B" stroke-width="2" points="{pts(curves["hot_spot_K"])}"/>',
+             f'<polyline fill="none" stroke="#1A4C8B" stroke-width="1" stroke-dasharray="2,3" '
+             f'points="{pts(curves["centre_K"])}"/>',
+             f'<polyline fill="none" stroke="#C26A00" stroke-width="1.5" points="{pts(curves["surface_K"])}"/>']
+    for x in limits:
+        if lo <= x <= hi:
+            y = height - pad - (x - lo) / span * (height - 2 * pad)
+            lines.append(f'<line x1="{pad}" x2="{width - pad}" y1="{y:.1f}" y2="{y:.1f}" stroke="#A11D21" '
+                         f'stroke-dasharray="6,2"/>')
+    axes = (f'<line x1="{pad}" y1="{height - pad}" x2="{width - pad}" y2="{height - pad}" stroke="#777"/>'
+            f'<line x1="{pad}" y1="{pad}" x2="{pad}" y2="{height - pad}" stroke="#777"/>'
+            f'<text x="{pad}" y="{height - 8}" font-size="11">0</text>'
+            f'<text x="{width - pad}" y="{height - 8}" font-size="11" text-anchor="end">{esc(duration(t_end))}</text>'
+            f'<text x="4" y="{pad - 6}" font-size="11">{esc(temp(hi, u))}</text>'
+            f'<text x="4" y="{height - pad + 14}" font-size="11">{esc(temp(lo, u))}</text>')
+    svg = (f'<svg id="hot-spot-chart" role="img" aria-label="Hot-spot history" width="{width:.0f}" '
+           f'height="{height:.0f}" viewBox="0 0 {width:.0f} {height:.0f}">{axes}{"".join(lines)}</svg>')
+    rows = []
+    picks = sorted({round(i * (len(ts) - 1) / 12) for i in range(13)})
+    for i in picks:
+        rows.append(f'<tr><td class="n">{esc(duration(ts[i]))}</td>' + "".join(
+            f'<td class="n">{kelvin_to(curves[k][i], u):.1f}</td>' for k in ("hot_spot_K", "centre_K", "surface_K"))
+            + "</tr>")
+    sym = temp(300.0, u).split(" ")[1] if u != "K" else "K"
+    return ('<h2>Hot-spot history (unstirred contents, transient conduction)</h2>'
+            '<p>The limit times above are those of the hottest point. Solid blue: hot spot; dotted blue: centre; '
+            'orange: surface; red dashed: limits.</p>' + svg +
+            f'<table id="hot-spot-history"><tr><th>Time</th><th>Hot spot ({esc(sym)})</th><th>Centre ({esc(sym)})</th>'
+            f'<th>Surface ({esc(sym)})</th></tr>' + "".join(rows) + "</table>")
+
+
 def result_html(r: dict, view: dict | None = None) -> str:
     """The result of one run; ``view`` (the memo's view of it: history, every field, derived inputs) adds the
     chart, the inputs as written and the derived inputs."""
@@ -307,6 +366,8 @@ def result_html(r: dict, view: dict | None = None) -> str:
     for lim in r.get("limits") or []:
         t = lim.get("time_s")
         when = duration(t) if t is not None else f"not reached within {duration(horizon)}"
+        if t is not None and lim.get("time_note"):
+            when += f' ({lim["time_note"]})'
         margin = lim.get("margin_s")
         mtxt = "—" if margin is None else (duration(abs(margin)) + (" short" if margin < 0 else ""))
         if margin is not None and lim.get("margin_note"):
@@ -321,6 +382,18 @@ def result_html(r: dict, view: dict | None = None) -> str:
     out.append('<p class="muted">"Not reached within the horizon" means only that: the limit may be reached later.</p>')
     out.append(wb.reading_notes(r))
     out.append(wb.history_section(r, view))
+    if isinstance(r.get("conduction"), dict):
+        c = r["conduction"]
+        lumped = "; ".join(f'{x.get("name")}: {duration(x.get("time_s")) if x.get("time_s") is not None else "not reached"}'
+                           for x in (r.get("lumped") or {}).get("limits") or [])
+        out.append(f'<p id="conduction-note">Unstirred contents: the times are those of the hottest point, from a '
+                   f'transient conduction solution ({esc(str(c.get("geometry")))}, '
+                   f'{"half-thickness" if c.get("geometry") == "slab" else "radius"} {_fmt(c.get("half_thickness_m"))}'
+                   f' m, surface Biot number {_fmt(c.get("biot_number"), 3)}'
+                   + (f'; geometry approximated: {esc(str(c["geometry_approximation"]))}, conservative'
+                      if c.get("geometry_approximation") else "")
+                   + f'). Lumped (well-mixed) times, not valid for unstirred contents: {esc(lumped or "—")}.</p>')
+        out.append(conduction_history_html(r, (view or {}).get("conduction_history")))
     if r.get("detection_note"):
         out.append(f'<p><b>{esc(str(r["detection_note"]))}</b></p>')
     tc = r.get("time_constant_s")
@@ -329,6 +402,7 @@ def result_html(r: dict, view: dict | None = None) -> str:
            ("Horizon", duration(horizon)),
            wb.peak_text(r),
            (wb.steady_label(r), temp(r.get("steady_temperature_K"), u) if r.get("steady_temperature_K") is not None
+            else "not computed for the unstirred body" if isinstance(r.get("conduction"), dict)
             else "none (no stable steady state)"),
            ("Time constant", duration(tc) if tc is not None else "none (adiabatic)"),
            ("Heat capacity", f'{_fmt(r.get("heat_capacity_J_per_K"))} J/K'),

@@ -48,11 +48,20 @@ def history_section(r: Mapping, view: Mapping | None, prefix: str = "history", h
     if base is None:
         out.append('<p class="muted">No temperature history came with this run, so no chart is drawn.</p>')
         return "\n".join(out)
-    lines = [Line([t / 3600 for t in base[0]], [_to_unit(k, unit) for k in base[1]], "contents temperature")]
-    extra = []  # further histories (recovery, hot spot ...) under their own names
-    for i, (key, label) in enumerate((("recovery_history", "with recovery action"),
-                                      ("hot_spot_history", "hottest point (unstirred)"))):
-        s = _series(view, key)
+    unstirred = isinstance(r.get("conduction"), Mapping)
+    lines = [Line([t / 3600 for t in base[0]], [_to_unit(k, unit) for k in base[1]],
+                  "lumped (well-mixed) temperature, not valid for unstirred contents" if unstirred
+                  else "contents temperature")]
+    extra = []  # further histories (recovery, the unstirred body's hot spot, centre, surface) under their own names
+    series = [(key, label, _series(view, key)) for key, label in (("recovery_history", "with recovery action"),)]
+    cond = view.get("conduction_history") if unstirred else None
+    if isinstance(cond, Mapping):
+        for key, label in (("hot_spot_K", "hottest point (conduction)"), ("centre_K", "centre"),
+                           ("surface_K", "surface")):
+            ts, ks = cond.get("time_s") or [], cond.get(key) or []
+            n = min(len(ts), len(ks))
+            series.append((key, label, (list(ts[:n]), list(ks[:n])) if n >= 2 else None))
+    for i, (key, label, s) in enumerate(series):
         if s is not None:
             lines.append(Line([t / 3600 for t in s[0]], [_to_unit(k, unit) for k in s[1]], label,
                               colour=COLOURS[(i + 2) % len(COLOURS)], dash=DASHES[(i + 1) % len(DASHES)], width=1.8))

@@ -579,6 +579,10 @@ def _q_critical_medium_gap(r):
 
 @_safe
 def _q_biot_number(r):
+    if isinstance(r.get("conduction"), dict):
+        return _Missing(NOT_APPLICABLE, "the limit times come from the transient conduction solution (the hot "
+                                        "spot), not from the lumped model, so the lumped model's validity does "
+                                        "not matter")
     v = _num(r, "biot_number")
     if v is not None:
         return v, None
@@ -596,8 +600,28 @@ def _q_mixing(r):
     return str(v), None
 
 
+def _conduction_flag(key: str, label: str):
+    @_safe
+    def fn(r):
+        block = r.get("conduction")
+        if not isinstance(block, dict):
+            return _Missing(NOT_APPLICABLE, "no transient conduction solution (stirred contents)")
+        v = block.get(key)
+        if not isinstance(v, bool):
+            return _Missing(UNKNOWN, f"{label} not in the conduction result")
+        return v, {"geometry": str(block.get("geometry") or "unstated"),
+                   "approximation": str(block.get("geometry_approximation") or "the shape is exact")}
+
+    fn.__name__ = f"_q_conduction_{key}"
+    fn.__qualname__ = fn.__name__
+    return fn
+
+
 @_safe
 def _q_steady_temperature(r):
+    if isinstance(r.get("conduction"), dict) and r.get("steady_temperature_K") is None:
+        return _Missing(NOT_APPLICABLE, "unstirred contents: no steady temperature is computed for the body (the "
+                                        "lumped one is under lumped)")
     v = _num(r, "steady_temperature_K")
     return _Missing(NOT_APPLICABLE, "there is no stable steady state") if v is None else (v, None)
 
@@ -856,6 +880,13 @@ def _quantity_table() -> dict[str, Quantity]:
         Quantity("biot_number", NUMBER, "Biot number of unstirred contents; not applicable when stirred",
                  _q_biot_number),
         Quantity("mixing", TEXT, "'stirred' or 'unstirred'", _q_mixing),
+        Quantity("conduction_geometry_approximated", FLAG, "the body of unstirred contents was approximated for "
+                 "the conduction solution (a box as a slab, a finite cylinder as an infinite one)",
+                 _conduction_flag("geometry_approximated", "geometry approximation"),
+                 (("geometry", TEXT), ("approximation", TEXT))),
+        Quantity("conduction_liquid", FLAG, "unstirred contents taken as a liquid (a boiling point is given), for "
+                 "which pure conduction is very conservative",
+                 _conduction_flag("liquid", "liquid"), (("geometry", TEXT), ("approximation", TEXT))),
         Quantity("time_to_boil", TIME, "time until the contents boil",
                  _boiling("time_to_boil_s", "boiling")),
         Quantity("time_to_dry", TIME, "time until the contents have boiled dry",

@@ -22,6 +22,19 @@ CONTRACT_KEYS = ("id", "time_constant_s", "peak_temperature_K", "peak_time_s", "
 LIMIT_KEYS = ("name", "temperature_K", "time_s", "reached", "margin_s")
 
 
+def _sphere_series_time(biot: float, r_star: float, alpha_over_r2: float, theta: float) -> float:
+    """Time at which (T - Ta) / (T0 - Ta) falls to theta at r / R = r_star in a sphere with a convective surface:
+    the full series (Incropera et al., section 5.6; Carslaw and Jaeger), roots of 1 - z cot z = Bi by brentq."""
+    import numpy as np
+    from scipy.optimize import brentq
+
+    z = np.array([brentq(lambda x: 1 - x / math.tan(x) - biot, k * math.pi + 1e-9, (k + 1) * math.pi - 1e-9)
+                  for k in range(60)])
+    c = 4 * (np.sin(z) - z * np.cos(z)) / (2 * z - np.sin(2 * z))
+    f = np.sin(z * r_star) / (z * r_star)
+    return brentq(lambda t: float(np.sum(c * np.exp(-z ** 2 * alpha_over_r2 * t) * f)) - theta, 0.1, 100.0)
+
+
 def _check_json(run_cli, path, *extra):
     proc = run_cli("check", path, "--json", *extra)
     if proc.returncode == 2 and proc.stderr.startswith("rule set:"):
@@ -47,15 +60,25 @@ def test_check_json_contract_and_values(run_cli, data_dir, tmp_path):
     (lim,) = result["limits"]
     for key in LIMIT_KEYS:
         assert key in lim, key
-    # Incropera Example 5.1: tau = 1 s, t(199 degC) = tau ln(175) = 5.1648 s, settles at the gas temperature.
+    # The junction is a solid (mixing: unstirred), so its limit time is the hot spot's from the transient
+    # conduction solution: the outer cell (r/R = 1 - 0.5/128) of the sphere; the full series solution with a
+    # convective surface (Carslaw and Jaeger; Incropera et al., section 5.6) at Bi = h R / k = 7.06e-3 puts it
+    # at 199 degC after 5.170695 s (computed below with scipy's brentq), 0.11 % after the lumped tau ln(175).
+    series_time = _sphere_series_time(400.0 * 0.0007058823529411765 / 2 / 20.0, 1.0 - 0.5 / 128,
+                                      20.0 / (8500.0 * 400.0) / (0.0007058823529411765 / 2) ** 2, 1.0 / 175.0)
+    assert lim["reached"] is True and lim["time_s"] == pytest.approx(series_time, rel=2e-5)
+    # Incropera Example 5.1, lumped: tau = 1 s, t(199 degC) = tau ln(175) = 5.1648 s, settles at the gas
+    # temperature; kept under "lumped" for comparison.
     assert result["time_constant_s"] == pytest.approx(1.0, rel=1e-9)
-    assert lim["reached"] is True and lim["time_s"] == pytest.approx(math.log(175.0), rel=1e-9)
+    assert result["lumped"]["limits"][0]["time_s"] == pytest.approx(math.log(175.0), rel=1e-9)
+    assert result["lumped"]["steady_temperature_K"] == pytest.approx(473.15, rel=1e-12)
+    assert result["steady_temperature_K"] is None  # not computed for an unstirred body
     assert lim["temperature_K"] == pytest.approx(472.15, abs=1e-12)
-    assert lim["margin_s"] == pytest.approx(math.log(175.0) - 1.0, rel=1e-9)  # response time 1 s, detection at 0
-    assert result["steady_temperature_K"] == pytest.approx(473.15, rel=1e-12)
-    # monotone approach from below: the peak is at the horizon (20 s), T = 200 - 175 exp(-20) degC
+    assert lim["margin_s"] == pytest.approx(lim["time_s"] - 1.0, rel=1e-12)  # response time 1 s, detection at 0
+    # monotone approach from below: the peak is at the horizon (20 s), 175 K exp(-20 / 1.0013 s) below the gas
     assert result["peak_time_s"] == pytest.approx(20.0)
-    assert result["peak_temperature_K"] == pytest.approx(473.15 - 175 * math.exp(-20.0), abs=1e-9)
+    assert result["peak_temperature_K"] == pytest.approx(473.15, abs=1e-5)
+    assert result["conduction"]["geometry"] == "sphere" and result["conduction"]["geometry_approximated"] is False
 
     # --history: time, temperature, heat generation, heat loss columns
     with history.open(newline="", encoding="utf-8") as fh:
@@ -75,6 +98,11 @@ def test_check_json_contract_and_values(run_cli, data_dir, tmp_path):
         assert float(r["heat_generation_W"]) == 0.0
     # the crossing time itself is one of the rows
     assert any(abs(t - math.log(175.0)) < 1e-6 for t in times)
+    # unstirred: the hot spot, centre and surface of the conduction solution follow the lumped columns
+    assert header[6:] == ["hot_spot_K", "hot_spot_degC", "centre_K", "surface_K"]
+    for r in rows[:: max(1, len(rows) // 25)]:
+        assert float(r["centre_K"]) <= float(r["hot_spot_K"]) + 1e-9  # heated from outside: the centre lags
+        assert float(r["hot_spot_K"]) == pytest.approx(float(r["temperature_K"]), abs=0.2)  # Bi = 2.35e-3
 
 
 def test_check_json_matches_the_library(run_cli, data_dir, screen_text):

@@ -157,3 +157,43 @@ def test_the_hot_filled_bag_runs_away_at_its_centre():
     assert change < MESH_TOLERANCE
     assert hist.stopped  # it runs away past the limit
     assert hist.surface[len(hist.surface) // 4] < 320.0  # while its surface is cool
+
+
+@pytest.mark.parametrize("geometry", ["slab", "sphere"])
+def test_a_medium_at_the_surface_acts_as_one_film_to_the_weighted_temperature(geometry):
+    # A film h to air at 300 K and a medium h_m at 420 K in parallel are one film h + h_m to
+    # (h Ta + h_m Tm) / (h + h_m) (Incropera et al., ch. 3, resistances in parallel; common practice), so the
+    # centre follows the full series solution (Incropera et al., section 5.6; Carslaw and Jaeger) with
+    # Bi = (h + h_m) R / k, computed here with scipy's brentq for the eigenvalues.
+    R, k, rho, cp, h, hm = 0.1, 1.0, 1000.0, 1000.0, 4.0, 6.0
+    body = ConductionBody(geometry, R, rho, cp, k, h, 300.0, 400.0, medium_coefficient=hm, medium_temperature=420.0)
+    t_inf = (h * 300.0 + hm * 420.0) / (h + hm)  # 372 K
+    biot = (h + hm) * R / k
+    cells = 48
+    fourier = 0.3
+    hist = hot_spot_history(body, [], fourier * R * R / (k / (rho * cp)), cells=cells, points=3)
+    expected = t_inf + (400.0 - t_inf) * series_theta(geometry, biot, fourier, 0.5 / cells)
+    assert hist.centre[-1] == pytest.approx(expected, abs=0.05)
+
+
+def test_a_surface_flux_adds_its_heat_at_the_rate_it_enters():
+    # An insulated sphere (h = 0) with a flux q'' into its surface gains q'' 4 pi R^2 t, so its mean
+    # temperature rises by 3 q'' t / (rho c R) (energy balance, by hand); the hot spot is the surface.
+    R, rho, cp, flux, t = 0.05, 800.0, 1500.0, 2000.0, 600.0
+    body = ConductionBody("sphere", R, rho, cp, 0.2, 0.0, 300.0, 300.0, surface_flux=flux)
+    limit = 301.0
+    hist = hot_spot_history(body, [limit], t, cells=64)
+    assert hist.hot_spot[-1] == pytest.approx(float(hist.surface[-1]), abs=0.5)
+    assert hist.limit_times[0] is not None and hist.limit_times[0] < t
+    # mean rise (by hand): 3 * 2000 * 600 / (800 * 1500 * 0.05) = 60 K; the centre lags, the surface leads
+    assert hist.centre[-1] < 300.0 + 60.0 < hist.surface[-1]
+
+
+def test_surface_limits_are_crossed_when_the_surface_history_crosses_them():
+    # The surface of a sphere heated by a medium rises monotonically; the located crossing must agree with
+    # the surface history interpolated (numpy's interp as the reference) to the history's resolution.
+    body = ConductionBody("sphere", 0.1, 1000.0, 1000.0, 1.0, 10.0, 400.0, 300.0)
+    hist = hot_spot_history(body, [], 20000.0, points=2001, surface_limits=[350.0, 250.0])
+    t_interp = float(np.interp(350.0, hist.surface, hist.time))
+    assert hist.surface_limit_times[0] == pytest.approx(t_interp, rel=2e-3)
+    assert hist.surface_limit_times[1] == 0.0  # already above at t = 0

@@ -63,6 +63,27 @@ def test_fw_s17_drums_storage_review_with_the_critical_ambient_margin():
     assert r["detection_basis"] == "unmonitored"
 
 
+def test_fw_b08_hot_filled_bag_fails_on_its_centre_runaway_time():
+    # the bag: the lumped history cools it and the store is 31 K below the Frank-Kamenetskii critical
+    # ambient, but the centre reaches 120 degC after about 50 h (core solver checked in
+    # tests/core/test_transient_conduction.py against the series and steady solutions)
+    r = screen_demo("fw-b08-hot-filled-bag.yaml")
+    assert r["scenario"] == "storage" and r["verdict"] == "fail"
+    (lim,) = r["limits"]
+    assert lim["time_s"] / 3600 == pytest.approx(50.0, rel=0.03)
+    assert r["lumped"]["limits"][0]["time_s"] is None
+    assert r["critical_ambient_margin_K"] == pytest.approx(31.0, abs=0.5)
+    reasons = " | ".join(decisive(r))
+    assert "reached after 50.3 h" in reasons and "without warning" in reasons
+
+
+def test_fw_s17_drums_report_hot_spot_times():
+    r = screen_demo("fw-s17-powder-drums.yaml")
+    assert r["conduction"]["geometry"] == "cylinder" and r["conduction"]["geometry_approximated"] is True
+    assert "lumped" in r and r["steady_temperature_K"] is None
+    assert not any("hot spot can be hotter" in x for x in r["reasons"])
+
+
 @pytest.mark.parametrize("name", ["fw-t204-hold-tank.yaml", "fw-t302-monomer-tank.yaml",
                                   "fw-t410-fire-water-tank.yaml", "fw-v110-solvent-receiver.yaml"])
 def test_tanks_and_fire_case_are_heat_up_cases(name):

@@ -335,7 +335,8 @@ def test_storage_unstirred_frank_kamenetskii_at_the_biot_number_and_hot_start():
     assert delta == pytest.approx(fk["delta_critical"], rel=1e-8)
     assert fk["surface_biot_number"] == pytest.approx(5.0 * 0.285 / 0.12, rel=1e-9)  # h r / k
     assert r["critical_ambient_margin_K"] == pytest.approx(tac - 303.15, rel=1e-9)
-    # starts at 45 degC above the 30 degC ambient: the steady criterion does not cover it; never a pass
+    # starts at 45 degC above the 30 degC ambient: the steady criterion does not cover it; the hot-start rule
+    # asks for a review of the horizon of the conduction solution
     assert r["storage_temperature_K"] == 318.15
     assert r["unstirred_hot_start"] is True
     assert r["verdict"] != "pass"
@@ -410,6 +411,9 @@ def test_critical_medium_temperature_against_a_direct_semenov_tangency():
 
 def test_critical_medium_temperature_is_null_for_unstirred_contents():
     data = storage(mixing="unstirred", scenario="heat-up")
+    # unstirred contents need a shape, a density and a conductivity for their conduction solution
+    data["contents"].update({"density": "650 kg/m^3", "thermal_conductivity": "0.12 W/(m*K)"})
+    data["vessel"] = {"shape": "vertical-cylinder", "diameter": "0.57 m", "length": "0.85 m"}
     data["heat_sources"].insert(0, {"kind": "heating-medium", "medium_temperature": "50 degC", "ua": "5 W/K"})
     r = screen(data, rules=False)
     assert r["critical_medium_temperature_K"] is None and r["heating_medium_temperature_K"] == 323.15
