@@ -107,6 +107,11 @@ def _shape(spec: CaseSpec) -> VesselShape | None:
                        val(v.crown_radius), val(v.knuckle_radius))
 
 
+#: Said wherever heat_loss.ua_per_mass is used (the figures from memory: the heat-accumulation storage test).
+UA_PER_MASS_CAUTION = ("heat_loss.ua_per_mass: a heat loss of 80-100 mW/(kg K) stands for a package of about 50 kg "
+                       "(the heat-accumulation storage test, from memory); applied to a larger package (drums, IBCs, "
+                       "tanks), which loses less heat per kg, it is not conservative.")
+
 _DIMENSIONS = ("diameter", "length", "width", "height", "crown_radius", "knuckle_radius")
 
 
@@ -171,6 +176,9 @@ def prepare_case(spec: CaseSpec, inputs: list[dict] | None = None) -> PreparedCa
     area_used = None
     if hl.ua is not None:
         ua = hl.ua.si
+    elif hl.ua_per_mass is not None:
+        ua = hl.ua_per_mass.si * mass  # per kg of contents
+        warnings.append(UA_PER_MASS_CAUTION)
     else:
         area = _area_value(hl.area)
         if area == "wetted":
