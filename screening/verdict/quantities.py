@@ -520,8 +520,8 @@ def _sadt_missing(r: dict, label: str):
     search), or unknown (data missing, a tank whose row of the table is not applied)."""
     if _scenario(r) != "storage":
         return _Missing(NOT_APPLICABLE, f"{_scenario(r) or 'this'} scenario: {_NO_SADT_SCENARIO}")
-    if "sadt_K" not in r:
-        return _Missing(UNKNOWN, "the SADT is not in the result")
+    if "sadt_K" not in r:  # a result made before packages had an SADT
+        return _Missing(NOT_APPLICABLE, "the result carries no SADT")
     block = r.get("sadt") if isinstance(r.get("sadt"), dict) else {}
     note = str(r.get("sadt_note") or "")
     if block.get("portable_tank"):
