@@ -42,12 +42,15 @@ def sadt_results(prepared: PreparedCase, criteria: dict) -> dict:
     model = prepared.model
     unit = prepared.display_temperature_unit
     out = dict.fromkeys(SADT_KEYS)
-    reason = _not_applicable(prepared)
+    reason, status = _not_applicable(prepared)
     if reason is not None:
         out["sadt_note"] = reason
+        out["sadt"] = {"status": status}
         return out
     method = "lumped" if model.mixing == "stirred" else "conduction"
     estimate = criteria.get("critical_ambient_temperature_K")
+    if method == "lumped" and any(c.power != 0 for c in model.constant_sources):
+        estimate = _semenov_of_the_decomposition(model)  # the trials leave the constant sources out
     tops = [s.tested_range[1] if s.tested_range is not None else None for s in model.arrhenius_sources]
     bound = cs.search_bound(tops)
     key = (_key_model(model), method, bound, estimate)
@@ -55,7 +58,13 @@ def sadt_results(prepared: PreparedCase, criteria: dict) -> dict:
     if search is None:
         grid = cs.sadt_grid(cs.SADT_LOWEST, bound)
         trial = _lumped_trial(model) if method == "lumped" else _conduction_trial(model)
-        search = cs.search_sadt(trial, grid, cs.start_index(grid, estimate))
+        try:
+            search = cs.search_sadt(trial, grid, cs.start_index(grid, estimate))
+        except (RuntimeError, ValueError, ArithmeticError) as exc:  # an integration failed: said, not raised
+            out["sadt_note"] = (f"No SADT: a 7-day integration of the search failed ({exc}); the SADT could not be "
+                                f"computed.")
+            out["sadt"] = {"status": "failed"}
+            return out
         _CACHE[key] = search
         while len(_CACHE) > _CACHE_SIZE:
             _CACHE.popitem(last=False)
@@ -114,6 +123,7 @@ def sadt_results(prepared: PreparedCase, criteria: dict) -> dict:
         sadt_K=sadt, control_temperature_K=control, emergency_temperature_K=emergency,
         sadt_note=" ".join(notes),
         sadt={
+            "status": "computed" if sadt is not None else "above bound",
             "method": method,
             "convention": SADT_CONVENTION,
             "table_convention": TABLE_CONVENTION,
@@ -146,22 +156,32 @@ def _control_sentence(sadt: float, unit: str) -> str:
             f"organic peroxide (thresholds from memory). " + CLASSIFICATION_NOTE)
 
 
-def _not_applicable(prepared: PreparedCase) -> str | None:
-    """Why no SADT is computed for a storage case, or None."""
+def _not_applicable(prepared: PreparedCase) -> tuple[str | None, str | None]:
+    """(why no SADT is computed for a storage case, and the status: "not applicable" or "data missing"),
+    or (None, None)."""
     model = prepared.model
     if not model.arrhenius_sources:
-        return "No SADT: the case has no temperature-dependent (decomposition) source."
+        return "No SADT: the case has no temperature-dependent (decomposition) source.", "not applicable"
     if any(s.role == "synthesis" for s in model.arrhenius_sources):
         return ("No SADT: a synthesis (desired reaction) source is present; the SADT is defined for a substance whose "
-                "temperature-dependent sources are all decompositions.")
+                "temperature-dependent sources are all decompositions."), "not applicable"
     if any(h.ua > 0 for h in model.heating_media):
         return ("No SADT: the case stores the contents with a heating medium on, so the medium, not the ambient, "
-                "sets their temperature; the SADT (a property of the package in still surroundings) does not apply.")
+                "sets their temperature; the SADT (a property of the package in still surroundings) does not "
+                "apply."), "not applicable"
     if model.mixing != "stirred" and None in (model.conduction_geometry, model.conduction_radius, model.density,
                                               model.thermal_conductivity):
         return ("No SADT: unstirred contents need a vessel shape, contents.density and contents.thermal_conductivity "
-                "for the conduction model of the centre temperature (the lumped figure is not used for them).")
-    return None
+                "for the conduction model of the centre temperature (the lumped figure is not used for them)."), \
+            "data missing"
+    return None, None
+
+
+def _semenov_of_the_decomposition(model: ScreeningModel) -> float | None:
+    """Semenov critical ambient of the temperature-dependent sources alone (what the lumped trials integrate)."""
+    from screening.core import runaway as rc
+
+    return rc.semenov_critical_ambient(model.contents_mass, model.arrhenius_sources, 0.0, model.ua, ()).ambient
 
 
 def _contents_volume(prepared: PreparedCase) -> float | None:
@@ -206,7 +226,9 @@ def conduction_body(model: ScreeningModel, ambient: float):
     """
     from screening.core.transient_conduction import ConductionBody
 
-    h = model.surface_coefficient if model.surface_coefficient is not None else math.inf
+    h = model.surface_coefficient
+    if h is None:  # no surface coefficient: insulated when there is no heat loss, else the surface held at ambient
+        h = 0.0 if model.ua == 0 else math.inf
     return ConductionBody(model.conduction_geometry, model.conduction_radius, model.density,
                           model.contents_specific_heat, model.thermal_conductivity, h, ambient, ambient,
                           sources=tuple(model.arrhenius_sources))

@@ -524,15 +524,17 @@ def _sadt_missing(r: dict, label: str):
         return _Missing(NOT_APPLICABLE, "the result carries no SADT")
     block = r.get("sadt") if isinstance(r.get("sadt"), dict) else {}
     note = str(r.get("sadt_note") or "")
+    first = note.split(".", 1)[0].replace("No SADT: ", "no SADT: ")
+    status = block.get("status")
     if block.get("portable_tank"):
         return _Missing(UNKNOWN, f"{label}: the contents are a tank, whose row of the Model Regulations' table is "
                                  f"not applied")
-    if r.get("sadt_K") is None and note.startswith("above"):
+    if status == "above bound":
         return _Missing(NOT_APPLICABLE, f"no {label}: the SADT is {note.split(':', 1)[0]}")
-    if r.get("sadt_K") is None and "need" in note.split(".", 1)[0]:
-        return _Missing(UNKNOWN, note.split(".", 1)[0].replace("No SADT: ", "no SADT: "))
-    if r.get("sadt_K") is None:
-        return _Missing(NOT_APPLICABLE, note.split(".", 1)[0].replace("No SADT: ", "no SADT: ") or "no SADT")
+    if status == "not applicable":
+        return _Missing(NOT_APPLICABLE, first or "no SADT")
+    if status in ("data missing", "failed"):
+        return _Missing(UNKNOWN, first or "the SADT could not be computed")
     return _Missing(UNKNOWN, f"{label} not in the result")
 
 

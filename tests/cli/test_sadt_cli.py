@@ -1,7 +1,7 @@
 """`check`, `margin` and `memo` on a package: SADT, control and emergency temperatures with their conventions.
 
 Check values: the demo package FW-P08 (invented): SADT 45 °C by a direct solve_ivp scan
-(tests/run/test_sadt.py); control 35 °C and emergency 40 °C by the UN Model Regulations table (from memory).
+(tests/run/test_sadt_case.py); control 35 °C and emergency 40 °C by the UN Model Regulations table (from memory).
 """
 from __future__ import annotations
 

@@ -64,7 +64,7 @@ def test_fw_s17_drums_storage_review_with_the_critical_ambient_margin():
 
 
 def test_fw_p08_package_review_with_its_control_temperature():
-    # the invented 50 kg package: SADT 45 °C (solve_ivp scan, tests/run/test_sadt.py), control 35 °C and
+    # the invented 50 kg package: SADT 45 °C (solve_ivp scan, tests/run/test_sadt_case.py), control 35 °C and
     # emergency 40 °C by the UN Model Regulations table (from memory); the store at 30 °C is 5 K below control
     r = screen_demo("fw-p08-peroxide-cans.yaml")
     assert r["scenario"] == "storage" and r["verdict"] == "review"

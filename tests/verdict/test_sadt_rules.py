@@ -50,7 +50,8 @@ def test_not_applicable_without_an_sadt(default):
                                  adiabatic_temperature_rise_K=30.0))
     assert "ambient-above-control" in v.not_applicable
     v = evaluate(default, package(60.0, sadt_K=None, control_temperature_K=None, emergency_temperature_K=None,
-                                  sadt_note="above 140.0 °C (413.15 K): no 5 °C step ..."))
+                                  sadt_note="above 140.0 °C (413.15 K): no 5 °C step ...",
+                                  sadt={"status": "above bound", "portable_tank": False}))
     assert "ambient-above-control" in v.not_applicable and v.verdict != "fail"
 
 

@@ -276,3 +276,33 @@ def test_margin_on_the_ambient_reuses_the_search(monkeypatch):
                                               first["critical_ambient_temperature_K"],
                                               "critical_ambient_method": "semenov"})
     assert calls == [] and again["sadt_K"] == first["sadt_K"]
+
+
+def test_constant_sources_stay_out_of_the_trials():
+    # only the temperature-dependent sources enter the 7-day integrations (the definition): a
+    # constant 2 W changes the case's critical ambient, not the SADT, whose search starts at the Semenov
+    # critical ambient of the decomposition alone
+    base = screen(demo("fw-p08-peroxide-cans.yaml"))
+    data = demo("fw-p08-peroxide-cans.yaml")
+    data["heat_sources"].append({"kind": "constant", "power": "2 W"})
+    r = screen(data)
+    assert r["sadt_K"] == base["sadt_K"]
+    assert r["critical_ambient_temperature_K"] < base["critical_ambient_temperature_K"]
+    assert r["sadt"]["critical_ambient_K"] == pytest.approx(base["critical_ambient_temperature_K"], abs=1e-6)
+
+
+def test_unstirred_without_conductivity_has_no_sadt_and_is_reviewed():
+    data = demo("fw-s17-powder-drums.yaml")
+    del data["contents"]["thermal_conductivity"]
+    r = screen(data, rules=True)
+    assert r["sadt_K"] is None and r["sadt"]["status"] == "data missing"
+    assert "thermal_conductivity" in r["sadt_note"]
+    assert any("cannot be compared with a control temperature" in x for x in r["reasons"])
+
+
+def test_insulated_unstirred_package_is_adiabatic_in_the_trials():
+    # UA = 0 (coefficient 0): the conduction body is insulated, h = 0, not a surface held at ambient
+    data = demo("fw-s17-powder-drums.yaml")
+    data["heat_loss"]["coefficient"] = "0 W/(m^2*K)"
+    prepared = prepared_of(data)
+    assert conduction_body(prepared.model, 300.0).surface_coefficient == 0.0
