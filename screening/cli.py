@@ -239,13 +239,34 @@ def batch(register: Path = typer.Argument(..., help="Register of vessels (.csv o
           base: Optional[Path] = typer.Option(None, "--base", help="Base case file supplying what a row does not."),
           rules: Optional[str] = typer.Option(None, "--rules", help="Rule set file (TOML)."),
           memos: bool = typer.Option(False, "--memos", help="Also write one memo per case into OUT/memos/."),
-          templates: Optional[Path] = typer.Option(None, "--templates", help="Folder of memo templates.")):
+          templates: Optional[Path] = typer.Option(None, "--templates", help="Folder of memo templates."),
+          scheduler: Optional[str] = typer.Option(
+              None, "--scheduler", help="Screen on a Dask cluster: the scheduler's address (tls://HOST:PORT; "
+                                        "tcp:// only on loopback unless --insecure-cluster). Default: "
+                                        "$HEATSCREEN_SCHEDULER if set, else this machine. Needs heatscreen[cluster]."),
+          insecure_cluster: bool = typer.Option(
+              False, "--insecure-cluster", help="Allow a plain tcp:// scheduler address other than loopback "
+                                                "(no authentication, no encryption: a trusted, isolated network only)."),
+          tls_ca: Optional[Path] = typer.Option(None, "--tls-ca", help="tls://: CA certificate (PEM) that signed the "
+                                                                       "scheduler's and workers' certificates."),
+          tls_cert: Optional[Path] = typer.Option(None, "--tls-cert", help="tls://: this client's certificate (PEM)."),
+          tls_key: Optional[Path] = typer.Option(None, "--tls-key", help="tls://: this client's private key (PEM).")):
     """Screen every row of a register; bad rows are reported by row and field, good rows still screened."""
 
     def body():
         from screening.register.batch import run_batch
         from screening.register.reading import RegisterError
 
+        cluster = None
+        if scheduler or os.environ.get("HEATSCREEN_SCHEDULER", "").strip() or insecure_cluster or tls_ca \
+                or tls_cert or tls_key:
+            from screening.register.cluster import options_from
+
+            cluster = options_from(scheduler, insecure_cluster, tls_ca, tls_cert, tls_key)
+            for warning in cluster.check():
+                _echo(warning, err=True)
+            _echo(f"screening on cluster {cluster.address}"
+                  + (" (from HEATSCREEN_SCHEDULER)" if cluster.from_environment else ""), err=True)
         progress = None
         bar = None
         if sys.stderr.isatty():
@@ -253,7 +274,7 @@ def batch(register: Path = typer.Argument(..., help="Register of vessels (.csv o
             progress = bar.advance
         try:
             summary = run_batch(register, out, base_path=base, rules_path=rules, memos=memos, progress=progress,
-                                templates_dir=templates)
+                                templates_dir=templates, cluster=cluster)
         except RegisterError as exc:
             _echo(f"register: {exc.message}", err=True)
             return EXIT_INVALID

@@ -384,6 +384,24 @@ def entries() -> list[Entry]:
               _case("c.yaml", lambda c: c["recovery"].__setitem__("medium_temperature", "125 degC"),
                     base="fw-r301-reactor.yaml"), exit=(0, 1), names=("Recovery: the recovery medium",)),
 
+        # the cluster backend (issue 23): unsafe or incomplete scheduler settings, refused before any connection
+        # (192.0.2.0/24 is a documentation network, RFC 5737: nothing is ever sent there)
+        Entry("batch --scheduler plain tcp off this machine", "23 tcp:// scheduler other than loopback",
+              ["batch", "{d}/reg.csv", *R, "--scheduler", "tcp://192.0.2.10:8786"], _register("reg.csv", GOOD_ROWS),
+              names=("tcp://192.0.2.10:8786", "--insecure-cluster", "without authentication")),
+        Entry("batch --scheduler without a scheme, off this machine", "23 tcp:// scheduler other than loopback",
+              ["batch", "{d}/reg.csv", *R, "--scheduler", "192.0.2.10:8786"], _register("reg.csv", GOOD_ROWS),
+              names=("192.0.2.10:8786", "refused")),
+        Entry("batch --scheduler ws://", "23 unsupported scheduler scheme",
+              ["batch", "{d}/reg.csv", *R, "--scheduler", "ws://127.0.0.1:8786"], _register("reg.csv", GOOD_ROWS),
+              names=("ws://", "tls://")),
+        Entry("batch --scheduler tls:// without certificates", "23 tls without a security configuration",
+              ["batch", "{d}/reg.csv", *R, "--scheduler", "tls://192.0.2.10:8786", "--tls-ca", "{d}/none.pem"],
+              _register("reg.csv", GOOD_ROWS), names=("--tls-cert", "--tls-key")),
+        Entry("batch --tls-cert without --scheduler", "23 cluster options without a scheduler",
+              ["batch", "{d}/reg.csv", *R, "--tls-cert", "{d}/c.pem"], _register("reg.csv", GOOD_ROWS),
+              names=("--scheduler",)),
+
         # 4. the service's command line
         Entry("serve --token ''", "4 empty token", ["serve", "--token", "", "--db", "{d}/runs.sqlite"],
               names=("token is empty",)),
