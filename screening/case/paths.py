@@ -89,7 +89,7 @@ def locate_quantity(spec: CaseSpec, parts: tuple):
 SCALAR_SLOTS = {
     ("contents", "mass"): "mass", ("contents", "specific_heat"): "cp",
     ("contents", "initial_temperature"): "T0", ("heat_loss", "ambient_temperature"): "Ta",
-    ("heat_loss", "ua"): "ua", ("heat_loss", "coefficient"): "coefficient", ("horizon",): "H",
+    ("heat_loss", "ua"): "ua", ("heat_loss", "ua_per_mass"): "ua_per_mass", ("heat_loss", "coefficient"): "coefficient", ("horizon",): "H",
     ("response_time",): "response", ("detection", "delay"): "delay", ("detection", "alarm_temperature"): "alarm",
     ("vessel", "wall_mass"): "wall_mass", ("vessel", "wall_specific_heat"): "wall_cp",
 }

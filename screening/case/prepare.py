@@ -109,6 +109,11 @@ def _shape(spec: CaseSpec) -> VesselShape | None:
                        val(v.crown_radius), val(v.knuckle_radius))
 
 
+#: Said wherever heat_loss.ua_per_mass is used (the figures from memory: the heat-accumulation storage test).
+UA_PER_MASS_CAUTION = ("heat_loss.ua_per_mass: a heat loss of 80-100 mW/(kg K) stands for a package of about 50 kg "
+                       "(the heat-accumulation storage test, from memory); applied to a larger package (drums, IBCs, "
+                       "tanks), which loses less heat per kg, it is not conservative.")
+
 _DIMENSIONS = ("diameter", "length", "width", "height", "crown_radius", "knuckle_radius")
 
 
@@ -180,6 +185,9 @@ def prepare_case(spec: CaseSpec, inputs: list[dict] | None = None) -> PreparedCa
     area_used = None
     if hl.ua is not None:
         ua = hl.ua.si
+    elif hl.ua_per_mass is not None:
+        ua = hl.ua_per_mass.si * mass  # per kg of contents
+        warnings.append(UA_PER_MASS_CAUTION)
     else:
         area = _area_value(hl.area)
         if area == "wetted":
@@ -194,16 +202,17 @@ def prepare_case(spec: CaseSpec, inputs: list[dict] | None = None) -> PreparedCa
         else:
             area_used = area.si
         geometry["heat_loss_area_m2"] = area_used
+    ua_given = hl.ua is not None or hl.ua_per_mass is not None  # a UA (or one per kg), not a coefficient on an area
     if shape is not None:
         wet, tot = geometry.get("wetted_area_m2"), geometry.get("total_area_m2")
         ua_col, sc_col = heat_loss_columns(
-            ua=None if hl.ua is None else np.array([ua]),
-            coefficient=None if hl.ua is not None else np.array([hl.coefficient.si]),
+            ua=np.array([ua]) if ua_given else None,
+            coefficient=None if ua_given else np.array([hl.coefficient.si]),
             area_used=None if area_used is None else np.array([area_used]),
             wetted_area=None if wet is None else np.array([wet]), total_area=None if tot is None else np.array([tot]))
         ua = float(ua_col[0])
         surface_coefficient = None if sc_col is None or math.isnan(sc_col[0]) else float(sc_col[0])
-    elif hl.ua is None:
+    elif not ua_given:
         ua = hl.coefficient.si * area_used
         surface_coefficient = hl.coefficient.si
     if surface_coefficient is not None and surface_coefficient > HIGH_COEFFICIENT:

@@ -197,16 +197,21 @@ class ContentsSpec(Strict):
 class HeatLossSpec(Strict):
     ambient_temperature: Q("temperature", "absolute")
     ua: Q("conductance", "nonnegative") = None
+    ua_per_mass: Q("specific_conductance", "nonnegative") = None
     coefficient: Q("heat_transfer_coefficient", "nonnegative") = None
     area: Any = Field(default=None, json_schema_extra={
         "description": "'wetted', 'total', or an area with a unit such as '12 m^2'"})
 
     @model_validator(mode="after")
     def _one_way(self):
-        if self.ua is not None and (self.coefficient is not None or self.area is not None):
-            raise ValueError("give either ua, or coefficient with area, not both")
-        if self.ua is None and self.coefficient is None:
-            raise ValueError("give ua (e.g. 180 W/K), or coefficient (e.g. 4.5 W/(m^2*K)) with area")
+        given = [name for name in ("ua", "ua_per_mass", "coefficient") if getattr(self, name) is not None]
+        if len(given) > 1 or (self.area is not None and self.coefficient is None and given):
+            both = given + (["area"] if self.area is not None and "coefficient" not in given else [])
+            raise ValueError(f"give exactly one of ua, ua_per_mass, or coefficient with area, not "
+                             f"{' and '.join(both)}")
+        if self.ua is None and self.ua_per_mass is None and self.coefficient is None:
+            raise ValueError("give ua (e.g. 180 W/K), ua_per_mass (e.g. 90 mW/(kg*K), per kg of contents), or "
+                             "coefficient (e.g. 4.5 W/(m^2*K)) with area")
         if self.coefficient is not None and self.area is None:
             raise ValueError("coefficient needs area: wetted, total, or an area such as '12 m^2'")
         return self

@@ -182,6 +182,8 @@ class _Memo:
         order = ["scope", "inputs", "method", "results", "chart"]
         if self.has_runaway():
             order.append("runaway")
+        if "sadt_K" in self.r:
+            order.append("sadt")
         if self.r.get("boiling") is not None:
             order.append("boiling")
         if self.has_recovery():
@@ -1030,6 +1032,55 @@ class _Memo:
             listed = "; ".join(f"S{i + 1} = {self.u.full(s)}" for i, s in enumerate(steady) if math.isfinite(s))
             parts.append(lay.P(f"<b>{self.esc(self.L('hb_steady_states'))}:</b> {self.esc(listed)}", "small"))
         out.append(KeepTogether(parts))
+        return out
+
+    def sec_sadt(self):
+        """The package's SADT, control and emergency temperatures, and the 5 °C steps tried (storage cases)."""
+        lay = self.lay
+        out = [lay.heading(self.numbers["sadt"], "sadt")]
+        block = _mapping(self.r.get("sadt"), "sadt") or {}
+        method = _str(block.get("method"), "sadt.method")
+        pairs = [(self.L("sadt"), self.temp(self.num("sadt_K"), self.esc(self.L("sadt_not_given"))))]
+        if method in ("lumped", "conduction"):
+            pairs.append((self.L("sadt_method"), self.esc(self.L(f"sadt_method_{method}"))))
+        pairs += [(self.L("control_temperature"), self.temp(self.num("control_temperature_K"))),
+                  (self.L("emergency_temperature"), self.temp(self.num("emergency_temperature_K")))]
+        low, bound = _num(block.get("lowest_K"), "sadt.lowest_K"), _num(block.get("bound_K"), "sadt.bound_K")
+        if low is not None and bound is not None:
+            crit = _num(block.get("critical_ambient_K"), "sadt.critical_ambient_K")
+            pairs.append((self.L("sadt_search"), self.esc(self.L(
+                "sadt_search_value", low=self.temp(low), bound=self.temp(bound),
+                critical=self.temp(crit) if crit is not None else self.na()))))
+        control = _mapping(block.get("temperature_control_required"), "sadt.temperature_control_required") or {}
+        note = _str(control.get("note"), "sadt.temperature_control_required.note")
+        if note:
+            pairs.append((self.L("sadt_temperature_control"), self.esc(note)))
+        sadt_note = _str(self.r.get("sadt_note"), "sadt_note")
+        if sadt_note:
+            pairs.append((self.L("sadt_notes"), self.esc(sadt_note)))
+        out.append(lay.kv_table(pairs))
+        trials = _seq(block.get("trials"), "sadt.trials")
+        if trials:
+            w = lay.frame_width
+            rows = [[lay.P(self.esc(self.L(k)), "head") for k in ("sadt_step_ambient", "sadt_step_centre",
+                                                                   "sadt_step_rise")]]
+            for i, item in enumerate(trials):
+                where = f"sadt.trials[{i}]"
+                t = _mapping(item, where) or {}
+                amb = _num(t.get("ambient_K"), f"{where}.ambient_K")
+                end = _num(t.get("centre_at_7_days_K"), f"{where}.centre_at_7_days_K")
+                if end is not None:
+                    centre = self.temp(end)
+                else:
+                    centre = self.esc(self.L("sadt_step_runaway", temp=self.temp(_num(
+                        t.get("peak_centre_K"), f"{where}.peak_centre_K")), time=self.hrs(_num(
+                            t.get("stopped_at_s"), f"{where}.stopped_at_s"))))
+                rise = _num(t.get("rise_time_s"), f"{where}.rise_time_s")
+                rise_txt = self.hrs(rise) if rise is not None else self.esc(self.L("sadt_step_no_rise"))
+                rows.append([lay.P(self.temp(amb), "cell"), lay.P(centre, "cell"), lay.P(rise_txt, "cell")])
+            out.append(self._spacer(6))
+            out.append(lay.table(rows, [w * 0.3, w * 0.4, w * 0.3]))
+        out += lay.prose(lay.T("sadt.text"), "small")
         return out
 
     def sec_boiling(self):

@@ -126,6 +126,58 @@ def _conduction_lines(r: dict, u: str) -> list[str]:
     if parts:
         out.append(_wrap("Lumped (well-mixed) times, for comparison only: " + "; ".join(parts) + ".", "  "))
     return out
+SADT_LABEL = "SADT (UN test series H, from memory: 5 °C steps, centre +6 K in 7 d)"
+CONTROL_LABEL = "Control temperature (UN Model Regulations table, from memory)"
+EMERGENCY_LABEL = "Emergency temperature (same table)"
+
+
+def sadt_rows(r: dict, u: str) -> list[tuple[str, str]]:
+    """SADT, control and emergency temperatures with their conventions (storage cases), or []."""
+    if "sadt_K" not in r:
+        return []
+    block = r.get("sadt") or {}
+    sadt = r.get("sadt_K")
+    method = {"lumped": "lumped (well-mixed) temperature", "conduction": "centre of the conduction model"}.get(
+        block.get("method"), "")
+    if sadt is None:
+        return [(SADT_LABEL, "—")]
+    rows = [(SADT_LABEL, temp(sadt, u) + (f"; {method}" if method else ""))]
+    rows.append((CONTROL_LABEL, temp(r.get("control_temperature_K"), u)))
+    rows.append((EMERGENCY_LABEL, temp(r.get("emergency_temperature_K"), u)))
+    return rows
+
+
+def sadt_trial_text(t: dict, u: str) -> str:
+    """One step of the SADT search: the ambient, and the centre temperature at 7 days (or the runaway)."""
+    amb = t["ambient_K"]
+    if t.get("centre_at_7_days_K") is not None:
+        end = f"centre {temp(t['centre_at_7_days_K'], u)} at 7 d ({dtemp(t['centre_at_7_days_K'] - amb, u)} above)"
+    else:
+        end = f"runs away (centre past {temp(t['peak_centre_K'], u)} after {duration(t.get('stopped_at_s'))})"
+    rise = f"; +6 K after {duration(t['rise_time_s'])}" if t.get("rise_time_s") is not None else "; no 6 K rise"
+    return f"{temp(amb, u)}: {end}{rise}"
+
+
+def _sadt_lines(r: dict, u: str) -> list[str]:
+    rows = sadt_rows(r, u)
+    if not rows:
+        return []
+    lines = ["", "Package (SADT, control and emergency temperatures; storage):"]
+    width = max(len(k) for k, _ in rows)
+    lines += [f"  {k:<{width}}  {v}" for k, v in rows]
+    block = r.get("sadt") or {}
+    trials = block.get("trials") or []
+    if trials:
+        lines.append("  Steps tried:")
+        lines += [f"    {sadt_trial_text(t, u)}" for t in trials]
+    control = block.get("temperature_control_required") or {}
+    if control.get("note"):
+        lines.append(_wrap(control["note"], "  "))
+    if r.get("sadt_note"):
+        lines.append(_wrap(r["sadt_note"], "  "))
+    if block.get("packaging_note") and not block.get("portable_tank"):
+        lines.append(_wrap(block["packaging_note"], "  "))
+    return lines
 
 
 def format_result(r: dict) -> str:
@@ -228,6 +280,7 @@ def format_result(r: dict) -> str:
         width = min(max(len(k) for k, _ in rows), 50) if rows else 0
         for k, v in rows:
             lines.append(f"  {k:<{width}}  {v}")
+    lines += _sadt_lines(r, u)
     if r.get("biot_number") is not None:
         lines.append(f"Biot number {r['biot_number']:.3g}" + (" (of the lumped model, h V / (A k))" if cond else ""))
     b = r.get("boiling")

@@ -134,6 +134,16 @@ def direct_setter(prepared: PreparedCase, parts: tuple):
         if area is None or any(isinstance(s, FireSpec) for s in spec.heat_sources):
             return None
         return lambda a, v: setattr(a, "ua", v * area)
+    if slot.kind == "ua_per_mass" or (slot.kind == "mass" and spec.heat_loss.ua_per_mass is not None):
+        if any(isinstance(s, FireSpec) for s in spec.heat_sources):
+            return None
+        if slot.kind == "mass":  # UA follows the mass
+            per_kg = spec.heat_loss.ua_per_mass.si
+            return lambda a, v: (setattr(a, "m", v), setattr(a, "ua", v * per_kg))
+        def set_ua_per_mass(a, v):  # after every other setter (sample_arrays), so that a sampled mass is used
+            a.ua = v * a.m
+        set_ua_per_mass.last = True
+        return set_ua_per_mass
     if slot.kind in ("wall_mass", "wall_cp"):
         v0 = spec.vessel
         other = v0.wall_specific_heat.si if slot.kind == "wall_mass" else v0.wall_mass.si
@@ -156,8 +166,9 @@ def sample_arrays(prepared: PreparedCase, plan: UncertaintyPlan, values: np.ndar
     arrays = base_arrays(prepared, n)
     setters = [direct_setter(prepared, inp.parts) for inp in plan.inputs]
     if all(s is not None for s in setters):
-        for j, s in enumerate(setters):
-            s(arrays, values[:, j].copy())
+        order = sorted(range(len(setters)), key=lambda j: getattr(setters[j], "last", False))
+        for j in order:
+            setters[j](arrays, values[:, j].copy())
         return arrays
     return _arrays_by_preparing(prepared, plan, values, arrays)
 

@@ -15,6 +15,7 @@ from screening.run.closed_form_case import ClosedFormValues, screen_closed_form
 from screening.run.memo_inputs import case_fields, derived_inputs
 from screening.run.monte_carlo import analyse
 from screening.run.runaway_case import screen_with_arrhenius
+from screening.run.sadt_case import sadt_results
 from screening.run.scenario_criteria import HistoryFacts, empty_criteria, scenario_criteria
 from screening.run.warnings import biot_and_validity, case_assumptions
 
@@ -43,6 +44,8 @@ def screen_prepared(prepared: PreparedCase, input_hash: str | None = None,
         **{k: v for k, v in core.items() if not k.startswith("_")},
     }
     result["warnings"] = list(prepared.warnings) + core["warnings"]
+    if model.scenario == "storage":  # SADT, control and emergency temperatures of a package
+        result.update(sadt_results(prepared, result))
     result.update(
         initial_temperature_K=model.initial_temperature,
         ambient_temperature_K=model.ambient_temperature,

@@ -540,6 +540,54 @@ def _q_severity_rise(r):
     return _runaway("decomposition_temperature_rise_K", "decomposition temperature rise")(r)
 
 
+_NO_SADT_SCENARIO = "only a storage case has an SADT (a package in still surroundings)"
+
+
+def _sadt_missing(r: dict, label: str):
+    """Why an SADT quantity has no value: not applicable (another scenario, no SADT by its nature or above the
+    search), or unknown (data missing, a tank whose row of the table is not applied)."""
+    if _scenario(r) != "storage":
+        return _Missing(NOT_APPLICABLE, f"{_scenario(r) or 'this'} scenario: {_NO_SADT_SCENARIO}")
+    if "sadt_K" not in r:  # a result made before packages had an SADT
+        return _Missing(NOT_APPLICABLE, "the result carries no SADT")
+    block = r.get("sadt") if isinstance(r.get("sadt"), dict) else {}
+    note = str(r.get("sadt_note") or "")
+    first = note.split(".", 1)[0].replace("No SADT: ", "no SADT: ")
+    status = block.get("status")
+    if block.get("portable_tank"):
+        return _Missing(UNKNOWN, f"{label}: the contents are a tank, whose row of the Model Regulations' table is "
+                                 f"not applied")
+    if status == "above bound":
+        return _Missing(NOT_APPLICABLE, f"no {label}: the SADT is {note.split(':', 1)[0]}")
+    if status == "not applicable":
+        return _Missing(NOT_APPLICABLE, first or "no SADT")
+    if status in ("data missing", "failed"):
+        return _Missing(UNKNOWN, first or "the SADT could not be computed")
+    return _Missing(UNKNOWN, f"{label} not in the result")
+
+
+def _sadt_value(key: str, label: str):
+    @_safe
+    def fn(r):
+        v = _num(r, key)
+        return (v, None) if v is not None else _sadt_missing(r, label)
+
+    fn.__name__ = f"_q_{key}"
+    fn.__qualname__ = fn.__name__
+    return fn
+
+
+@_safe
+def _q_control_temperature_gap(r):
+    control = _num(r, "control_temperature_K")
+    if control is None:
+        return _sadt_missing(r, "control temperature")
+    amb = _num(r, "ambient_temperature_K")
+    if amb is None:
+        return _Missing(UNKNOWN, "ambient temperature not in the result")
+    return control - amb, None
+
+
 def _flag(key: str, scenarios: tuple, label: str, extras=None):
     @_safe
     def fn(r):
@@ -860,6 +908,17 @@ def _quantity_table() -> dict[str, Quantity]:
         Quantity("unstirred_hot_start", FLAG, "unstirred contents start above the ambient, which the steady "
                  "critical-ambient criterion does not cover (storage)",
                  _flag("unstirred_hot_start", ("storage",), "the hot start of unstirred contents")),
+        # packages: SADT and the temperatures that follow (storage)
+        Quantity("sadt", TEMPERATURE, "self-accelerating decomposition temperature of the package: lowest 5 degC "
+                 "step with a 6 K rise of the centre within 7 days (computed; storage)",
+                 _sadt_value("sadt_K", "SADT")),
+        Quantity("control_temperature", TEMPERATURE, "control temperature from the SADT (UN Model Regulations table "
+                 "for packagings and IBCs; storage)", _sadt_value("control_temperature_K", "control temperature")),
+        Quantity("emergency_temperature", TEMPERATURE, "emergency temperature from the SADT (UN Model Regulations "
+                 "table for packagings and IBCs; storage)",
+                 _sadt_value("emergency_temperature_K", "emergency temperature")),
+        Quantity("control_temperature_gap", DELTA_T, "control temperature minus the storage ambient (storage of a "
+                 "package)", _q_control_temperature_gap),
         # steady states, heating medium
         Quantity("no_return_temperature", TEMPERATURE, "no-return temperature (upper, unstable steady state; of the "
                  "decomposition after a cooling failure)", _runaway("no_return_temperature_K", "no-return temperature")),

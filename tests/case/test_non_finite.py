@@ -75,7 +75,7 @@ BY_VOLUME = {
     "id": "NF-3",
     "contents": {"volume": "2 m^3", "density": "1000 kg/m^3", "specific_heat": "3 kJ/(kg*K)",
                  "initial_temperature": "25 degC"},
-    "heat_loss": {"ambient_temperature": "20 degC", "ua": "100 W/K"},
+    "heat_loss": {"ambient_temperature": "20 degC", "ua_per_mass": "90 mW/(kg*K)"},
     "limits": [{"name": "onset", "temperature": "90 degC"}],
 }
 AUTOCATALYTIC = {

@@ -82,6 +82,16 @@ def test_fw_s17_drums_report_hot_spot_times():
     assert r["conduction"]["geometry"] == "cylinder" and r["conduction"]["geometry_approximated"] is True
     assert "lumped" in r and r["steady_temperature_K"] is None
     assert not any("hot spot can be hotter" in x for x in r["reasons"])
+def test_fw_p08_package_review_with_its_control_temperature():
+    # the invented 50 kg package: SADT 45 °C (solve_ivp scan, tests/run/test_sadt_case.py), control 35 °C and
+    # emergency 40 °C by the UN Model Regulations table (from memory); the store at 30 °C is 5 K below control
+    r = screen_demo("fw-p08-peroxide-cans.yaml")
+    assert r["scenario"] == "storage" and r["verdict"] == "review"
+    reasons = " | ".join(r["reasons"])
+    assert "5.0 K below the package's control temperature (35.0 °C; SADT 45.0 °C" in reasons
+    assert "emergency temperature 40.0 °C" in reasons
+    assert "makes gas and the package is closed" in reasons
+    assert "SADT" in format_result(r)
 
 
 @pytest.mark.parametrize("name", ["fw-t204-hold-tank.yaml", "fw-t302-monomer-tank.yaml",
