@@ -159,3 +159,24 @@ def test_adiabatic_run_with_phi(run_cli, tmp_path):
     assert "100 K" not in proc.stdout
     text = run_cli("kinetics", "--adiabatic", path, "--phi", "1.6", "--sample-specific-heat", "2 kJ/(kg*K)").stdout
     assert "not a property of the material" in text and "100 K" not in text
+
+
+def test_autocatalytic_block_screens_with_its_fit_uncertainty(run_cli, tmp_path):
+    # the autocatalytic block (issue 19's kind) pasted into the demo base case screens through `check`, with the
+    # fit's correlated spreads in Monte Carlo; the result names the integrated adiabatic TMRad (the Townsend-Tou
+    # closed form does not apply to an autocatalytic rate law)
+    out = tmp_path / "source.yaml"
+    proc = run_cli("kinetics", *_autocatalytic_runs(tmp_path), "--source-out", out)
+    assert proc.returncode == 0, proc.stderr
+    block = yaml.safe_load(out.read_text(encoding="utf-8"))
+    assert block["heat_sources"][0]["kind"] == "autocatalytic"
+    case = yaml.safe_load((DEMO / "fw-t512-hold-tank-base.yaml").read_text(encoding="utf-8"))
+    case["heat_sources"] = block["heat_sources"]
+    case["uncertainty"] = dict(block["uncertainty"], samples=200)
+    (tmp_path / "case.yaml").write_text(yaml.safe_dump(case), encoding="utf-8")
+    proc = run_cli("check", tmp_path / "case.yaml", "--json")
+    assert proc.returncode in (0, 1), proc.stderr
+    checked = json.loads(proc.stdout)
+    assert checked["uncertainty"]["accepted"] == 200
+    assert checked["uncertainty"]["correlation"]["inputs"] == block["uncertainty"]["correlation"]["inputs"]
+    assert "autocatalytic" in checked and "integrat" in json.dumps(checked["autocatalytic"])
