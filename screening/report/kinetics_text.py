@@ -64,6 +64,8 @@ def format_kinetics(result: dict) -> str:
             if "autocatalytic_order" in p:
                 text += (f", m = {p['autocatalytic_order']['value']:.3g}, "
                          f"z = {math.exp(p['ln_initiation']['value']):.3g}")
+            if fit.get("at_bounds"):  # a parameter the data do not pin down (its interval means little)
+                text += f"; at the bound of its range: {', '.join(fit['at_bounds'])} (not identified by the data)"
             lines.append(text)
         lines.append("")
     lines.append(f"Chosen: {result['model']}. {result['choice_reason']}")
