@@ -70,9 +70,12 @@ def criteria_rows(r: dict, u: str) -> list[tuple[str, str]]:
         method = {"semenov": "Semenov", "frank-kamenetskii": "Frank-Kamenetskii"}.get(r.get("critical_ambient_method"),
                                                                                       "—")
         margin = r.get("critical_ambient_margin_K")
+        which = "the daily maximum of the effective ambient" if r.get("daily_cycle") else "the ambient"
         rows.append((f"Critical ambient ({method})", temp(crit, u) + (
-            f"; the ambient is {dtemp(margin, u)} below it" if margin is not None and margin > 0
-            else ("; the ambient is at or above it" if margin is not None else ""))))
+            f"; {which} is {dtemp(margin, u)} below it" if margin is not None and margin > 0
+            else (f"; {which} is at or above it" if margin is not None else ""))))
+        if r.get("critical_ambient_margin_at_daily_mean_K") is not None:
+            rows.append(("Margin at the daily mean", dtemp(r["critical_ambient_margin_at_daily_mean_K"], u)))
         if r.get("critical_ambient_method") == "semenov":
             rows.append(("Critical contents temperature", temp(r.get("critical_temperature_K"), u)))
             rows.append(("No-return temperature", temp(r.get("no_return_temperature_K"), u)))
@@ -111,8 +114,12 @@ def format_result(r: dict) -> str:
         lines.append(f"Verdict: {r['verdict'].upper()}  (rule set {r.get('rule_set', {}).get('name', '?')})")
         for reason in r.get("reasons", []):
             lines.append(_wrap(reason))
-    lines.append(f"Initial {temp(r['initial_temperature_K'], u)}; ambient {temp(r['ambient_temperature_K'], u)}; "
+    cycle = r.get("daily_cycle")
+    mean = " (daily mean)" if cycle else ""
+    lines.append(f"Initial {temp(r['initial_temperature_K'], u)}; ambient {temp(r['ambient_temperature_K'], u)}{mean}; "
                  f"horizon {duration(r['horizon_s'])}")
+    if cycle:
+        lines.extend(_cycle_lines(r, cycle, u))
     tc = r.get("time_constant_s")
     lines.append(f"Heat capacity {r['heat_capacity_J_per_K']:.4g} J/K; UA {r['ua_W_per_K']:.4g} W/K; "
                  f"time constant {duration(tc) if tc is not None else 'none (adiabatic)'}")
@@ -148,7 +155,8 @@ def format_result(r: dict) -> str:
         lines.append(_wrap(r["start_release"]["note"], ""))
     lines.append(f"Peak {temp(r['peak_temperature_K'], u)} at {duration(r['peak_time_s'])}")
     st = r.get("steady_temperature_K")
-    lines.append(f"Steady temperature {temp(st, u) if st is not None else 'none (no stable steady state)'}")
+    lines.append(f"Steady temperature{' (daily mean)' if r.get('daily_cycle') else ''} "
+                 f"{temp(st, u) if st is not None else 'none (no stable steady state)'}")
     ad = r.get("adiabatic") or {}
     if ad:
         parts = [f"{a['name']}: {duration(a['time_s']) if a['time_s'] is not None else 'not reached'}"
@@ -224,3 +232,23 @@ def format_result(r: dict) -> str:
     lines.append(_wrap("Screening estimate only: not a design or relief-sizing calculation. Defer to applicable "
                        "codes, test data and review by a licensed or otherwise qualified professional.", ""))
     return "\n".join(lines)
+
+
+def _cycle_lines(r: dict, cycle: dict, u: str) -> list[str]:
+    """The daily cycle: the air's range, the sun, the effective ambient's maximum and the start time of day."""
+    def hours(s):
+        return f"{s / 3600.0:.4g} h"
+
+    out = [f"Daily cycle: air range {dtemp(cycle['daily_range_K'], u)}, warmest at {hours(cycle['warmest_time_of_day_s'])} "
+           f"solar time; start at {hours(cycle['start_time_of_day_s'])} ({cycle['start_time_basis']})"]
+    sun = cycle.get("sun")
+    if sun:
+        out.append(f"Sun: {sun['peak_irradiance_W_per_m2']:.4g} W/m^2 at noon, absorptivity {sun['absorptivity']:.3g}, "
+                   f"exposed area {sun['exposed_area_m2']:.4g} m^2 ({sun['exposed_area_basis']}, "
+                   f"{sun['exposed_share'] * 100:.3g} % of the heat-loss area), h_o "
+                   f"{sun['outer_coefficient_W_per_m2K']:.3g} W/(m^2*K): sol-air rise {dtemp(sun['sol_air_rise_K'], u)} "
+                   f"at noon on the contents' share; day {hours(sun['day_length_s'])}")
+    out.append(f"Effective ambient: daily maximum {temp(cycle['effective_ambient_max_K'], u)} at "
+               f"{hours(cycle['effective_ambient_max_time_of_day_s'])}; criteria use "
+               f"{temp(r.get('criteria_ambient_K'), u)} ({r.get('criteria_ambient_basis')})")
+    return [_wrap(line, "") for line in out]

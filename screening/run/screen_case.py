@@ -12,6 +12,7 @@ from screening.core.fire_exposure import FIRE_CAUTIONS
 from screening.case.display import temp
 from screening.core.terms import model_start_temperature
 from screening.run.closed_form_case import ClosedFormValues, screen_closed_form
+from screening.run.daily_cycle import add_cycle_keys, choose_start
 from screening.run.monte_carlo import analyse
 from screening.run.runaway_case import screen_with_arrhenius
 from screening.run.scenario_criteria import HistoryFacts, empty_criteria, scenario_criteria
@@ -25,6 +26,7 @@ def screen_prepared(prepared: PreparedCase, input_hash: str | None = None,
     ``values`` (closed-form cases only) are engine results computed elsewhere,
     e.g. by the vectorised engine for a register.
     """
+    prepared, start_info = choose_start(prepared)  # a daily cycle without a stated start: the worst hourly start
     model = prepared.model
     if model.arrhenius_sources:
         core = screen_with_arrhenius(prepared)
@@ -51,6 +53,7 @@ def screen_prepared(prepared: PreparedCase, input_hash: str | None = None,
         result["maximum_technical_temperature_K"] = model.maximum_technical_temperature
     biot_and_validity(prepared, result)
     result["assumptions"].extend(case_assumptions(prepared))
+    add_cycle_keys(prepared, result, start_info)
     if model.fire_sources:
         result["fire"] = [{"power_W": f.power, "wetted_area_m2": f.wetted_area, "environment_factor": f.environment_factor,
                            "drainage_and_firefighting": f.drainage_and_firefighting} for f in model.fire_sources]

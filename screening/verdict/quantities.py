@@ -416,7 +416,8 @@ def _q_critical_ambient_gap(r):
     crit = _num(r, "critical_ambient_temperature_K")
     if crit is None:
         return _storage_gap(r)
-    amb = _num(r, "ambient_temperature_K")
+    # with a daily cycle the comparison is with the daily maximum of the effective ambient (criteria_ambient_K)
+    amb = _num(r, "criteria_ambient_K") if r.get("criteria_ambient_K") is not None else _num(r, "ambient_temperature_K")
     if amb is None:
         return _Missing(UNKNOWN, "ambient temperature not in the result")
     method = r.get("critical_ambient_method")

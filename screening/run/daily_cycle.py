@@ -1,0 +1,134 @@
+"""The daily cycle in a result: the start time of day (given, or the worst of 24 hourly starts), the ambient the
+criteria compare with (the daily maximum of the effective ambient), and what the output says about it."""
+from __future__ import annotations
+
+import dataclasses
+import math
+
+from screening.case.display import dtemp, temp
+from screening.case.prepare import PreparedCase
+from screening.core.daily_cycle import DAY, daily_maximum
+
+HOURLY_STARTS = tuple(h * 3600.0 for h in range(24))
+BASIS_GIVEN = "given (start_time_of_day)"
+BASIS_WORST = "the worst of 24 hourly starts"
+CRITERIA_BASIS = "daily maximum of the effective ambient (air plus the exposed share of the sol-air excess)"
+
+SUNLIT_SIDE_NOTE = ("The sun is taken on a lumped (well-mixed) body: the sunlit side of the vessel and the contents "
+                    "next to it run hotter than the mean shown (a one-dimensional or lumped model does not show the "
+                    "hot side; not conservative for unstirred contents or a sensitive layer at the wall).")
+
+
+def with_start(prepared: PreparedCase, start: float) -> PreparedCase:
+    """A copy of the prepared case whose cycle starts at solar time ``start`` (s)."""
+    cycle = dataclasses.replace(prepared.model.daily_cycle, start_time=float(start))
+    return dataclasses.replace(prepared, model=dataclasses.replace(prepared.model, daily_cycle=cycle))
+
+
+def _severity(prepared: PreparedCase) -> tuple:
+    """Sort key of one start (smaller is worse): the earliest time to a limit, then the highest peak."""
+    model = prepared.model
+    if model.arrhenius_sources:
+        from screening.core.arrhenius_history import integrate_history
+
+        hist = integrate_history(model)
+        times = [lim.time for lim in hist.limits if lim.time is not None]
+        peak = hist.peak_temperature
+    else:
+        from screening.run.closed_form_case import closed_form_values
+
+        values = closed_form_values(prepared)
+        times = [t for t in values.limit_times if t is not None]
+        peak = values.peak[0]
+    return (min(times) if times else math.inf, -peak)
+
+
+def choose_start(prepared: PreparedCase) -> tuple[PreparedCase, dict | None]:
+    """The case with its start time of day fixed, and how it was chosen (None without a daily cycle).
+
+    Without ``start_time_of_day`` every whole hour is tried and the worst kept: the earliest time to any
+    limit, and among starts that reach none, the highest peak.
+    """
+    cycle = prepared.model.daily_cycle
+    if cycle is None:
+        return prepared, None
+    if prepared.spec.start_time_of_day is not None:
+        return prepared, {"start_time_of_day_s": cycle.start_time, "basis": BASIS_GIVEN}
+    ranked = []
+    for start in HOURLY_STARTS:
+        candidate = with_start(prepared, start)
+        ranked.append((_severity(candidate), start, candidate))
+    key, start, worst = min(ranked, key=lambda r: (r[0], r[1]))
+    return worst, {"start_time_of_day_s": start, "basis": BASIS_WORST}
+
+
+def criteria_ambient(model) -> tuple[float, str]:
+    """The ambient the criteria compare with, K, and its basis: the daily maximum of the effective ambient with a
+    daily cycle, else the stated ambient."""
+    if model.daily_cycle is None:
+        return model.ambient_temperature, "ambient_temperature"
+    return daily_maximum(model.ambient_temperature, model.daily_cycle)[0], CRITERIA_BASIS
+
+
+def cycle_block(prepared: PreparedCase, start_info: dict) -> dict:
+    """The result's ``daily_cycle`` object (SI), its criteria keys and its notes."""
+    model = prepared.model
+    cycle = model.daily_cycle
+    unit = prepared.display_temperature_unit
+    t_max, when = daily_maximum(model.ambient_temperature, cycle)
+    geo = prepared.geometry
+    sun = prepared.spec.sun
+    block = {
+        "mean_ambient_K": model.ambient_temperature,
+        "daily_range_K": cycle.daily_range,
+        "warmest_time_of_day_s": cycle.warmest_time,
+        "start_time_of_day_s": start_info["start_time_of_day_s"],
+        "start_time_basis": start_info["basis"],
+        "effective_ambient_max_K": t_max,
+        "effective_ambient_max_time_of_day_s": when,
+        "sun": None,
+    }
+    if sun is not None:
+        block["sun"] = {
+            "peak_irradiance_W_per_m2": sun.peak_irradiance.si, "absorptivity": sun.absorptivity.si,
+            "exposed_area_m2": geo.get("exposed_area_m2"), "exposed_area_basis": geo.get("exposed_area_basis"),
+            "exposed_share": geo.get("exposed_share"), "day_length_s": cycle.day_length,
+            "outer_coefficient_W_per_m2K": geo.get("outer_coefficient_W_per_m2K"),
+            "sol_air_rise_K": cycle.solar_rise,
+        }
+    notes = [f"ambient_temperature ({temp(model.ambient_temperature, unit)}) is the daily mean of the air; the air "
+             f"cycles by {dtemp(cycle.daily_range, unit)} (warmest at {cycle.warmest_time / 3600.0:.4g} h solar "
+             f"time) and the effective ambient peaks at {temp(t_max, unit)} at {when / 3600.0:.4g} h."]
+    start_h = start_info["start_time_of_day_s"] / 3600.0
+    if start_info["basis"] == BASIS_WORST:
+        notes.append(f"The scenario is taken to start at {start_h:.4g} h solar time, the worst of 24 hourly "
+                     f"starts (earliest limit, else highest peak); a start between the hours may be slightly worse.")
+    else:
+        notes.append(f"The scenario starts at {start_h:.4g} h solar time (start_time_of_day); another start time "
+                     f"may be worse.")
+    if sun is not None:
+        notes.append(SUNLIT_SIDE_NOTE)
+        if model.ua == 0 and model.fire_sources:
+            notes.append("With a fire source the heat loss (and so the sun and the air's cycle) is not credited.")
+    block["notes"] = notes
+    return block
+
+
+def add_cycle_keys(prepared: PreparedCase, result: dict, start_info: dict | None) -> None:
+    """Add ``daily_cycle``, ``criteria_ambient_K``, ``criteria_ambient_basis`` and the margin at the daily mean."""
+    if start_info is None:
+        return
+    block = cycle_block(prepared, start_info)
+    result["daily_cycle"] = block
+    result["criteria_ambient_K"], result["criteria_ambient_basis"] = criteria_ambient(prepared.model)
+    crit = result.get("critical_ambient_temperature_K")
+    if crit is not None:
+        result["critical_ambient_margin_at_daily_mean_K"] = crit - prepared.model.ambient_temperature
+    result["warnings"].extend(n for n in block["notes"][2:] if n not in result["warnings"])
+    result.setdefault("assumptions", []).extend(block["notes"][:2])
+
+
+def time_of_day(seconds: float) -> str:
+    """Solar time of day as h:mm."""
+    s = math.fmod(seconds, DAY)
+    return f"{int(s // 3600):02d}:{int(round((s % 3600) / 60.0)) % 60:02d}"
