@@ -26,6 +26,8 @@ def screen_prepared(prepared: PreparedCase, input_hash: str | None = None,
     ``values`` (closed-form cases only) are engine results computed elsewhere,
     e.g. by the vectorised engine for a register.
     """
+    if prepared.model.daily_cycle is not None:
+        values = None  # engine values from elsewhere do not know the start time of day chosen here
     prepared, start_info = choose_start(prepared)  # a daily cycle without a stated start: the worst hourly start
     model = prepared.model
     if model.arrhenius_sources:
