@@ -497,19 +497,22 @@ def cycle_response(lam, heat_capacity, forcing: CycleForcing, t):
         partial = (s0 > rise) & (s0 < set_)
         u0 = np.where(partial, s0 - rise, 0.0)
         first_full = np.where(s0 <= rise, 0.0, 1.0)
-        last_set = np.floor((theta - set_) / DAY)  # day of the last sunset at or before theta
+        # one phase u (time since the day's sunrise) decides both whether the sun is up and which pulses have
+        # set, so that the two never count the same pulse at sunset
+        day = np.floor(theta / DAY)
+        u = theta - day * DAY - rise
+        up = (u >= 0) & (u < D)
+        last_set = np.where(u >= D, day, day - 1.0)  # day of the last sunset at or before theta
         n_full = np.maximum(0.0, last_set - first_full + 1.0)
         kW = lam * lam + W * W
         y_full = W * (1.0 + np.exp(-lam * D)) / kW
         q_sum = np.where(lam > 0, np.expm1(-lam * DAY * n_full) / np.expm1(-lam * DAY), n_full)
-        since_set = theta - (last_set * DAY + set_)
+        since_set = np.where(u >= D, u - D, theta - (last_set * DAY + set_))
         done = np.where(n_full > 0, y_full * np.exp(-lam * since_set) * q_sum, 0.0)
         pu0, _ = _pulse(lam, W, u0)
         y_part = W / kW - pu0 * np.exp(-lam * (D - u0))
-        done = done + np.where(partial & (theta >= set_), y_part * np.exp(-lam * (theta - set_)), 0.0)
-        day = np.floor(theta / DAY)
-        u = theta - day * DAY - rise
-        up = (u >= 0) & (u < D)
+        partial_set = partial & ~((day == 0) & (u < D))
+        done = done + np.where(partial_set, y_part * np.exp(-lam * np.maximum(theta - set_, 0.0)), 0.0)
         us = np.where(partial & (day == 0), u0, 0.0)
         pu, dpu = _pulse(lam, W, np.clip(u, 0.0, D))
         pus, _ = _pulse(lam, W, us)

@@ -88,3 +88,96 @@ def test_largest_projection_against_brute_force():
                           (largest_projection("box", None, L, W, Hh), box.max())):
         assert sampled <= ours * (1 + 1e-12)
         assert ours == pytest.approx(sampled, rel=1e-5)
+
+
+def _balance_with_cycle(start):
+    from screening.core.closed_form_history import linear_balance
+
+    # 800 kg at 2 kJ/(kg K), UA 25 W/K to a 301.15 K daily mean, 150 W constant and 2 kW decaying over 3 h
+    base = linear_balance(1.6e6, 25.0, 301.15, 297.15, 150.0, [2000.0], [3 * H])
+    forcing = CycleForcing(air=25.0 * 7.0, warmest_time=15 * H, solar=25.0 * 11.0, day_length=14 * H,
+                           start_time=start)
+    from dataclasses import replace
+
+    return replace(base, forcing=forcing)
+
+
+@pytest.mark.parametrize("start", [0.0, 10 * H, 19 * H])
+def test_first_crossing_with_cycle_against_solve_ivp_events(start):
+    # time to a limit within 1e-6 s of scipy.integrate.solve_ivp's event location (DOP853, rtol 1e-13)
+    from scipy.integrate import solve_ivp
+
+    from screening.core.time_to_limit import first_crossing, history_shape
+
+    bal = _balance_with_cycle(start)
+    horizon = 5 * DAY
+    shape = history_shape(bal, horizon)
+
+    def rhs(t, T):
+        return [(float(bal.drive) - float(bal.conductance) * T[0] + 2000.0 * math.exp(-t / (3 * H))
+                 + float(bal.forcing.power(t))) / float(bal.heat_capacity)]
+
+    knots = [0.0] + day_knots(bal.forcing, horizon).tolist() + [horizon]
+    T0 = float(bal.initial_temperature)
+    peak = T0
+    for lim in (305.0, 310.0, 316.0):
+        ours = first_crossing(bal, lim, horizon, shape)
+        y, ref = T0, None
+        for a, b in zip(knots[:-1], knots[1:]):
+            event = lambda t, T, lim=lim: T[0] - lim  # noqa: E731
+            event.terminal, event.direction = True, 1
+            sol = solve_ivp(rhs, (a, b), [y], method="DOP853", rtol=1e-13, atol=1e-12, events=event)
+            peak = max(peak, float(sol.y[0].max()))
+            if sol.t_events[0].size:
+                ref = float(sol.t_events[0][0])
+                break
+            y = float(sol.y[0, -1])
+        if ref is None:
+            assert ours is None
+        else:
+            assert ours is not None and abs(ours - ref) < 1e-6
+    assert shape.peak_temperature >= peak - 1e-9
+
+
+def test_history_is_continuous_at_sunrise_and_sunset():
+    # exact pieces join: no step in T at any sunrise or sunset (by hand: the solution of a first-order ODE with a
+    # bounded right-hand side is continuous)
+    from screening.core.closed_form_history import temperature
+
+    for start in (0.0, 5 * H, 12 * H, 20 * H):
+        bal = _balance_with_cycle(start)
+        knots = day_knots(bal.forcing, 6 * DAY)
+        for k in knots:
+            t = np.array([k * (1 - 1e-15), k, k * (1 + 1e-15)])
+            T = temperature(bal, t)
+            assert np.ptp(T) < 1e-9
+
+
+def test_vectorised_engine_agrees_with_one_case_engine():
+    # the array engine (bisection on arrays) against the one-case engine (Brent's method) on random vessels
+    from screening.core.closed_form_history import LinearBalance
+    from screening.core.daily_cycle_batch import first_crossing_times_cycle
+    from screening.core.time_to_limit import first_crossing, history_shape
+
+    rng = np.random.default_rng(7)
+    n = 60
+    C, G = rng.uniform(1e5, 1e7, n), rng.uniform(5, 500, n)
+    Ta, T0 = rng.uniform(290, 310, n), rng.uniform(285, 320, n)
+    Q0 = G * Ta + rng.uniform(0, 500, n)
+    P, b = rng.uniform(0, 3000, (n, 1)), 1.0 / rng.uniform(600, 1e5, (n, 1))
+    f = CycleForcing(G * rng.uniform(0, 8, n), np.full(n, 15 * H), G * rng.uniform(0, 15, n),
+                     rng.uniform(8, 16, n) * H, rng.integers(0, 24, n) * H)
+    L = np.column_stack([Ta + 5, Ta + 10, Ta + 20])
+    horizon = rng.uniform(1, 8, n) * DAY
+    out = first_crossing_times_cycle(C, G, Q0, T0, P, b, f, L, horizon)
+    for i in range(n):
+        fi = CycleForcing(*(np.asarray(getattr(f, k))[i] for k in
+                            ("air", "warmest_time", "solar", "day_length", "start_time")))
+        bal = LinearBalance(np.asarray(C[i]), np.asarray(G[i]), np.asarray(Q0[i]), np.asarray(T0[i]), P[i], b[i], fi)
+        shape = history_shape(bal, horizon[i])
+        for j in range(3):
+            t = first_crossing(bal, L[i, j], horizon[i], shape)
+            if t is None:
+                assert np.isnan(out[i, j])
+            else:
+                assert abs(out[i, j] - t) < 1e-6
