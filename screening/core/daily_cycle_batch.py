@@ -80,7 +80,7 @@ def _bisect(fn, a, b, fa):
 
 
 def first_crossing_times_cycle(heat_capacity, conductance, drive, initial_temperature, decaying_power, decay_rate,
-                               forcing: CycleForcing, limits, horizon):
+                               forcing: CycleForcing, limits, horizon, *, with_peak: bool = False):
     r"""First time each vessel reaches each limit, with the daily cycle: the vectorised closed form.
 
     Parameters
@@ -93,11 +93,15 @@ def first_crossing_times_cycle(heat_capacity, conductance, drive, initial_temper
     limits : array (N, L), [K]
         NaN marks an unused slot.
     horizon : array (N,), [s]
+    with_peak : bool, default False
+        Also return the peak temperature of each vessel within its horizon.
 
     Returns
     -------
     numpy.ndarray, shape (N, L), [s]
         0 when the contents start at or above a limit, NaN when it is not reached within the horizon.
+    numpy.ndarray, shape (N,), [K]
+        With ``with_peak``: the largest of T at 0, at the turning points and at the horizon.
 
     Notes
     -----
@@ -169,4 +173,6 @@ def first_crossing_times_cycle(heat_capacity, conductance, drive, initial_temper
         sub = _take(balance, r)
         fn = lambda t, sub=sub, r=r, j=j: temperature(sub, t) - L[r, j]  # noqa: E731
         out[r, j] = _bisect(fn, a, bb, fn(a))
+    if with_peak:
+        return out, temps.max(axis=1)
     return out

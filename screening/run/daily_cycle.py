@@ -7,7 +7,11 @@ import math
 
 from screening.case.display import dtemp, temp
 from screening.case.prepare import PreparedCase
-from screening.core.daily_cycle import DAY, daily_maximum
+import numpy as np
+
+from screening.core.closed_form_history import balance_of
+from screening.core.daily_cycle import DAY, CycleForcing, daily_maximum
+from screening.core.daily_cycle_batch import first_crossing_times_cycle
 
 HOURLY_STARTS = tuple(h * 3600.0 for h in range(24))
 BASIS_GIVEN = "given (start_time_of_day)"
@@ -27,20 +31,35 @@ def with_start(prepared: PreparedCase, start: float) -> PreparedCase:
 
 def _severity(prepared: PreparedCase) -> tuple:
     """Sort key of one start (smaller is worse): the earliest time to a limit, then the highest peak."""
+    from screening.core.arrhenius_history import integrate_history
+
+    hist = integrate_history(prepared.model)
+    times = [lim.time for lim in hist.limits if lim.time is not None]
+    return (min(times) if times else math.inf, -hist.peak_temperature)
+
+
+def _closed_form_severities(prepared: PreparedCase, starts) -> list[tuple]:
+    """Sort keys of every start at once: the vectorised closed form (the same history as the one-case engine)."""
     model = prepared.model
-    if model.arrhenius_sources:
-        from screening.core.arrhenius_history import integrate_history
-
-        hist = integrate_history(model)
-        times = [lim.time for lim in hist.limits if lim.time is not None]
-        peak = hist.peak_temperature
-    else:
-        from screening.run.closed_form_case import closed_form_values
-
-        values = closed_form_values(prepared)
-        times = [t for t in values.limit_times if t is not None]
-        peak = values.peak[0]
-    return (min(times) if times else math.inf, -peak)
+    bal = balance_of(model)
+    n = len(starts)
+    rep = lambda v: np.repeat(np.asarray(v, dtype=float).reshape(1, -1), n, axis=0)  # noqa: E731
+    f = bal.forcing
+    if f is None:  # no drive from the cycle (UA = 0): every start is the same
+        return [(0.0, 0.0)] * n
+    forcing = CycleForcing(np.full(n, float(f.air)), np.full(n, float(f.warmest_time)), np.full(n, float(f.solar)),
+                           np.full(n, float(f.day_length)), np.asarray(starts, dtype=float))
+    P = rep(bal.decaying_power) if np.size(bal.decaying_power) else np.zeros((n, 1))
+    b = rep(bal.decay_rate) if np.size(bal.decay_rate) else np.zeros((n, 1))
+    limits = [lim.temperature for lim in model.limits]
+    if prepared.detection_alarm is not None:
+        limits = limits or [prepared.detection_alarm]
+    times, peaks = first_crossing_times_cycle(
+        np.full(n, float(bal.heat_capacity)), np.full(n, float(bal.conductance)), np.full(n, float(bal.drive)),
+        np.full(n, float(bal.initial_temperature)), P, b, forcing, rep(limits), np.full(n, model.horizon),
+        with_peak=True)
+    first = np.where(np.isnan(times), np.inf, times).min(axis=1)
+    return [(float(t), -float(p)) for t, p in zip(first, peaks)]
 
 
 def choose_start(prepared: PreparedCase) -> tuple[PreparedCase, dict | None]:
@@ -54,12 +73,12 @@ def choose_start(prepared: PreparedCase) -> tuple[PreparedCase, dict | None]:
         return prepared, None
     if prepared.spec.start_time_of_day is not None:
         return prepared, {"start_time_of_day_s": cycle.start_time, "basis": BASIS_GIVEN}
-    ranked = []
-    for start in HOURLY_STARTS:
-        candidate = with_start(prepared, start)
-        ranked.append((_severity(candidate), start, candidate))
-    key, start, worst = min(ranked, key=lambda r: (r[0], r[1]))
-    return worst, {"start_time_of_day_s": start, "basis": BASIS_WORST}
+    if prepared.model.arrhenius_sources:
+        keys = [_severity(with_start(prepared, start)) for start in HOURLY_STARTS]
+    else:
+        keys = _closed_form_severities(prepared, HOURLY_STARTS)
+    _, start = min(zip(keys, HOURLY_STARTS))
+    return with_start(prepared, start), {"start_time_of_day_s": start, "basis": BASIS_WORST}
 
 
 def criteria_ambient(model) -> tuple[float, str]:
