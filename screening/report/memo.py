@@ -354,7 +354,10 @@ class _Memo:
 
     def sec_method(self):
         lay = self.lay
-        return [lay.heading(self.numbers["method"], "method")] + lay.prose(lay.T("method.text"))
+        out = [lay.heading(self.numbers["method"], "method")] + lay.prose(lay.T("method.text"))
+        if self.r.get("daily_cycle") is not None:
+            out += lay.prose(lay.T("method.daily_cycle"))
+        return out
 
     def sec_results(self):
         lay = self.lay
@@ -429,12 +432,16 @@ class _Memo:
         steady = self.num("steady_temperature_K")
         mixing = _str(self.r.get("mixing"), "mixing")
         biot = self.num("biot_number")
+        cycle = _mapping(self.r.get("daily_cycle"), "daily_cycle")
+        ambient_label = self.L("ambient_daily_mean") if cycle is not None else self.L("ambient_temperature")
         pairs = [
             (self.L("initial_temperature"), self.temp(self.num("initial_temperature_K"))),
-            (self.L("ambient_temperature"), self.temp(self.num("ambient_temperature_K"))),
+            (ambient_label, self.temp(self.num("ambient_temperature_K"))),
+            *(self._cycle_pairs(cycle) if cycle is not None else []),
             (self.L("peak_temperature"), self.temp(self.num("peak_temperature_K"))),
             (self.L("peak_time"), self.hrs(self.num("peak_time_s"))),
-            (self.L("steady_temperature"), self.temp(steady, self.L("no_steady_state"))),
+            (self.L("steady_daily_mean" if cycle is not None else "steady_temperature"),
+             self.temp(steady, self.L("no_steady_state"))),
             (self.L("time_constant"), self.hrs(tau, self.L("adiabatic_no_loss"))),
             (self.L("adiabatic_rise"), self.esc(self.u.rise(self.num("temperature_rise_K", adiabatic,
                                                                      "adiabatic.temperature_rise_K")))
@@ -452,6 +459,32 @@ class _Memo:
         if _seq(self.r.get("allowable_values"), "allowable_values"):
             out += self.allowable_values()
         return out
+
+    def _cycle_pairs(self, cycle: dict) -> list:
+        """Rows for the daily cycle of the air and the sun (only when the case has one)."""
+        def hours(key):
+            v = _num(cycle.get(key), f"daily_cycle.{key}")
+            return self.esc(f"{v / 3600.0:.4g} h") if v is not None else self.na()
+
+        rng = _num(cycle.get("daily_range_K"), "daily_cycle.daily_range_K")
+        pairs = [(self.L("cycle_air_range"), self.esc(self.u.rise(rng)) if rng is not None else self.na()),
+                 (self.L("cycle_warmest_time"), hours("warmest_time_of_day_s"))]
+        sun = _mapping(cycle.get("sun"), "daily_cycle.sun")
+        if sun is not None:
+            rise = _num(sun.get("sol_air_rise_K"), "daily_cycle.sun.sol_air_rise_K")
+            area = _num(sun.get("exposed_area_m2"), "daily_cycle.sun.exposed_area_m2")
+            share = _num(sun.get("exposed_share"), "daily_cycle.sun.exposed_share")
+            pairs.append((self.L("cycle_sun"), self.esc(
+                self.L("cycle_sun_value", rise=self.u.rise(rise) if rise is not None else "?",
+                       area=f"{area:.4g}" if area is not None else "?",
+                       share=f"{share * 100:.3g}" if share is not None else "?"))))
+        pairs.append((self.L("cycle_effective_max"), self.temp(_num(cycle.get("effective_ambient_max_K"),
+                                                                    "daily_cycle.effective_ambient_max_K"))))
+        basis = _str(cycle.get("start_time_basis"), "daily_cycle.start_time_basis") or ""
+        start = _num(cycle.get("start_time_of_day_s"), "daily_cycle.start_time_of_day_s")
+        pairs.append((self.L("cycle_start"), self.esc(f"{start / 3600.0:.4g} h ({basis})") if start is not None
+                      else self.na()))
+        return pairs
 
     def allowable_values(self) -> list:
         """Rows of input values at which the overall verdict changes (values in the case's units)."""
@@ -714,6 +747,10 @@ class _Memo:
             (self.L("critical_ambient"), ca_txt),
             (self.L("critical_ambient_margin"), self._rise("critical_ambient_margin_K")),
         ]
+        if self.r.get("daily_cycle") is not None:  # the criteria use the daily maximum of air and sun
+            pairs[0] = (self.L("ambient_daily_mean"), self.temp(self.num("ambient_temperature_K")))
+            pairs[2:2] = [(self.L("criteria_ambient"), self.temp(self.num("criteria_ambient_K")))]
+            pairs.append((self.L("margin_daily_mean"), self._rise("critical_ambient_margin_at_daily_mean_K")))
         if method == "semenov":
             pairs += [(self.L("critical_temperature"), self.temp(self.num("critical_temperature_K"))),
                       (self.L("no_return_temperature"), self.temp(self.num("no_return_temperature_K")))]
