@@ -181,3 +181,23 @@ def test_vectorised_engine_agrees_with_one_case_engine():
                 assert np.isnan(out[i, j])
             else:
                 assert abs(out[i, j] - t) < 1e-6
+
+
+def test_conduction_body_with_sol_air_boundary_tends_to_the_lumped_solution():
+    # At a small Biot number (Bi = h R / k = 0.01) the conduction solution tends to the lumped one (Incropera et al.,
+    # ch. 5: lumped capacitance for Bi < 0.1); the sol-air boundary of the conduction model against the exact
+    # lumped response to the same effective ambient (C = rho c V, UA = h A for a sphere, by hand).
+    from screening.core.closed_form_history import linear_balance, temperature
+    from screening.core.daily_cycle import DailyCycle, cycle_forcing
+    from screening.core.transient_conduction import ConductionBody, hot_spot_history
+    from dataclasses import replace
+
+    cycle = DailyCycle(daily_range=10.0, warmest_time=15 * H, start_time=4 * H, solar_rise=5.0, day_length=12 * H)
+    R, rho, c, k, h = 0.1, 1000.0, 1000.0, 100.0, 10.0
+    body = ConductionBody("sphere", R, rho, c, k, h, 300.0, 300.0, daily_cycle=cycle)
+    hist = hot_spot_history(body, [], 2 * DAY, cells=16)
+    C, UA = rho * c * 4.0 / 3.0 * math.pi * R ** 3, h * 4.0 * math.pi * R ** 2
+    lumped = replace(linear_balance(C, UA, 300.0, 300.0), forcing=cycle_forcing(cycle, UA))
+    T = temperature(lumped, hist.time)
+    assert np.max(np.abs(hist.centre - T)) < 0.05  # K, against a swing of about 15 K
+    assert np.max(hist.hot_spot) > 300.0 + 5.0
