@@ -38,6 +38,21 @@ def _severity(prepared: PreparedCase) -> tuple:
     return (min(times) if times else math.inf, -hist.peak_temperature)
 
 
+def _arrhenius_severities(prepared: PreparedCase, starts) -> list[tuple]:
+    """Sort keys of every start: all starts at once through the vectorised Rosenbrock integrator (with the
+    forcing), or one integration each when that engine does not take the case (boiling credit)."""
+    from screening.core.arrhenius_history_batch import first_crossing_times_arrhenius, samples_from_models
+
+    models = [with_start(prepared, start).model for start in starts]
+    try:
+        params, limits, horizon = samples_from_models(models)
+    except ValueError:
+        return [_severity(with_start(prepared, start)) for start in starts]
+    screen = first_crossing_times_arrhenius(params, limits, horizon)
+    first = np.where(np.isnan(screen.times), np.inf, screen.times).min(axis=1)
+    return [(float(t), -float(p)) for t, p in zip(first, screen.peak_temperature)]
+
+
 def _closed_form_severities(prepared: PreparedCase, starts) -> list[tuple]:
     """Sort keys of every start at once: the vectorised closed form (the same history as the one-case engine)."""
     model = prepared.model
@@ -74,7 +89,7 @@ def choose_start(prepared: PreparedCase) -> tuple[PreparedCase, dict | None]:
     if prepared.spec.start_time_of_day is not None:
         return prepared, {"start_time_of_day_s": cycle.start_time, "basis": BASIS_GIVEN}
     if prepared.model.arrhenius_sources:
-        keys = [_severity(with_start(prepared, start)) for start in HOURLY_STARTS]
+        keys = _arrhenius_severities(prepared, HOURLY_STARTS)
     else:
         keys = _closed_form_severities(prepared, HOURLY_STARTS)
     _, start = min(zip(keys, HOURLY_STARTS))
