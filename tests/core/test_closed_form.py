@@ -78,7 +78,7 @@ def rise_scale(case) -> float:
     return max(s, 1.0)
 
 
-def reference_solution(case, events=(), dense=False, max_step=np.inf):
+def reference_solution(case, events=(), dense=False, max_step=np.inf, rtol=1e-11):
     """solve_ivp on the balance written term by term, for theta = T - T0 (so atol is relative to the rise)."""
     C, UA, Ta, T0, P0 = case["C"], case["UA"], case["Ta"], case["T0"], case["P0"]
     P, inv_a = np.array(case["P"], dtype=float), 1.0 / np.array(case["a"], dtype=float)
@@ -89,7 +89,7 @@ def reference_solution(case, events=(), dense=False, max_step=np.inf):
         return [(P0 + P @ np.exp(-t * inv_a) + mua @ (mT - T) - UA * (T - Ta)) / C]
 
     S = rise_scale(case)
-    return solve_ivp(rhs, (0.0, case["H"]), [0.0], method="DOP853", rtol=1e-11, atol=1e-13 * S,
+    return solve_ivp(rhs, (0.0, case["H"]), [0.0], method="DOP853", rtol=rtol, atol=rtol * 1e-2 * S,
                      events=list(events) or None, dense_output=dense, max_step=max_step), rhs
 
 
@@ -103,9 +103,11 @@ def sample_times(H):
 @FAST
 @given(cases())
 def test_temperature_matches_solve_ivp(case):
-    # Reference: scipy.integrate.solve_ivp (DOP853, rtol 1e-11) on the balance itself.
+    # Reference: scipy.integrate.solve_ivp (DOP853, rtol 1e-13) on the balance itself, read through its dense
+    # output; at rtol 1e-11 the interpolant between steps was seen 2.5e-6 K off on one drawn case (the closed
+    # form agreed with mpmath there), so the reference is run tighter than the 1e-8 tolerance it checks.
     ts = sample_times(case["H"])
-    sol, _ = reference_solution(case, dense=True)
+    sol, _ = reference_solution(case, dense=True, rtol=1e-13)
     assert sol.success
     ref = case["T0"] + sol.sol(ts)[0]
     got = temperature(balance_of(case), ts)
