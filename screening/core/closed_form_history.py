@@ -368,7 +368,8 @@ def steady_temperature(balance: LinearBalance):
               T_\infty = T_0 + \frac{\sum_i P_i a_i}{C} \quad (G = 0,\ Q_0 = 0)
 
     With G > 0 it is the stable steady state Q0 / G (decaying sources have died
-    away).  With G = 0 (adiabatic) the contents settle only when there is no
+    away); with a daily cycle, the daily mean of the periodic state (the sun's mean drive
+    added to Q0).  With G = 0 (adiabatic) the contents settle only when there is no
     constant drive: at T0 + sum P_i a_i / C.
 
     References
@@ -396,6 +397,9 @@ def steady_temperature(balance: LinearBalance):
         energy = (np.where(b > 0, P / np.where(b > 0, b, 1.0), np.inf * (P > 0))).sum(axis=-1) if P.size else 0.0
         adiabatic = np.where((Q0 == 0) & np.isfinite(energy),
                              np.asarray(balance.initial_temperature) + energy / C, np.nan)
+        if balance.forcing is not None:  # the daily mean of the periodic state: the sun's mean drive added
+            Q0 = Q0 + np.asarray(balance.forcing.solar, dtype=float) * 2.0 * np.asarray(
+                balance.forcing.day_length, dtype=float) / (np.pi * DAY)
         out = np.where(G > 0, Q0 / np.where(G > 0, G, 1.0), adiabatic)
     return out if np.ndim(out) else float(out)
 

@@ -52,7 +52,7 @@ DEFAULT_OUTER_COEFFICIENT = 15.0  #: W/(m^2 K), outer film with wind and radiati
 MIN_ELEVATION = math.radians(30.0)  #: lowest solar elevation counted for the ``projected`` exposed area
 
 __all__ = ["DAY", "DailyCycle", "CycleForcing", "air_temperature", "irradiance_fraction", "sol_air_temperature",
-           "effective_ambient", "daily_maximum", "largest_projection", "cycle_forcing", "cycle_response",
+           "effective_ambient", "daily_maximum", "mean_rise", "largest_projection", "cycle_forcing", "cycle_response",
            "day_knots"]
 
 
@@ -404,6 +404,38 @@ def cycle_forcing(cycle: DailyCycle | None, ua: float, time_shift: float = 0.0) 
         return None
     return CycleForcing(0.5 * ua * cycle.daily_range, cycle.warmest_time, ua * cycle.solar_rise, cycle.day_length,
                         math.fmod(cycle.start_time + time_shift, DAY))
+
+
+def mean_rise(cycle: DailyCycle | None) -> float:
+    r"""Daily mean of the effective ambient above the air's daily mean, K (the sun's half sine averaged over 24 h).
+
+    Parameters
+    ----------
+    cycle : DailyCycle or None
+
+    Returns
+    -------
+    float, [K]
+        0 without a cycle or without sun.
+
+    Notes
+    -----
+    .. math:: \overline{T_{eff}} - \bar T_a = \Delta_{sun} \frac{1}{24\,\mathrm{h}} \int_0^D \sin\frac{\pi u}{D}\,du
+              = \Delta_{sun} \frac{2 D}{\pi \cdot 24\,\mathrm{h}}
+
+    (the air's cosine averages to zero). A linear lumped body settles into a periodic state whose daily mean is
+    the daily mean of its effective ambient (plus its own drive / UA).
+
+    Examples
+    --------
+    By hand: a 10.68 K solar rise over a 15 h day: 10.68 x 30 / (24 pi) = 4.2494 K:
+
+    >>> round(mean_rise(DailyCycle(14.0, 54000.0, 0.0, 10.68, 15 * 3600.0)), 4)
+    4.2494
+    """
+    if cycle is None:
+        return 0.0
+    return cycle.solar_rise * 2.0 * cycle.day_length / (math.pi * DAY)
 
 
 def day_knots(forcing: CycleForcing, horizon: float) -> np.ndarray:

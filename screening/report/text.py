@@ -248,7 +248,7 @@ def _cycle_lines(r: dict, cycle: dict, u: str) -> list[str]:
                    f"{sun['exposed_share'] * 100:.3g} % of the heat-loss area), h_o "
                    f"{sun['outer_coefficient_W_per_m2K']:.3g} W/(m^2*K): sol-air rise {dtemp(sun['sol_air_rise_K'], u)} "
                    f"at noon on the contents' share; day {hours(sun['day_length_s'])}")
-    out.append(f"Effective ambient: daily maximum {temp(cycle['effective_ambient_max_K'], u)} at "
-               f"{hours(cycle['effective_ambient_max_time_of_day_s'])}; criteria use "
-               f"{temp(r.get('criteria_ambient_K'), u)} ({r.get('criteria_ambient_basis')})")
+    out.append(f"Effective ambient (the air and the sun's share): daily maximum "
+               f"{temp(cycle['effective_ambient_max_K'], u)} at {hours(cycle['effective_ambient_max_time_of_day_s'])}; "
+               f"the critical-ambient criteria compare with {temp(r.get('criteria_ambient_K'), u)}")
     return [_wrap(line, "") for line in out]

@@ -9,7 +9,7 @@ from screening.case.display import dtemp, temp
 from screening.case.prepare import PreparedCase
 import numpy as np
 
-from screening.core.closed_form_history import balance_of
+from screening.core.closed_form_history import balance_of, temperature
 from screening.core.daily_cycle import DAY, CycleForcing, daily_maximum
 from screening.core.daily_cycle_batch import first_crossing_times_cycle
 
@@ -94,6 +94,29 @@ def choose_start(prepared: PreparedCase) -> tuple[PreparedCase, dict | None]:
         keys = _closed_form_severities(prepared, HOURLY_STARTS)
     _, start = min(zip(keys, HOURLY_STARTS))
     return with_start(prepared, start), {"start_time_of_day_s": start, "basis": BASIS_WORST}
+
+
+def periodic_peak(model, balance) -> float:
+    """The daily peak of the contents once settled into the daily cycle (the periodic state), K.
+
+    The exact history evaluated over one day, a whole number of days after the horizon and 40 of the slowest time
+    constants (vessel, decaying sources) later, when the start's transient is gone (e^-40), every minute.
+    """
+    C, G = float(balance.heat_capacity), float(balance.conductance)
+    slow = max([C / G] + [s.time_constant for s in model.decaying_sources])
+    t0 = model.horizon + math.ceil(40.0 * slow / DAY) * DAY
+    return float(np.max(temperature(balance, t0 + np.linspace(0.0, DAY, 1441))))
+
+
+def climbing_peaks_warning(model, balance, peak: float, unit: str) -> str | None:
+    """With a daily cycle: a warning when the daily peaks still climb at the horizon (the periodic state's peak is
+    above the peak within the horizon), else None. Rising or falling at the horizon itself is only the time of day."""
+    settled = periodic_peak(model, balance)
+    if settled <= peak + 0.01:
+        return None
+    return (f"The daily peaks are still climbing at the end of the horizon: settled into the daily cycle, the "
+            f"contents would peak at {temp(settled, unit)} each day (now {temp(peak, unit)}). A limit not reached "
+            f"within the horizon may be reached later.")
 
 
 def criteria_ambient(model) -> tuple[float, str]:
