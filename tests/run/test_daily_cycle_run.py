@@ -240,3 +240,14 @@ def test_json_keys_and_daily_mean_wording(run_cli):
         assert key in r
     text = run_cli("check", "screening/demo_cases/fw-d52-drum-yard.yaml").stdout
     assert "(daily mean)" in text and "sunlit side" in text
+
+
+def test_margin_scan_keeps_absorptivity_and_times_of_day_possible(run_cli):
+    # absorptivity is a fraction of the incident flux (at most 1) and a time of day lies in [0, 24 h): the
+    # allowable-values scan stays within them (by definition)
+    out = run_cli("margin", "screening/demo_cases/fw-d52-drum-yard.yaml", "--vary", "sun.absorptivity")
+    assert out.returncode in (0, 1), out.stderr
+    assert "scanned 0.14 to 1 1" in out.stdout
+    out = run_cli("margin", "screening/demo_cases/fw-d52-drum-yard.yaml", "--vary", "heat_loss.warmest_time_of_day")
+    assert out.returncode in (0, 1), out.stderr
+    assert "to 24 h" in out.stdout or "to 86400" in out.stdout or "to 1440 min" in out.stdout, out.stdout
