@@ -413,6 +413,7 @@ def _storage_gap(r):
 
 @_safe
 def _q_criteria_ambient(r):
+    """The ambient of the criteria: ``criteria_ambient_K`` (a daily cycle's daily maximum), else the ambient."""
     v = _num(r, "criteria_ambient_K") if r.get("criteria_ambient_K") is not None else _num(r, "ambient_temperature_K")
     if v is None:
         return _Missing(UNKNOWN, "ambient temperature not in the result")
@@ -727,11 +728,9 @@ def _quantity_table() -> dict[str, Quantity]:
                  _safe(_plain("initial_temperature_K", UNKNOWN, "initial temperature not in the result"))),
         Quantity("start_temperature", TEMPERATURE, "temperature the history starts at: the initial temperature, "
                  "plus the heat of a synthesis given without kinetics, released at t = 0", _q_start_temperature),
-        Quantity("ambient_temperature", TEMPERATURE, "ambient temperature",
-                 _safe(_plain("ambient_temperature_K", UNKNOWN, "ambient temperature not in the result"))),
-        Quantity("criteria_ambient", TEMPERATURE, "the ambient the critical-ambient criterion compares with: "
-                 "the daily maximum of the effective ambient (air and sun) with a daily cycle, else the ambient "
-                 "temperature", _q_criteria_ambient),
+        Quantity("ambient_temperature", TEMPERATURE, "ambient temperature (with a daily cycle of the air and the "
+                 "sun: the daily maximum of the effective ambient, which the criteria compare with)",
+                 _q_criteria_ambient),
         Quantity("peak_temperature", TEMPERATURE, "highest temperature within the horizon",
                  _safe(_plain("peak_temperature_K", UNKNOWN, "peak temperature not in the result"))),
         Quantity("peak_time", TIME, "time of the highest temperature",
