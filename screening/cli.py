@@ -239,13 +239,34 @@ def batch(register: Path = typer.Argument(..., help="Register of vessels (.csv o
           base: Optional[Path] = typer.Option(None, "--base", help="Base case file supplying what a row does not."),
           rules: Optional[str] = typer.Option(None, "--rules", help="Rule set file (TOML)."),
           memos: bool = typer.Option(False, "--memos", help="Also write one memo per case into OUT/memos/."),
-          templates: Optional[Path] = typer.Option(None, "--templates", help="Folder of memo templates.")):
+          templates: Optional[Path] = typer.Option(None, "--templates", help="Folder of memo templates."),
+          scheduler: Optional[str] = typer.Option(
+              None, "--scheduler", help="Screen on a Dask cluster: the scheduler's address (tls://HOST:PORT; "
+                                        "tcp:// only on loopback unless --insecure-cluster). Default: "
+                                        "$HEATSCREEN_SCHEDULER if set, else this machine. Needs heatscreen[cluster]."),
+          insecure_cluster: bool = typer.Option(
+              False, "--insecure-cluster", help="Allow a plain tcp:// scheduler address other than loopback "
+                                                "(no authentication, no encryption: a trusted, isolated network only)."),
+          tls_ca: Optional[Path] = typer.Option(None, "--tls-ca", help="tls://: CA certificate (PEM) that signed the "
+                                                                       "scheduler's and workers' certificates."),
+          tls_cert: Optional[Path] = typer.Option(None, "--tls-cert", help="tls://: this client's certificate (PEM)."),
+          tls_key: Optional[Path] = typer.Option(None, "--tls-key", help="tls://: this client's private key (PEM).")):
     """Screen every row of a register; bad rows are reported by row and field, good rows still screened."""
 
     def body():
         from screening.register.batch import run_batch
         from screening.register.reading import RegisterError
 
+        cluster = None
+        if scheduler or os.environ.get("HEATSCREEN_SCHEDULER", "").strip() or insecure_cluster or tls_ca \
+                or tls_cert or tls_key:
+            from screening.register.cluster import options_from
+
+            cluster = options_from(scheduler, insecure_cluster, tls_ca, tls_cert, tls_key)
+            for warning in cluster.check():
+                _echo(warning, err=True)
+            _echo(f"screening on cluster {cluster.address}"
+                  + (" (from HEATSCREEN_SCHEDULER)" if cluster.from_environment else ""), err=True)
         progress = None
         bar = None
         if sys.stderr.isatty():
@@ -253,7 +274,7 @@ def batch(register: Path = typer.Argument(..., help="Register of vessels (.csv o
             progress = bar.advance
         try:
             summary = run_batch(register, out, base_path=base, rules_path=rules, memos=memos, progress=progress,
-                                templates_dir=templates)
+                                templates_dir=templates, cluster=cluster)
         except RegisterError as exc:
             _echo(f"register: {exc.message}", err=True)
             return EXIT_INVALID
@@ -399,6 +420,121 @@ def example(output: Optional[Path] = typer.Argument(None, help="Where to write i
             return EXIT_INVALID
         _write_output_text(output, text, "OUTPUT")
         _echo(f"wrote {output}")
+        return EXIT_OK
+
+    raise typer.Exit(_guard(body))
+
+
+@app.command()
+def kinetics(
+        runs: list[Path] = typer.Argument(..., help="Calorimeter runs: CSV files whose header gives each column "
+                                                    "with its unit in square brackets (time, temperature, heat_flow; "
+                                                    "adiabatic runs: time, temperature, optionally self_heat_rate)."),
+        json_out: bool = typer.Option(False, "--json", help="Print the result as JSON."),
+        exo_down: bool = typer.Option(False, "--exo-down", help="The instrument plots exotherms negative."),
+        sample_mass: Optional[str] = typer.Option(None, "--sample-mass", help="Sample mass, for an absolute heat "
+                                                                            "flow (e.g. '3.2 mg'); with --adiabatic, "
+                                                                            "for phi."),
+        limits: Optional[tuple[str, str]] = typer.Option(None, "--range", help="Integration limits LOW HIGH "
+                                                                               "(temperatures; times with "
+                                                                               "--isothermal)."),
+        mass_fraction: Optional[str] = typer.Option(None, "--mass-fraction", help="Share of the tested substance "
+                                                                                "in the case's contents (e.g. "
+                                                                                "'40 %'): scales the heat."),
+        isothermal: bool = typer.Option(False, "--isothermal", help="The runs are isothermal holds."),
+        adiabatic: bool = typer.Option(False, "--adiabatic", help="One adiabatic (accelerating-rate) run."),
+        phi: Optional[float] = typer.Option(None, "--phi", help="Thermal-inertia factor of the adiabatic run."),
+        sample_specific_heat: Optional[str] = typer.Option(None, "--sample-specific-heat",
+                                                           help="Adiabatic run: the sample's specific heat."),
+        cell_mass: Optional[str] = typer.Option(None, "--cell-mass", help="Adiabatic run: mass of the cell, for phi."),
+        cell_specific_heat: Optional[str] = typer.Option(None, "--cell-specific-heat",
+                                                         help="Adiabatic run: the cell's specific heat, for phi."),
+        onset_threshold: Optional[str] = typer.Option(None, "--onset-threshold",
+                                                      help="Adiabatic run: detection threshold of the self-heat "
+                                                           "rate (default '0.02 K/min')."),
+        temperature_of_interest: Optional[str] = typer.Option(
+            None, "--temperature-of-interest", help="Lowest temperature of interest (e.g. storage), where the "
+                                                    "models' TMRad are compared (default: low end of the data)."),
+        specific_heat: Optional[str] = typer.Option(None, "--specific-heat", help="Specific heat of the contents "
+                                                                                 "for the TMRad comparison "
+                                                                                 "(default 2 kJ/(kg*K))."),
+        source_out: Optional[Path] = typer.Option(None, "--source-out", help="Write the heat-source block and "
+                                                                             "its uncertainty entries (YAML)."),
+        source_index: int = typer.Option(0, "--source-index", min=0, help="Position of the source in the case's "
+                                                                          "heat_sources (for the uncertainty "
+                                                                          "paths)."),
+        label: Optional[str] = typer.Option(None, "--label", help="Label of the source block."),
+        plot: Optional[Path] = typer.Option(None, "--plot", help="Draw the data against the fitted models (PDF)."),
+):
+    """Kinetics from calorimeter runs: DSC at several heating rates, isothermal or adiabatic runs."""
+
+    def body():
+        from screening.case.calorimeter_runs import parse_option_quantity, read_run
+        from screening.case.schema import CaseError, FieldProblem
+        from screening.report.kinetics_text import format_kinetics
+        from screening.result import json_safe
+        from screening.run.kinetics_analysis import KineticsOptions, analyse_adiabatic, analyse_dsc
+
+        if isothermal and adiabatic:
+            raise CaseError([FieldProblem("--isothermal", "give --isothermal or --adiabatic, not both")])
+        if adiabatic and len(runs) != 1:
+            raise CaseError([FieldProblem("--adiabatic", f"{len(runs)} runs given; expected one adiabatic run")])
+        for option, path in (("--source-out", source_out), ("--plot", plot)):
+            if path is not None:
+                from screening.register.output_set import check_single_output
+
+                check_single_output(path, option, inputs=runs)
+        q = lambda text, dim, opt: None if text is None else parse_option_quantity(text, dim, opt)  # noqa: E731
+        fraction = 1.0 if mass_fraction is None else q(mass_fraction, "fraction", "--mass-fraction")
+        if not 0 < fraction <= 1:
+            raise CaseError([FieldProblem("--mass-fraction", f"'{mass_fraction}' must be above 0 and at most 100 %")])
+        window = None
+        if limits is not None:
+            dim = "time" if isothermal else "temperature"
+            window = (q(limits[0], dim, "--range"), q(limits[1], dim, "--range"))
+            if not window[0] < window[1]:
+                raise CaseError([FieldProblem("--range", f"the low end ({limits[0]}) is not below the high end "
+                                                         f"({limits[1]}); expected LOW HIGH")])
+        threshold = None
+        if onset_threshold is not None:
+            from screening.case.calorimeter_runs import rate_quantity
+
+            threshold = rate_quantity(onset_threshold, "--onset-threshold")
+        options = KineticsOptions(
+            exo_down=exo_down, sample_mass=q(sample_mass, "mass", "--sample-mass"), limits=window,
+            mass_fraction=fraction, isothermal=isothermal,
+            temperature_of_interest=q(temperature_of_interest, "temperature", "--temperature-of-interest"),
+            specific_heat=q(specific_heat, "specific_heat", "--specific-heat"), source_index=source_index,
+            label=label, phi=phi, sample_specific_heat=q(sample_specific_heat, "specific_heat",
+                                                         "--sample-specific-heat"),
+            cell_mass=q(cell_mass, "mass", "--cell-mass"),
+            cell_specific_heat=q(cell_specific_heat, "specific_heat", "--cell-specific-heat"),
+            **({"onset_threshold": threshold} if threshold is not None else {}))
+        kind = "adiabatic" if adiabatic else "dsc"
+        data = [read_run(path, kind, sample_mass=None if adiabatic else options.sample_mass) for path in runs]
+        if sys.stderr.isatty() and not adiabatic:
+            _echo(f"fitting the n-th-order and autocatalytic models to {len(data)} runs ...", err=True)
+        result = analyse_adiabatic(data[0], options) if adiabatic else analyse_dsc(data, options)
+        if source_out is not None:
+            from screening.run.kinetics_analysis import source_yaml
+
+            _write_output_text(source_out, source_yaml(result), "--source-out")
+        if plot is not None:
+            from screening.report.kinetics_plot import write_kinetics_plot
+
+            try:
+                write_kinetics_plot(plot, result)
+            except OSError as exc:
+                raise CaseError([FieldProblem("--plot", f"cannot write {plot}: {exc.strerror or exc}; expected a "
+                                                        f"path in an existing, writable folder")]) from None
+        if json_out:
+            public = {k: v for k, v in result.items() if not k.startswith("_")}
+            _echo(json.dumps(json_safe(public), indent=2))
+        else:
+            _echo(format_kinetics(result))
+            for path, what in ((source_out, "source block"), (plot, "plot")):
+                if path is not None:
+                    _echo(f"wrote the {what} to {path}")
         return EXIT_OK
 
     raise typer.Exit(_guard(body))

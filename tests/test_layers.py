@@ -148,7 +148,8 @@ def test_check_of_a_closed_form_case_loads_no_heavy_module(case):
             f"sys.argv = ['heatscreen', 'check', 'screening/demo_cases/{case}', '--json']\n"
             "with contextlib.redirect_stdout(io.StringIO()):\n"
             "    try:\n        run()\n    except SystemExit:\n        pass\n"
-            "heavy = ('scipy.integrate', 'scipy.optimize', 'reportlab', 'fastapi', 'openpyxl', 'sympy')\n"
+            "heavy = ('scipy.integrate', 'scipy.optimize', 'reportlab', 'fastapi', 'openpyxl', 'sympy', 'dask', "
+            "'distributed')\n"
             "print(sorted({m for m in sys.modules if m.startswith(heavy)}))\n")
     out = subprocess.run([sys.executable, "-c", code], cwd=PACKAGE.parent, capture_output=True, text=True,
                          check=True, timeout=120)

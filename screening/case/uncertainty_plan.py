@@ -6,6 +6,11 @@ case's own value (``sd: 10 %``, or a ``gsd`` about it), so one block in a regist
 base case applies to every row's own values. Samples are drawn with numpy's PCG64
 generator or, as an option, by Latin hypercube sampling (``scipy.stats.qmc``);
 physically impossible samples are rejected and counted, never clipped.
+
+Inputs may be correlated: ``correlation: {inputs: [path, ...], matrix: [[1, r], [r, 1]]}`` names normal or
+lognormal inputs and their correlation matrix.  Sampling is then correlated normal (a Gaussian copula: the
+inputs' standard normal scores are drawn with that correlation), so the matrix is the correlation of the
+values of a normal input and of the logarithm of a lognormal one; inputs not named stay independent.
 """
 from __future__ import annotations
 
@@ -47,6 +52,7 @@ class UncertaintyPlan:
     samples: int
     seed: int
     sampling: str  # "random" | "latin-hypercube"
+    correlation: tuple | None = None  # (indices into inputs, correlation matrix as a tuple of rows)
 
 
 def _param(raw, dimension: str, nominal: float, where: str, problems: list, relative_ok: bool,
@@ -100,7 +106,7 @@ def plan_uncertainty(spec: CaseSpec) -> UncertaintyPlan | None:
     problems: list[FieldProblem] = []
     if not isinstance(block, dict):
         raise CaseError([FieldProblem("uncertainty", "expected a mapping with samples, seed and inputs")])
-    allowed = {"samples", "seed", "inputs", "sampling"}
+    allowed = {"samples", "seed", "inputs", "sampling", "correlation"}
     for key in block:
         if key not in allowed:
             problems.append(FieldProblem(f"uncertainty.{key}", f"unknown field '{key}'; expected one of: "
@@ -192,9 +198,66 @@ def plan_uncertainty(spec: CaseSpec) -> UncertaintyPlan | None:
             p = {"median": median, "gsd": float(gsd) if isinstance(gsd, (int, float)) else None}
         unit = q.text.split(None, 1)[1] if len(q.text.split(None, 1)) == 2 else ""
         inputs.append(UncertainInput(str(path), parts, kind, p, nominal, dim, marker.check, unit))
+    correlation = None
+    if "correlation" in block and not problems:
+        correlation = _plan_correlation(block["correlation"], inputs, problems)
     if problems:
         raise CaseError(problems)
-    return UncertaintyPlan(tuple(inputs), int(samples), int(seed), sampling)
+    return UncertaintyPlan(tuple(inputs), int(samples), int(seed), sampling, correlation)
+
+
+def _plan_correlation(raw, inputs, problems):
+    """Validate ``uncertainty.correlation``: named normal/lognormal inputs and a valid correlation matrix."""
+    where = "uncertainty.correlation"
+    if not isinstance(raw, dict) or set(raw) - {"inputs", "matrix"} or "inputs" not in raw or "matrix" not in raw:
+        problems.append(FieldProblem(where, "expected {inputs: [dotted paths of uncertain inputs], matrix: "
+                                            "[[1, r], [r, 1]]}"))
+        return None
+    names = raw["inputs"]
+    if not isinstance(names, list) or len(names) < 2 or not all(isinstance(n, str) for n in names):
+        problems.append(FieldProblem(f"{where}.inputs", "expected a list of two or more input paths"))
+        return None
+    index = {inp.path: i for i, inp in enumerate(inputs)}
+    picked = []
+    for j, name in enumerate(names):
+        if name not in index:
+            problems.append(FieldProblem(f"{where}.inputs.{j}", f"'{name}' is not one of uncertainty.inputs; "
+                                                                f"expected one of: {', '.join(index)}"))
+        elif inputs[index[name]].distribution not in ("normal", "lognormal"):
+            problems.append(FieldProblem(f"{where}.inputs.{j}", f"'{name}' has a {inputs[index[name]].distribution} "
+                                                                f"distribution; correlated inputs must be normal "
+                                                                f"or lognormal"))
+        elif index[name] in picked:
+            problems.append(FieldProblem(f"{where}.inputs.{j}", f"'{name}' is named twice"))
+        else:
+            picked.append(index[name])
+    if len(picked) != len(names):
+        return None
+    d = len(names)
+    matrix = raw["matrix"]
+    if (not isinstance(matrix, list) or len(matrix) != d
+            or not all(isinstance(row, list) and len(row) == d for row in matrix)):
+        problems.append(FieldProblem(f"{where}.matrix", f"expected a {d} x {d} matrix (a list of {d} rows of "
+                                                        f"{d} numbers), one row and column per named input"))
+        return None
+    values = np.zeros((d, d))
+    for i, row in enumerate(matrix):
+        for j, v in enumerate(row):
+            if isinstance(v, bool) or not isinstance(v, (int, float)) or not math.isfinite(v) or abs(v) > 1:
+                problems.append(FieldProblem(f"{where}.matrix.{i}.{j}", f"expected a number from -1 to 1, got "
+                                                                        f"{v!r}"))
+                return None
+            values[i, j] = v
+    if not np.allclose(np.diag(values), 1.0):
+        problems.append(FieldProblem(f"{where}.matrix", "the diagonal must be 1 (each input with itself)"))
+    elif not np.allclose(values, values.T, atol=1e-12):
+        problems.append(FieldProblem(f"{where}.matrix", "must be symmetric (row i, column j equal to row j, column i)"))
+    elif np.linalg.eigvalsh(values).min() < -1e-9:
+        problems.append(FieldProblem(f"{where}.matrix", "is not a correlation matrix (not positive semi-definite: "
+                                                        "some of its correlations contradict the others)"))
+    else:
+        return tuple(picked), tuple(tuple(float(v) for v in row) for row in values)
+    return None
 
 
 # ------------------------------------------------------------------ sampling
@@ -229,7 +292,30 @@ def draw(plan: UncertaintyPlan) -> np.ndarray:
     else:
         u = np.random.default_rng(plan.seed).random((plan.samples, d))
     u = np.clip(u, 1e-15, 1 - 1e-15)
+    if plan.correlation is not None:
+        u = correlate_uniforms(u, *plan.correlation)
     return np.column_stack([_ppf(inp, u[:, j]) for j, inp in enumerate(plan.inputs)])
+
+
+def correlate_uniforms(u: np.ndarray, columns, matrix) -> np.ndarray:
+    """Give the named columns of independent uniform samples the correlation ``matrix`` of their normal scores.
+
+    z = Phi^-1(u) are independent standard normals; z L^T, with L L^T the matrix (Cholesky, or a symmetric
+    square root when the matrix is only semi-definite), has that correlation; u = Phi(z L^T) again.
+    """
+    from scipy import stats
+
+    cols = list(columns)
+    c = np.asarray(matrix, dtype=float)
+    try:
+        root = np.linalg.cholesky(c)
+    except np.linalg.LinAlgError:
+        w, v = np.linalg.eigh(c)
+        root = v @ np.diag(np.sqrt(np.clip(w, 0.0, None)))
+    out = u.copy()
+    z = stats.norm.ppf(u[:, cols]) @ root.T
+    out[:, cols] = np.clip(stats.norm.cdf(z), 1e-15, 1 - 1e-15)
+    return out
 
 
 def physically_possible(inp: UncertainInput, values: np.ndarray) -> np.ndarray:

@@ -27,7 +27,7 @@ from pathlib import Path
 from screening import verdict as rules_mod
 from screening.fileio import environment_problem, short_path
 from screening.workers import die_with_parent, stop_pool
-from screening.register.chunks import ChunkResult, ChunkWork, RowOutcome, screen_chunk
+from screening.register.chunks import ChunkResult, ChunkWork, RowOutcome, screen_chunk, validate_chunk, write_parts
 from screening.register.output_set import (
     check_inputs_outside,
     check_output_folder,
@@ -43,6 +43,7 @@ from screening.register.outputs import (
 )
 from screening.register.reading import Register, read_register
 from screening.register.rows import load_base
+from screening.report.memo import write_memo
 from screening.report.register_summary import write_register_summary
 
 PARALLEL_THRESHOLD = 4000  # rows; below this a single process is faster than starting workers
@@ -63,32 +64,47 @@ class BatchSummary:
 
 
 def run_batch(register_path, out_dir, base_path=None, rules_path=None, memos=False, allow_case_file_column=True,
-              progress=None, templates_dir=None, workers: int | None = None) -> dict:
+              progress=None, templates_dir=None, workers: int | None = None, cluster=None) -> dict:
     """Screen a register and write the output set; returns a summary dict.
 
     Raises OutputFolderError (``out_dir`` holds files that are not a previous output set),
     RegisterError (the file cannot be read at all), CaseError (the base case cannot be read)
     or RuleSetError (bad rule file) before anything is written.
+
+    ``cluster`` (a :class:`screening.register.cluster.ClusterOptions`) screens the chunks on a Dask
+    cluster: this process still reads, validates and writes everything; ClusterError (exit 2) when the
+    address is refused, the scheduler cannot be reached or a worker's versions differ from ours.
     """
+    if cluster is not None:
+        cluster.check()  # an unsafe address is refused before anything else
     target = check_output_folder(out_dir)  # before any work: nothing is written into a folder it may not replace
     check_inputs_outside(target, (register_path, base_path, rules_path, templates_dir))
     rules_mod.load_rule_set(rules_path)  # fail early, before any work
     register = read_register(register_path)
     base = load_base(base_path)
     out = Path(out_dir)
-    tmp = new_build_folder(target)
+    backend = None
+    if cluster is not None:
+        from screening.register.cluster import DaskBackend
+
+        backend = DaskBackend(cluster).__enter__()  # connected, every worker's versions checked: nothing written yet
     try:
-        summary = _run_into(register, base, tmp, out, rules_path, memos, allow_case_file_column, progress,
-                            templates_dir, workers)
-        write_marker(tmp, "batch")
-        swap_in(tmp, target)
-    except BaseException as exc:
-        discard(tmp)
-        problem = environment_problem(exc, f"--out {short_path(out)}: cannot write the output set in "
-                                           f"{short_path(target.parent)}")
-        if problem is not None and problem is not exc:  # e.g. the disk full: the user's environment, exit 2
-            raise problem from None
-        raise
+        tmp = new_build_folder(target)
+        try:
+            summary = _run_into(register, base, tmp, out, rules_path, memos, allow_case_file_column, progress,
+                                templates_dir, workers, backend)
+            write_marker(tmp, "batch")
+            swap_in(tmp, target)
+        except BaseException as exc:
+            discard(tmp)
+            problem = environment_problem(exc, f"--out {short_path(out)}: cannot write the output set in "
+                                               f"{short_path(target.parent)}")
+            if problem is not None and problem is not exc:  # e.g. the disk full: the user's environment, exit 2
+                raise problem from None
+            raise
+    finally:
+        if backend is not None:
+            backend.close()
     return summary.as_dict()
 
 
@@ -103,28 +119,30 @@ def _chunks(n: int, workers: int) -> list[tuple[int, int]]:
 
 
 def _run_into(register: Register, base: dict, tmp: Path, out: Path, rules_path, memos, allow_case_file, progress,
-              templates_dir, workers) -> BatchSummary:
+              templates_dir, workers, cluster=None) -> BatchSummary:
     import gc
 
     enabled = gc.isenabled()
     gc.disable()  # hundreds of thousands of small objects: the cyclic collector only costs time here
     try:
         return _run_into_body(register, base, tmp, out, rules_path, memos, allow_case_file, progress,
-                              templates_dir, workers)
+                              templates_dir, workers, cluster)
     finally:
         if enabled:
             gc.enable()
 
 
 def _run_into_body(register: Register, base: dict, tmp: Path, out: Path, rules_path, memos, allow_case_file,
-                   progress, templates_dir, workers) -> BatchSummary:
+                   progress, templates_dir, workers, cluster=None) -> BatchSummary:
     id_col = next((c.index for c in register.columns if c.path == ("id",)), None)
     memos_dir = None
     if memos:
         memos_dir = tmp / "memos"
         memos_dir.mkdir()
     n = len(register.rows)
-    if workers is None:
+    if cluster is not None:
+        workers = cluster.threads()  # chunks as a local run with as many worker processes would make
+    elif workers is None:
         heavy = (memos and n >= 8) or (isinstance(base.get("uncertainty"), dict) and n >= 20)
         workers = min(2, os.cpu_count() or 1) if (n >= PARALLEL_THRESHOLD or heavy) else 1
     spans = _chunks(n, workers)
@@ -138,6 +156,11 @@ def _run_into_body(register: Register, base: dict, tmp: Path, out: Path, rules_p
         numbers = register.row_numbers[a:b]
         cell_problems = {n: register.cell_problems[n] for n in numbers if n in register.cell_problems} \
             if register.cell_problems else {}
+        if cluster is not None:  # validated here; the workers get memo views back to this process, no path
+            return ChunkWork(register.columns, base, str(register.path.parent), allow_case_file, rules_path,
+                             register.rows[a:b], numbers, id_col, register.bad_columns, None,
+                             str(templates_dir) if templates_dir else None, base_digest, None, cell_problems,
+                             backend="dask", memo_views=memos_dir is not None)
         return ChunkWork(register.columns, base, str(register.path.parent), allow_case_file, rules_path,
                          register.rows[a:b], numbers, id_col, register.bad_columns,
                          str(memos_dir) if memos_dir else None, str(templates_dir) if templates_dir else None,
@@ -165,7 +188,14 @@ def _run_into_body(register: Register, base: dict, tmp: Path, out: Path, rules_p
 
             if multiprocessing.current_process().daemon:
                 workers = 1  # a daemonic worker (e.g. the service's) cannot start processes of its own
-        if workers <= 1 or len(spans) == 1:
+        if cluster is not None:
+            for (a, b), chunk in cluster.screen(spans, lambda a, b: validate_chunk(work(a, b))):
+                write_parts(chunk, str(parts_dir / f"part-{a:09d}"))
+                for name, view in chunk.memos:  # the memos are written here, by this process only
+                    write_memo(view, memos_dir / name, templates_dir=templates_dir)
+                chunk.memos = []
+                take(chunk, b)
+        elif workers <= 1 or len(spans) == 1:
             for a, b in spans:
                 take(screen_chunk(work(a, b)), b)
         else:

@@ -17,6 +17,7 @@ from screening.register.validation import _derive_inputs, direct_prepared, valid
 from screening.register.vectorised import vectorised_values
 from screening.report.memo import write_memo
 from screening.report.register_summary import summarise_register_results
+from screening.report.templates import load_templates
 from screening.result import memo_view, public_result
 from screening.run.screen_case import screen_prepared
 
@@ -60,6 +61,8 @@ class ChunkWork:
     base_digest: str = ""
     part_stem: str | None = None  # this chunk writes <stem>.json (results.json items) and <stem>.csv (rows)
     cell_problems: dict = field(default_factory=dict)  # row number -> cells that could not be read
+    backend: str = "local"  # recorded in each results.json item ("local" or "dask")
+    memo_views: bool = False  # hand back each row's memo view instead of writing memos (the cluster backend)
 
 
 @dataclass
@@ -68,18 +71,62 @@ class ChunkResult:
     json_part: str | None = None
     csv_part: str | None = None
     limit_names: list[str] = field(default_factory=list)  # the results.csv limit columns of csv_part, in order
+    json_bytes: bytes | None = None  # results.json items and results.csv rows not yet written to part files
+    csv_text: str | None = None
+    memos: list = field(default_factory=list)  # (file name, memo view) when the memos are written elsewhere
+
+
+@dataclass
+class ChunkTask:
+    """A validated chunk: what is left to compute, as plain data and SI models (no user path, no file).
+
+    The cluster backend sends this to a worker; :func:`compute_chunk` is a pure function of it, so a
+    chunk computed again (after a lost worker) gives the same result.
+    """
+    outcomes: list[RowOutcome]
+    columnar: dict  # row index -> (result object, its group's known rule quantities)
+    prepared: list  # per row: (PreparedCase, row hash) or None
+    values: dict  # row index -> the vectorised engine's numbers
+    rule_set: object
+    at_start_label: str  # the register summary's label (from the templates, read by the client)
+    with_history: bool  # memos are wanted: results keep their histories
+    backend: str = "local"
+    memos_dir: str | None = None  # local runs write memos here at once; None: memo views are handed back
+    templates_dir: str | None = None
 
 
 def screen_chunk(work: ChunkWork) -> ChunkResult:
     """Validate, screen and judge a block of rows (runs in a worker process)."""
-    import gc
+    with _no_gc():
+        out = _compute_chunk(_validate_chunk(work))
+        return write_parts(out, work.part_stem)
 
-    enabled = gc.isenabled()
-    gc.disable()  # many small objects live at once; the cyclic collector only slows this down
-    try:
-        return _screen_chunk(work)
-    finally:
-        if enabled:
+
+def validate_chunk(work: ChunkWork) -> ChunkTask:
+    """Read, validate and prepare a block of rows (the cluster backend's client does this)."""
+    with _no_gc():
+        return _validate_chunk(work)
+
+
+def compute_chunk(task: ChunkTask) -> ChunkResult:
+    """Screen and judge a validated block of rows; reads and writes no file when ``task.memos_dir`` is None."""
+    with _no_gc():
+        return _compute_chunk(task)
+
+
+class _no_gc:
+    """The cyclic collector off: many small objects live at once, and it only slows the work down."""
+
+    def __enter__(self):
+        import gc
+
+        self.enabled = gc.isenabled()
+        gc.disable()
+
+    def __exit__(self, *exc):
+        import gc
+
+        if self.enabled:
             gc.enable()
 
 
@@ -99,7 +146,7 @@ def _structural_problems(work: ChunkWork, row_no: int, cells: list[str]) -> list
     return problems
 
 
-def _screen_chunk(work: ChunkWork) -> ChunkResult:
+def _validate_chunk(work: ChunkWork) -> ChunkTask:
     ctx = RowContext(work.columns, work.base, work.register_dir, work.allow_case_file)
     rep_inputs: dict[int, list[dict]] = {}
     rep_prepared: dict[int, object] = {}
@@ -115,7 +162,7 @@ def _screen_chunk(work: ChunkWork) -> ChunkResult:
         return rep_prepared[rep_index]
 
     def take_group(rep_index, rep_spec, fast_cols, members):
-        if work.memos_dir is not None:
+        if work.memos_dir is not None or work.memo_views:
             return members  # memos need each row's history: the general path
         rep = prepared_rep(rep_index, rep_spec)
         plan = plan_group(rep, fast_cols) if rep is not None else None
@@ -137,7 +184,6 @@ def _screen_chunk(work: ChunkWork) -> ChunkResult:
 
     validated = validate_rows(ctx, work.rows, build_specs=False, take_group=take_group)
     outcomes: list[RowOutcome] = []
-    screened: list[tuple[RowOutcome, dict]] = []  # rows with a result, and their result objects
     closed, closed_idx = [], []
     prepared_all: list = [None] * len(work.rows)
     for i, item in enumerate(validated):
@@ -183,6 +229,17 @@ def _screen_chunk(work: ChunkWork) -> ChunkResult:
                 outcome.problems.extend(exc.problems)
         outcomes.append(outcome)
     values = dict(zip(closed_idx, vectorised_values(closed)))
+    label = load_templates(work.templates_dir)["labels"]["register_at_start"]
+    return ChunkTask(outcomes, columnar, prepared_all, values, rule_set, label, work.memos_dir is not None
+                     or work.memo_views, work.backend, None if work.memo_views else work.memos_dir,
+                     work.templates_dir)
+
+
+def _compute_chunk(task: ChunkTask) -> ChunkResult:
+    outcomes, columnar, prepared_all, values = task.outcomes, task.columnar, task.prepared, task.values
+    rule_set = task.rule_set
+    screened: list[tuple[RowOutcome, dict]] = []  # rows with a result, and their result objects
+    memos: list = []
     for i, outcome in enumerate(outcomes):
         if i in columnar:
             result, known = columnar[i]
@@ -193,17 +250,20 @@ def _screen_chunk(work: ChunkWork) -> ChunkResult:
             prep, case_hash = prepared_all[i]
             known = None
             try:
-                result = screen_prepared(prep, case_hash, values=values.get(i),
-                                         with_history=work.memos_dir is not None)
+                result = screen_prepared(prep, case_hash, values=values.get(i), with_history=task.with_history)
             except Exception as exc:  # noqa: BLE001 - one bad row must not lose the others
                 outcome.problems.append(FieldProblem("(row)", f"internal error while screening this row: "
                                                               f"{type(exc).__name__}: {exc}"))
                 continue
         rules_mod.apply_verdict(result, rules_mod.evaluate(rule_set, result, known))
         result["register_row"] = outcome.row
-        if work.memos_dir is not None:
-            write_memo(memo_view(result), Path(work.memos_dir) / f"{_safe_name(result['id'])}-row{outcome.row}.pdf",
-                       templates_dir=work.templates_dir)
+        result["backend"] = task.backend
+        if task.with_history:
+            name = f"{_safe_name(result['id'])}-row{outcome.row}.pdf"
+            if task.memos_dir is not None:
+                write_memo(memo_view(result), Path(task.memos_dir) / name, templates_dir=task.templates_dir)
+            else:
+                memos.append((name, memo_view(result)))
         public = public_result(result) if prep is not None else result
         try:
             outcome.json = dumps(public)
@@ -211,27 +271,37 @@ def _screen_chunk(work: ChunkWork) -> ChunkResult:
             outcome.problems.append(FieldProblem("(row)", f"internal error: result not serialisable: {exc}"))
             continue
         screened.append((outcome, public))
-    return _chunk_outputs(work, outcomes, screened)
+    return _chunk_outputs(task, outcomes, screened, memos)
 
 
-def _chunk_outputs(work: ChunkWork, outcomes: list[RowOutcome], screened: list) -> ChunkResult:
-    """The chunk's summary rows, and its results.json items and results.csv rows written to part files
-    (handing back files, not bytes, is cheaper than pickling them)."""
+def _chunk_outputs(task: ChunkTask, outcomes: list[RowOutcome], screened: list, memos: list) -> ChunkResult:
+    """The chunk's summary rows, its results.json items and its results.csv rows."""
     publics = [public for _, public in screened]
-    for (outcome, _), row in zip(screened, summarise_register_results(publics, work.templates_dir)):
+    for (outcome, _), row in zip(screened, summarise_register_results(publics, at_start_label=task.at_start_label)):
         outcome.result = row
     parts = [csv_parts(public) for public in publics]
     names = _limit_names(parts)
-    out = ChunkResult(outcomes, limit_names=names)
-    if work.part_stem is None:
+    out = ChunkResult(outcomes, limit_names=names, memos=memos)
+    out.json_bytes = b",\n".join(o.json for o in outcomes if o.json is not None)
+    out.csv_text = results_csv_from_parts(parts, names, header=False)
+    return out
+
+
+def write_parts(out: ChunkResult, part_stem: str | None) -> ChunkResult:
+    """Write a chunk's results.json items and results.csv rows to ``<stem>.json`` and ``<stem>.csv``
+    (handing back files, not bytes, is cheaper than pickling them); without a stem the items stay
+    on the outcomes."""
+    if part_stem is None:
+        out.json_bytes = out.csv_text = None
         return out
-    out.json_part, out.csv_part = work.part_stem + ".json", work.part_stem + ".csv"
+    out.json_part, out.csv_part = part_stem + ".json", part_stem + ".csv"
     with open(out.json_part, "wb") as fh:
-        fh.write(b",\n".join(o.json for o in outcomes if o.json is not None))
-    for o in outcomes:
+        fh.write(out.json_bytes)
+    for o in out.outcomes:
         o.json = None  # written
     with open(out.csv_part, "w", encoding="utf-8", newline="") as fh:
-        fh.write(results_csv_from_parts(parts, names, header=False))
+        fh.write(out.csv_text)
+    out.json_bytes = out.csv_text = None
     return out
 
 

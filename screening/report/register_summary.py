@@ -43,13 +43,16 @@ def _summary_rows(results, at_start_label: str, start: int = 0) -> list[dict]:
 
 
 def summarise_register_results(results: Sequence[Mapping], templates_dir: str | os.PathLike | None = None,
-                               start: int = 0) -> list[dict]:
+                               start: int = 0, at_start_label: str | None = None) -> list[dict]:
     """The register summary's row for each result (numbered from ``start`` in messages).
 
     Rows of several parts, concatenated in order, can be passed to :func:`render_register_summary`
-    with ``summarised=True``: the PDF is the same as from all the results at once.
+    with ``summarised=True``: the PDF is the same as from all the results at once. ``at_start_label``
+    is the templates' ``labels.register_at_start``, when the caller has read them already.
     """
-    return _summary_rows(results, load_templates(templates_dir)["labels"]["register_at_start"], start)
+    if at_start_label is None:
+        at_start_label = load_templates(templates_dir)["labels"]["register_at_start"]
+    return _summary_rows(results, at_start_label, start)
 
 
 def _summarise(i: int, res: Mapping, at_start_label: str) -> dict:

@@ -191,6 +191,9 @@ def format_result(r: dict) -> str:
                      f"{unc['sampling']} sampling):")
         if unc.get("note"):
             lines.append(_wrap(unc["note"]))
+        if unc.get("correlation"):
+            lines.append(_wrap(f"Correlated inputs ({unc['correlation']['note']}): "
+                               + ", ".join(unc["correlation"]["inputs"])))
         for l in unc.get("limits", []):
             pb = l["probability_before_response"]
             pb_text = "—" if pb is None else f"{pb:.4f} ± {l['probability_before_response_standard_error']:.4f}"

@@ -169,6 +169,8 @@ def find_allowable_values(prepared: PreparedCase, path: str, low: float | None =
 
 def format_allowable(report: dict) -> str:
     unit = report["unit"]
+    if report.get("nominal") is None or report.get("range") is None:  # not computed (the note says why)
+        return f"Allowable values of {report['input']}: {report['note']}"
     lines = [f"Allowable values of {report['input']} (case value {report['nominal']:.6g} {unit}; scanned "
              f"{report['range'][0]:.6g} to {report['range'][1]:.6g} {unit}):"]
     if not report["changes"]:

@@ -354,6 +354,12 @@ def analyse(prepared: PreparedCase, plan: UncertaintyPlan | None = None) -> dict
         "inputs": [{"input": inp.path, "distribution": inp.distribution,
                     **{k: v for k, v in inp.params.items() if v is not None}, "nominal": inp.nominal,
                     "unit_si": _si_unit(inp)} for inp in plan.inputs],
+        **({"correlation": {"inputs": [plan.inputs[i].path for i in plan.correlation[0]],
+                            "matrix": [list(row) for row in plan.correlation[1]],
+                            "note": "correlated normal sampling (a Gaussian copula: the correlation of the values "
+                                    "of a normal input, of the logarithm of a lognormal one); the one-at-a-time "
+                                    "swings below vary each input alone"}}
+           if plan.correlation is not None else {}),
         "first_limit": model.limits[first].name,
         "limits": limits_out,
         "sensitivity": sensitivity,

@@ -384,11 +384,82 @@ def entries() -> list[Entry]:
               _case("c.yaml", lambda c: c["recovery"].__setitem__("medium_temperature", "125 degC"),
                     base="fw-r301-reactor.yaml"), exit=(0, 1), names=("Recovery: the recovery medium",)),
 
+        # the cluster backend (issue 23): unsafe or incomplete scheduler settings, refused before any connection
+        # (192.0.2.0/24 is a documentation network, RFC 5737: nothing is ever sent there)
+        Entry("batch --scheduler plain tcp off this machine", "23 tcp:// scheduler other than loopback",
+              ["batch", "{d}/reg.csv", *R, "--scheduler", "tcp://192.0.2.10:8786"], _register("reg.csv", GOOD_ROWS),
+              names=("tcp://192.0.2.10:8786", "--insecure-cluster", "without authentication")),
+        Entry("batch --scheduler without a scheme, off this machine", "23 tcp:// scheduler other than loopback",
+              ["batch", "{d}/reg.csv", *R, "--scheduler", "192.0.2.10:8786"], _register("reg.csv", GOOD_ROWS),
+              names=("192.0.2.10:8786", "refused")),
+        Entry("batch --scheduler ws://", "23 unsupported scheduler scheme",
+              ["batch", "{d}/reg.csv", *R, "--scheduler", "ws://127.0.0.1:8786"], _register("reg.csv", GOOD_ROWS),
+              names=("ws://", "tls://")),
+        Entry("batch --scheduler tls:// without certificates", "23 tls without a security configuration",
+              ["batch", "{d}/reg.csv", *R, "--scheduler", "tls://192.0.2.10:8786", "--tls-ca", "{d}/none.pem"],
+              _register("reg.csv", GOOD_ROWS), names=("--tls-cert", "--tls-key")),
+        Entry("batch --tls-cert without --scheduler", "23 cluster options without a scheduler",
+              ["batch", "{d}/reg.csv", *R, "--tls-cert", "{d}/c.pem"], _register("reg.csv", GOOD_ROWS),
+              names=("--scheduler",)),
+
         # 4. the service's command line
         Entry("serve --token ''", "4 empty token", ["serve", "--token", "", "--db", "{d}/runs.sqlite"],
               names=("token is empty",)),
     ]
-    return e + service_entries()
+    return e + kinetics_entries() + service_entries()
+
+
+_RUN_HEADER = "time [s],temperature [degC],heat_flow [W/g]\n"
+
+
+def _dsc_rows(n=40):
+    return "".join(f"{i * 10},{40 + i},{0.1 + (1.0 if i == n // 2 else 0.0)}\n" for i in range(n))
+
+
+def kinetics_entries() -> list[Entry]:
+    """Bad calorimeter files for ``heatscreen kinetics``: exit 2 naming the file, the column and what is expected."""
+    good = DEMO / "kinetics" / "fw-k12-dsc-02K-per-min.csv"
+    return [
+        Entry("kinetics: a run without a heat_flow column", "20 bad calorimeter file",
+              ["kinetics", "{d}/a.csv", "{d}/a.csv"],
+              _text("a.csv", "time [s],temperature [degC]\n" + "".join(f"{i},{40 + i}\n" for i in range(40))),
+              names=("a.csv", "column 'heat_flow'", "is missing")),
+        Entry("kinetics: a heat flow in a unit that is not a heat flow", "20 bad calorimeter file",
+              ["kinetics", "{d}/a.csv", "{d}/a.csv"], _text("a.csv", "time [s],temperature [degC],heat_flow [kg]\n"
+                                                          + _dsc_rows()),
+              names=("column 'heat_flow'", "[kg]", "heat flow per mass")),
+        Entry("kinetics: a header without units", "20 bad calorimeter file", ["kinetics", "{d}/a.csv", "{d}/a.csv"],
+              _text("a.csv", "time,temperature,heat_flow\n" + _dsc_rows()), names=("a.csv", "'name [unit]'")),
+        Entry("kinetics: text in a number column", "20 bad calorimeter file",
+              ["kinetics", "{d}/a.csv", "{d}/a.csv"],
+              _text("a.csv", _RUN_HEADER + _dsc_rows() + "400,80,oops\n"),
+              names=("column 'heat_flow'", "line 42", "'oops' is not a number")),
+        Entry("kinetics: an absolute heat flow without the sample mass", "20 bad calorimeter file",
+              ["kinetics", "{d}/a.csv", "{d}/a.csv"],
+              _text("a.csv", "time [s],temperature [degC],heat_flow [mW]\n" + _dsc_rows()),
+              names=("column 'heat_flow'", "--sample-mass")),
+        Entry("kinetics: time going backwards", "20 bad calorimeter file", ["kinetics", "{d}/a.csv", "{d}/a.csv"],
+              _text("a.csv", _RUN_HEADER + _dsc_rows() + "5,81,0.1\n"), names=("column 'time'", "increasing")),
+        Entry("kinetics: an exotherm plotted down without --exo-down", "20 bad calorimeter file",
+              ["kinetics", "{d}/a.csv", str(good)],
+              _text("a.csv", "time [s],temperature [degC],heat_flow [W/g]\n" + "".join(
+                  f"{row.split(',')[0]},{row.split(',')[1]},{-float(row.split(',')[2]):.5f}\n"
+                  for row in good.read_text(encoding="utf-8").splitlines()[3:])),
+              names=("a.csv", "column 'heat_flow'", "--exo-down")),
+        Entry("kinetics: one run only", "20 bad calorimeter file", ["kinetics", str(good)],
+              names=("runs", "two or more")),
+        Entry("kinetics: a binary file", "20 bad calorimeter file", ["kinetics", "{d}/a.csv", "{d}/a.csv"],
+              _text("a.csv", b"\xff\xfe\x00\x01" * 100), names=("a.csv", "not UTF-8")),
+        Entry("check as text: an Arrhenius case with an uncertainty block (allowable values not computed)",
+              "20 allowable values not computed", ["check", "{d}/c.yaml"],
+              _case("c.yaml", lambda c: c.__setitem__("uncertainty", {"samples": 50, "inputs": {
+                  "heat_sources.0.activation_energy": {"distribution": "normal", "sd": "1 kJ/mol"}}}),
+                    base="fw-s17-powder-drums.yaml"), exit=(0, 1),
+              names=("Allowable values of heat_sources.0.activation_energy: not computed",)),
+        Entry("kinetics: --source-out onto an input", "20 bad calorimeter file",
+              ["kinetics", "{d}/a.csv", "{d}/a.csv", "--source-out", "{d}/a.csv"], _text("a.csv", _RUN_HEADER),
+              names=("--source-out", "input of this command")),
+    ]
 
 
 def _text_register_semicolon():

@@ -47,5 +47,5 @@ def test_every_defect_of_the_issue_has_an_entry():
                    "Monte Carlo limit", "empty token", "Host header", "Origin: null",
                    "delimiter from the header row", "control characters", "size limits while reading",
                    "outputs never overwrite an input", "umask", "inverted tested_range",
-                   "boiling point below the start", "recovery medium hotter than a limit"):
+                   "boiling point below the start", "recovery medium hotter than a limit", "bad calorimeter file"):
         assert wanted in defects, wanted
