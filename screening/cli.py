@@ -5,6 +5,7 @@ usage; 3 a failure inside the tool.
 """
 from __future__ import annotations
 
+import contextlib
 import csv
 import json
 import os
@@ -181,7 +182,8 @@ def check(case: str = typer.Argument(..., help="Case file (YAML, TOML or JSON)."
             from screening.register.output_set import check_single_output
 
             check_single_output(history, "--history", inputs=(case, rules))
-        result = screen_file(case, rules)
+        with _terminal_progress():  # a Monte Carlo analysis shows its progress
+            result = screen_file(case, rules)
         if history is not None:
             try:
                 write_atomic_text(history, history_csv(result))
@@ -216,7 +218,8 @@ def memo(case: str = typer.Argument(..., help="Case file (YAML, TOML or JSON).")
 
             template_file = Path(templates) / TEMPLATE_FILE
         check_single_output(output, "--output", inputs=(case, rules, template_file))
-        result = screen_file(case, rules)
+        with _terminal_progress():
+            result = screen_file(case, rules)
         from screening.report.memo import write_memo
         from screening.result import memo_view
 
@@ -267,20 +270,14 @@ def batch(register: Path = typer.Argument(..., help="Register of vessels (.csv o
                 _echo(warning, err=True)
             _echo(f"screening on cluster {cluster.address}"
                   + (" (from HEATSCREEN_SCHEDULER)" if cluster.from_environment else ""), err=True)
-        progress = None
-        bar = None
-        if sys.stderr.isatty():
-            bar = _Progress()
-            progress = bar.advance
         try:
-            summary = run_batch(register, out, base_path=base, rules_path=rules, memos=memos, progress=progress,
-                                templates_dir=templates, cluster=cluster)
+            with _terminal_progress() as reporter:
+                summary = run_batch(register, out, base_path=base, rules_path=rules, memos=memos,
+                                    progress=_BatchBar(reporter) if reporter is not None else None,
+                                    templates_dir=templates, cluster=cluster)
         except RegisterError as exc:
             _echo(f"register: {exc.message}", err=True)
             return EXIT_INVALID
-        finally:
-            if bar is not None:
-                bar.close()
         counts = summary["verdict_counts"]
         _echo(f"{summary['rows']} rows: {summary['valid']} screened ({counts.get('pass', 0)} pass, "
               f"{counts.get('review', 0)} review, {counts.get('fail', 0)} fail), {summary['invalid']} invalid. "
@@ -293,20 +290,71 @@ def batch(register: Path = typer.Argument(..., help="Register of vessels (.csv o
     raise typer.Exit(_guard(body))
 
 
-class _Progress:
-    """A plain progress line on an interactive terminal."""
+class _RichReporter:
+    """Progress bars on stderr (rich): what runs, how far, the rate and the time left. Only on a terminal."""
 
-    def __init__(self):
-        self.done = 0
+    def __init__(self, stream):
+        from rich.console import Console
+        from rich.progress import (
+            BarColumn,
+            MofNCompleteColumn,
+            Progress,
+            ProgressColumn,
+            TextColumn,
+            TimeElapsedColumn,
+            TimeRemainingColumn,
+        )
+        from rich.text import Text
 
-    def advance(self, done: int, total: int) -> None:
+        class RateColumn(ProgressColumn):
+            def render(self, task):
+                return Text("" if task.speed is None else f"{task.speed:.3g}/s")
+
+        self.progress = Progress(TextColumn("{task.description}"), BarColumn(), MofNCompleteColumn(), RateColumn(),
+                                 TimeElapsedColumn(), TextColumn("left"), TimeRemainingColumn(),
+                                 console=Console(file=stream, stderr=True), transient=False)
+
+    def start(self, description: str, total: float):
+        progress = self.progress
+        task_id = progress.add_task(description, total=total)
+
+        class Handle:
+            def advance(self, n):
+                progress.advance(task_id, n)
+
+            def add_total(self, n):
+                progress.update(task_id, total=progress.tasks[task_id].total + n)
+
+            def close(self):
+                progress.update(task_id, completed=progress.tasks[task_id].total)
+
+        return Handle()
+
+
+@contextlib.contextmanager
+def _terminal_progress():
+    """Bars on stderr when stderr is an interactive terminal; nothing otherwise (stdout never changes)."""
+    if not sys.stderr.isatty():
+        yield None
+        return
+    from screening import progress
+
+    reporter = _RichReporter(sys.stderr)
+    with reporter.progress, progress.reporting(reporter):
+        yield reporter
+
+
+class _BatchBar:
+    """``run_batch``'s progress callback (rows done, rows in all) as a task of the terminal's bars."""
+
+    def __init__(self, reporter):
+        self.reporter, self.handle, self.done = reporter, None, 0
+
+    def __call__(self, done: int, total: int) -> None:
+        if self.handle is None:
+            self.handle = self.reporter.start("batch: rows", total)
+        self.handle.advance(done - self.done)
         self.done = done
-        sys.stderr.write(f"\rscreened {done} of {total} rows")
-        sys.stderr.flush()
-
-    def close(self) -> None:
-        sys.stderr.write("\n")
-        sys.stderr.flush()
 
 
 @app.command()
@@ -362,7 +410,8 @@ def margin(case: str = typer.Argument(..., help="Case file (YAML, TOML or JSON).
         _, q, _ = locate_input(prepared.spec, vary)
         lo = parse_bound(low, q, "--low") if low is not None else None
         hi = parse_bound(high, q, "--high") if high is not None else None
-        report = find_allowable_values(prepared, vary, lo, hi, points, rules)
+        with _terminal_progress():
+            report = find_allowable_values(prepared, vary, lo, hi, points, rules)
         if json_out:
             _echo(json.dumps(report, indent=2, ensure_ascii=False, allow_nan=False))
         else:

@@ -75,4 +75,7 @@ def memo_view(result: dict) -> dict:
         out["recovery_history"] = result["_recovery_history"]
     if result.get("_uncertainty_cdf") is not None:
         out["uncertainty_cdf"] = result["_uncertainty_cdf"]
+    for key in ("case_fields", "derived_inputs"):  # every field as written; what the tool derived and used
+        if result.get("_" + key) is not None:
+            out[key] = result["_" + key]
     return out

@@ -18,7 +18,7 @@ import pytest
 
 PACKAGE = Path(__file__).resolve().parents[1] / "screening"
 
-RANK = {"": 0, "errors": 0, "fileio": 0, "workers": 0, "resources": 0, "core": 1, "case": 2, "result": 2, "run": 3, "verdict": 3,
+RANK = {"": 0, "errors": 0, "fileio": 0, "workers": 0, "resources": 0, "progress": 0, "core": 1, "case": 2, "result": 2, "run": 3, "verdict": 3,
         "report": 4, "register": 4, "service": 5, "cli": 5}
 
 

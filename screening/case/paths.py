@@ -104,8 +104,15 @@ SOURCE_SLOTS = {
     ("heating-medium", "ua"): "medium_ua", ("heating-medium", "medium_temperature"): "medium_T",
     ("arrhenius", "specific_power"): "q", ("arrhenius", "reference_temperature"): "Tr",
     ("arrhenius", "activation_energy"): "E", ("arrhenius", "specific_heat_of_reaction"): "dh",
-    ("arrhenius", "accumulated_fraction"): "af",
+    ("arrhenius", "accumulated_fraction"): "af", ("arrhenius", "initial_conversion"): "ic",
+    ("autocatalytic", "rate_constant"): "kr", ("autocatalytic", "reference_temperature"): "Tr",
+    ("autocatalytic", "activation_energy"): "E", ("autocatalytic", "specific_heat_of_reaction"): "dh",
+    ("autocatalytic", "initial_conversion"): "ic",
 }
+
+#: Kinds whose sources share one tuple of the model (arrhenius and autocatalytic sources are both
+#: ``ScreeningModel.arrhenius_sources``, in the order of the case), so they share one count of positions.
+_POSITION_GROUP = {"autocatalytic": "arrhenius"}
 
 
 class Slot(NamedTuple):
@@ -130,6 +137,7 @@ def source_positions(spec: CaseSpec) -> tuple[int, ...]:
     out = []
     for s in spec.heat_sources:
         kind = slot_kind(s)
+        kind = _POSITION_GROUP.get(kind, kind)
         out.append(counts.get(kind, 0))
         counts[kind] = out[-1] + 1
     return tuple(out)
@@ -150,7 +158,7 @@ def model_slot(spec: CaseSpec, path: tuple, positions: tuple[int, ...] | None = 
         kind = SOURCE_SLOTS.get((slot_kind(source), path[2]))
         if kind is None:
             return None
-        if kind == "af" and getattr(source, "initial_specific_power", None) is not None:
+        if kind in ("af", "ic") and getattr(source, "initial_specific_power", None) is not None:
             return None  # the zero-conversion rate follows the accumulated fraction: prepare the case again
         pos = (positions if positions is not None else source_positions(spec))[path[1]]
         return Slot(kind, pos)

@@ -5,12 +5,22 @@ import math
 from collections import Counter
 from dataclasses import dataclass, field, replace
 
+import numpy as np
 from pydantic import BaseModel
 
+from screening.case.geometry_columns import (
+    HIGH_COEFFICIENT,
+    heat_loss_columns,
+    high_coefficient_warning,
+    is_over_full,
+    over_full_warning,
+    vessel_columns,
+)
 from screening.case.paths import source_positions
 from screening.case.schema import (
     DEFAULT_HORIZON_TEXT,
     ArrheniusSpec,
+    AutocatalyticSpec,
     CaseError,
     CaseSpec,
     ConstantSpec,
@@ -38,11 +48,9 @@ from screening.core.vessel_geometry import (
     conduction_shape,
     liquid_height,
     maximum_height,
-    total_area,
-    total_volume,
-    wetted_area,
     wetted_area_below,
 )
+from screening.core.vessel_geometry_arrays import DEFAULT_CROWN_FRACTION, DEFAULT_KNUCKLE_FRACTION, VesselArrays
 
 
 @dataclass
@@ -117,22 +125,27 @@ def _shape(spec: CaseSpec) -> VesselShape | None:
 _DIMENSIONS = ("diameter", "length", "width", "height", "crown_radius", "knuckle_radius")
 
 
-def _geometry(spec: CaseSpec, compute, volume_first: bool = False) -> tuple[float, ...]:
-    """Volumes, areas and heights of the vessel; dimensions so small or large that they cannot be
-    computed (or give a zero or infinite volume or area) are the case's problem, named by field."""
-    try:
-        values = tuple(float(x) for x in compute())
-        bad = not all(math.isfinite(x) and x >= 0.0 for x in values) or (volume_first and values[0] <= 0.0)
-    except (ArithmeticError, ValueError):
-        bad = True
-    if bad:
-        v = spec.vessel
-        given = [f"vessel.{k} = {getattr(v, k).text}" for k in _DIMENSIONS
-                 if getattr(v, k, None) is not None and getattr(getattr(v, k), "text", None) is not None]
-        raise CaseError([FieldProblem("vessel", "the vessel's volume, area or height cannot be computed from its "
-                                                f"dimensions ({'; '.join(given) or 'as given'}): they are too small "
-                                                f"or too large for floating-point arithmetic; check their units")])
-    return values
+def _geometry_problem(spec: CaseSpec) -> CaseError:
+    """Dimensions so small or large that the vessel's volume, area or heights cannot be computed (or give a
+    zero or infinite volume or area): the case's problem, named by field."""
+    v = spec.vessel
+    if v.heads == "torispherical" and v.shape in ("vertical-cylinder", "horizontal-cylinder"):
+        D = v.diameter.si
+        crown = v.crown_radius.si if v.crown_radius is not None else DEFAULT_CROWN_FRACTION * D
+        knuckle = v.knuckle_radius.si if v.knuckle_radius is not None else DEFAULT_KNUCKLE_FRACTION * D
+        if not (crown >= D / 2 and 0 < knuckle <= D / 2):
+            name = "knuckle_radius" if not 0 < knuckle <= D / 2 else "crown_radius"
+            stated = lambda q, default: q.text if q is not None else f"{default} x the diameter (default)"  # noqa: E731
+            return CaseError([FieldProblem(f"vessel.{name}", (
+                f"a torispherical head needs a crown radius of at least half the diameter and a knuckle radius of "
+                f"at most half the diameter, so that the knuckle meets the shell and the crown tangentially "
+                f"(diameter {v.diameter.text}, crown_radius {stated(v.crown_radius, DEFAULT_CROWN_FRACTION)}, "
+                f"knuckle_radius {stated(v.knuckle_radius, DEFAULT_KNUCKLE_FRACTION)})"))])
+    given = [f"vessel.{k} = {getattr(v, k).text}" for k in _DIMENSIONS
+             if getattr(v, k, None) is not None and getattr(getattr(v, k), "text", None) is not None]
+    return CaseError([FieldProblem("vessel", "the vessel's volume, area or height cannot be computed from its "
+                                             f"dimensions ({'; '.join(given) or 'as given'}): they are too small "
+                                             f"or too large for floating-point arithmetic; check their units")])
 
 
 def prepare_case(spec: CaseSpec, inputs: list[dict] | None = None) -> PreparedCase:
@@ -147,31 +160,33 @@ def prepare_case(spec: CaseSpec, inputs: list[dict] | None = None) -> PreparedCa
     geometry: dict = {}
     c = spec.contents
     vessel_volume = None
-    if shape is not None:
-        vessel_volume, area, height = _geometry(spec, lambda: (total_volume(shape), total_area(shape),
-                                                               maximum_height(shape)), volume_first=True)
-        geometry.update(vessel_volume_m3=vessel_volume, total_area_m2=area, height_m=height)
     fill_fraction = None
-    if c.mass is not None:
-        mass = c.mass.si
-        liquid_volume = mass / c.density.si if c.density is not None else None
-    elif c.volume is not None:
-        liquid_volume = c.volume.si
-        mass = liquid_volume * c.density.si
-    else:
-        fill_fraction = c.fill.si
-        liquid_volume = fill_fraction * vessel_volume
-        mass = liquid_volume * c.density.si
-    if vessel_volume is not None and liquid_volume is not None:
-        fill_fraction = liquid_volume / vessel_volume
-        if fill_fraction > 1.0 + 1e-9:
-            warnings.append(f"The contents ({liquid_volume:.4g} m^3) fill {fill_fraction * 100:.1f} % of the vessel "
-                            f"volume ({vessel_volume:.4g} m^3): more than it holds. Check mass, density, fill and "
-                            f"dimensions; areas are taken at full.")
-        height, area = _geometry(spec, lambda: (liquid_height(shape, liquid_volume),
-                                                wetted_area(shape, liquid_volume)))
-        geometry.update(liquid_volume_m3=liquid_volume, fill_fraction=fill_fraction, liquid_height_m=height,
-                        wetted_area_m2=area)
+    if shape is None:
+        if c.mass is not None:
+            mass = c.mass.si
+            liquid_volume = mass / c.density.si if c.density is not None else None
+        else:
+            liquid_volume = c.volume.si
+            mass = liquid_volume * c.density.si
+    else:  # the array functions with a group of one, as a register group of tanks takes them
+        one = lambda q: None if q is None else np.array([q.si])  # noqa: E731
+        cols = vessel_columns(VesselArrays.of([shape]), mass=one(c.mass), volume=one(c.volume), fill=one(c.fill),
+                              density=one(c.density))
+        if not cols.computable[0]:
+            raise _geometry_problem(spec)
+        vessel_volume = float(cols.vessel_volume[0])
+        geometry.update(vessel_volume_m3=vessel_volume, total_area_m2=float(cols.total_area[0]),
+                        height_m=float(cols.height[0]))
+        mass = float(cols.mass[0])
+        liquid_volume = None if cols.liquid_volume is None else float(cols.liquid_volume[0])
+        if liquid_volume is not None:
+            fill_fraction = float(cols.fill_fraction[0])
+            if is_over_full(fill_fraction):
+                warnings.append(over_full_warning(liquid_volume, fill_fraction, vessel_volume))
+            if not cols.liquid_computable[0]:
+                raise _geometry_problem(spec)
+            geometry.update(liquid_volume_m3=liquid_volume, fill_fraction=fill_fraction,
+                            liquid_height_m=float(cols.liquid_height[0]), wetted_area_m2=float(cols.wetted_area[0]))
     # heat loss
     hl = spec.heat_loss
     surface_coefficient = None
@@ -191,17 +206,21 @@ def prepare_case(spec: CaseSpec, inputs: list[dict] | None = None) -> PreparedCa
             area_used = geometry["total_area_m2"]
         else:
             area_used = area.si
+        geometry["heat_loss_area_m2"] = area_used
+    if shape is not None:
+        wet, tot = geometry.get("wetted_area_m2"), geometry.get("total_area_m2")
+        ua_col, sc_col = heat_loss_columns(
+            ua=None if hl.ua is None else np.array([ua]),
+            coefficient=None if hl.ua is not None else np.array([hl.coefficient.si]),
+            area_used=None if area_used is None else np.array([area_used]),
+            wetted_area=None if wet is None else np.array([wet]), total_area=None if tot is None else np.array([tot]))
+        ua = float(ua_col[0])
+        surface_coefficient = None if sc_col is None or math.isnan(sc_col[0]) else float(sc_col[0])
+    elif hl.ua is None:
         ua = hl.coefficient.si * area_used
         surface_coefficient = hl.coefficient.si
-        geometry["heat_loss_area_m2"] = area_used
-    if surface_coefficient is None and ua > 0:
-        a = geometry.get("wetted_area_m2") or geometry.get("total_area_m2")
-        if a:
-            surface_coefficient = ua / a
-    if surface_coefficient is not None and surface_coefficient > 25.0:
-        warnings.append(f"The heat-loss coefficient is {surface_coefficient:.3g} W/(m^2 K): more than passive surfaces "
-                        f"lose to still air (bare steel about 5-15 W/(m^2 K) with radiation, common practice). A "
-                        f"loss this large is not conservative unless it is measured.")
+    if surface_coefficient is not None and surface_coefficient > HIGH_COEFFICIENT:
+        warnings.append(high_coefficient_warning(surface_coefficient))
     # wall
     wall = 0.0
     if spec.vessel is not None and spec.vessel.wall_mass is not None:
@@ -217,6 +236,8 @@ def prepare_case(spec: CaseSpec, inputs: list[dict] | None = None) -> PreparedCa
             decaying.append(m.DecayingSource(s.power.si, a, s.role))
         elif isinstance(s, HeatingMediumSpec):
             media.append(m.HeatingMedium(s.medium_temperature.si, s.ua.si))
+        elif isinstance(s, AutocatalyticSpec):
+            arrh.append(_autocatalytic_source(s, i, assumptions))
         elif isinstance(s, ArrheniusSpec):
             source = _arrhenius_source(s, i, assumptions)
             (arrh if isinstance(source, m.ArrheniusSource) else released).append(source)
@@ -357,8 +378,8 @@ def _arrhenius_source(s: ArrheniusSpec, index: int, assumptions: list[str]):
     name = source_name(s, index)
     role = s.effective_role
     dh = s.specific_heat_of_reaction.si if s.specific_heat_of_reaction is not None else None
-    if s.accumulated_fraction is not None:
-        af = s.accumulated_fraction.si
+    if s.remaining_fraction is not None:
+        af = s.remaining_fraction
     else:
         af = 1.0
         if role == "synthesis":
@@ -385,6 +406,31 @@ def _arrhenius_source(s: ArrheniusSpec, index: int, assumptions: list[str]):
                                f"closed vessel or package).")
     return m.ArrheniusSource(q0, s.reference_temperature.si, s.activation_energy.si, float(s.order), dh, af, gas,
                              _tested_range(s), role, name)
+
+
+def _autocatalytic_source(s: AutocatalyticSpec, index: int, assumptions: list[str]) -> m.ArrheniusSource:
+    """The SI source of an autocatalytic entry: an ArrheniusSource whose specific power is Delta h k_ref."""
+    name = source_name(s, index)
+    role = s.effective_role
+    dh = s.specific_heat_of_reaction.si
+    af = s.remaining_fraction if s.remaining_fraction is not None else 1.0
+    if s.initial_conversion is None:
+        assumptions.append(f"{name}: initial_conversion is not stated, so the material is taken as fresh (0 % "
+                           f"converted). Aged, recycled or contaminated material may be partly converted or seeded "
+                           f"with its own products, and then reacts much sooner: state its conversion if so.")
+    if role == "synthesis" and s.initial_conversion is None:
+        assumptions.append(f"{name}: the whole heat of reaction (100 %) is taken as accumulated when cooling fails "
+                           f"(conservative).")
+    gas = s.gas_generating
+    if gas is None:
+        gas = role == "decomposition"
+        if gas:
+            assumptions.append(f"{name}: gas_generating is not stated, so the decomposition is taken to make "
+                               f"permanent gas (conservative: no credit for boiling, and the gas pressurises a "
+                               f"closed vessel or package).")
+    return m.ArrheniusSource(dh * s.rate_constant.si, s.reference_temperature.si, s.activation_energy.si,
+                             float(s.order), dh, af, gas, _tested_range(s), role, name,
+                             autocatalytic_order=float(s.autocatalytic_order), initiation=float(s.initiation))
 
 
 def _tested_range(s: ArrheniusSpec):

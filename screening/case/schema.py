@@ -317,6 +317,9 @@ class ArrheniusSpec(_Source):
     accumulated_fraction: Annotated[Q("fraction", None), Field(description=(
         "synthesis only: the fraction of its heat of reaction still to be released when cooling fails "
         "(0 % for a fully dosing-controlled reaction); default 100 %"))] = None
+    initial_conversion: Annotated[Q("fraction", None), Field(description=(
+        "optional: the conversion at the start of the scenario (default 0 %); on a synthesis it is "
+        "1 - accumulated_fraction, so give one of the two"))] = None
     gas_generating: bool | None = Field(default=None, description=(
         "whether the reaction makes permanent gas; a decomposition defaults to true (said in the output)"))
     tested_range: list[Any] | None = Field(default=None, description=(
@@ -331,6 +334,11 @@ class ArrheniusSpec(_Source):
             raise ValueError(f"must be from 0 to 1 (100 %) (got {value.text})")
         return value
 
+    @field_validator("initial_conversion")
+    @classmethod
+    def _conversion_range(cls, value):
+        return _check_initial_conversion(value)
+
     @property
     def effective_role(self) -> str:
         """The role, with the default (decomposition) filled in."""
@@ -340,9 +348,24 @@ class ArrheniusSpec(_Source):
     def has_kinetics(self) -> bool:
         return any(getattr(self, name) is not None for name in _KINETIC_FIELDS)
 
+    @property
+    def remaining_fraction(self) -> float | None:
+        """1 - initial conversion: accumulated_fraction, or 1 - initial_conversion; None when neither is given."""
+        if self.accumulated_fraction is not None:
+            return self.accumulated_fraction.si
+        if self.initial_conversion is not None:
+            return 1.0 - self.initial_conversion.si
+        return None
+
     @model_validator(mode="after")
     def _kinetics(self):
         role = self.effective_role
+        if self.accumulated_fraction is not None and self.initial_conversion is not None:
+            raise ValueError("give one of accumulated_fraction and initial_conversion, not both: on a synthesis "
+                             "accumulated_fraction = 1 - initial_conversion")
+        if self.initial_conversion is not None and self.specific_heat_of_reaction is None:
+            raise ValueError("initial_conversion needs specific_heat_of_reaction (conversion advances as power / "
+                             "heat of reaction)")
         if not self.has_kinetics:
             if role != "synthesis":
                 raise ValueError("a decomposition needs its kinetics: specific_power (or initial_specific_power), "
@@ -369,12 +392,73 @@ class ArrheniusSpec(_Source):
             raise ValueError("a synthesis needs specific_heat_of_reaction (its accumulated heat sets the MTSR)")
         if self.accumulated_fraction is not None and self.specific_heat_of_reaction is None:
             raise ValueError("accumulated_fraction needs specific_heat_of_reaction")
-        if (self.initial_specific_power is not None and self.order > 0 and self.accumulated_fraction is not None
-                and self.accumulated_fraction.si == 0):
-            raise ValueError("initial_specific_power with accumulated_fraction 0 % and order > 0: the "
+        if (self.initial_specific_power is not None and self.order > 0 and self.remaining_fraction is not None
+                and self.remaining_fraction == 0):
+            which = ("accumulated_fraction 0 %" if self.accumulated_fraction is not None
+                     else "initial_conversion 100 %")
+            raise ValueError(f"initial_specific_power with {which} and order > 0: the "
                              "zero-conversion rate initial_specific_power / accumulated_fraction^order is undefined; "
                              "give specific_power (the rate at zero conversion) instead")
         return self
+
+
+def _check_initial_conversion(value):
+    if value is not None and not (0 <= value.si <= 1):
+        raise ValueError(f"must be from 0 to 1 (100 %) (got {value.text})")
+    return value
+
+
+class AutocatalyticSpec(_Source):
+    """An autocatalytic reaction: d(alpha)/dt = k(T) (1 - alpha)^n (alpha^m + z), heat = Delta h d(alpha)/dt.
+
+    k(T) is the Arrhenius law through ``rate_constant`` at ``reference_temperature``; z is taken as
+    independent of temperature (one activation energy for the initiation and the autocatalytic path).
+    """
+
+    kind: Literal["autocatalytic"]
+    role: Literal["synthesis", "decomposition"] | None = Field(default=None, description=(
+        "'synthesis' (the desired reaction: its accumulated heat sets the MTSR) or 'decomposition' (a "
+        "self-heating hazard: it sets T_D24 and TMRad); default decomposition"))
+    rate_constant: Annotated[Q("rate_constant", "positive"), Field(description=(
+        "k at reference_temperature (1/s), the autocatalytic rate constant"))]
+    reference_temperature: Q("temperature", "absolute")
+    activation_energy: Q("molar_energy", "positive")
+    order: float = Field(ge=0.0, le=10.0, description="n, the order in the remaining fraction 1 - alpha, 0 to 10")
+    autocatalytic_order: float = Field(gt=0.0, le=10.0, description="m, the order in the conversion alpha, "
+                                                                     "above 0 and up to 10")
+    initiation: float = Field(gt=0.0, le=1e6, description=(
+        "z > 0, the ratio of the initiation to the autocatalytic rate constant"))
+    specific_heat_of_reaction: Q("specific_energy", "positive")
+    initial_conversion: Annotated[Q("fraction", None), Field(description=(
+        "optional: the conversion at the start of the scenario, default 0 % (aged, recycled or contaminated "
+        "material may be partly converted)"))] = None
+    gas_generating: bool | None = Field(default=None, description=(
+        "whether the reaction makes permanent gas; a decomposition defaults to true (said in the output)"))
+    tested_range: list[Any] | None = Field(default=None, description=(
+        "optional [low, high] temperatures over which the kinetics were measured"))
+
+    @field_validator("initial_conversion")
+    @classmethod
+    def _conversion_range(cls, value):
+        return _check_initial_conversion(value)
+
+    @property
+    def effective_role(self) -> str:
+        """The role, with the default (decomposition) filled in."""
+        return self.role or "decomposition"
+
+    @property
+    def has_kinetics(self) -> bool:
+        return True
+
+    @property
+    def remaining_fraction(self) -> float | None:
+        """1 - initial_conversion, None when it is not given."""
+        return None if self.initial_conversion is None else 1.0 - self.initial_conversion.si
+
+
+#: The temperature-dependent source kinds (those with a role and kinetics).
+TEMPERATURE_DEPENDENT = (ArrheniusSpec, AutocatalyticSpec)
 
 
 class FireSpec(_Source):
@@ -386,7 +470,7 @@ class FireSpec(_Source):
 
 
 SOURCE_KINDS = {"constant": ConstantSpec, "decaying": DecayingSpec, "heating-medium": HeatingMediumSpec,
-                "arrhenius": ArrheniusSpec, "fire": FireSpec}
+                "arrhenius": ArrheniusSpec, "autocatalytic": AutocatalyticSpec, "fire": FireSpec}
 
 
 def _source_kind(value: Any):
@@ -484,7 +568,7 @@ def synthesis_sources(spec: CaseSpec) -> list:
 
 
 def decomposition_sources(spec: CaseSpec) -> list:
-    return [s for s in spec.heat_sources if isinstance(s, ArrheniusSpec) and s.effective_role == "decomposition"]
+    return [s for s in spec.heat_sources if isinstance(s, TEMPERATURE_DEPENDENT) and s.effective_role == "decomposition"]
 
 
 def default_scenario(spec: CaseSpec) -> str | None:
@@ -496,7 +580,7 @@ def default_scenario(spec: CaseSpec) -> str | None:
     """
     if synthesis_sources(spec):
         return "cooling-failure"
-    arrhenius = [s for s in spec.heat_sources if isinstance(s, ArrheniusSpec)]
+    arrhenius = [s for s in spec.heat_sources if isinstance(s, TEMPERATURE_DEPENDENT)]
     if not arrhenius:
         return "heat-up"
     if not any(isinstance(s, (DecayingSpec, FireSpec, HeatingMediumSpec)) for s in spec.heat_sources):
@@ -508,7 +592,7 @@ def scenario_problem(spec: CaseSpec) -> str | None:
     """Why the case's scenario (stated or default) does not fit its sources, or None."""
     if spec.scenario is None:
         if default_scenario(spec) is None:
-            kinds = sorted({s.kind for s in spec.heat_sources if not isinstance(s, ArrheniusSpec)} - {"constant"})
+            kinds = sorted({s.kind for s in spec.heat_sources if not isinstance(s, TEMPERATURE_DEPENDENT)} - {"constant"})
             return (f"state the scenario: the decomposition source(s) come with {', '.join(kinds)} heat input, so "
                     f"it is not clear what is screened; expected one of cooling-failure (a reactor after loss of "
                     f"cooling: MTSR and criticality class), storage (critical ambient and TMRad at the storage "
@@ -687,7 +771,7 @@ def validate_case_data(data: Any) -> CaseSpec:
         except ValueError as exc:
             problems.append(FieldProblem("sun.exposed_area", f"{exc} (or 'projected')"))
     for i, src in enumerate(spec.heat_sources):
-        if isinstance(src, ArrheniusSpec) and src.tested_range is not None:
+        if isinstance(src, TEMPERATURE_DEPENDENT) and src.tested_range is not None:
             if len(src.tested_range) != 2:
                 problems.append(FieldProblem(f"heat_sources.{i}.tested_range", "expected [low, high] temperatures"))
             else:

@@ -332,6 +332,8 @@ def physically_possible(inp: UncertainInput, values: np.ndarray) -> np.ndarray:
         ok &= (values >= 0) & (values < 86400.0)
     if inp.parts[-1] == "accumulated_fraction":
         ok &= (values > 0) & (values <= 1)
+    if inp.parts[-1] == "initial_conversion":
+        ok &= (values >= 0) & (values < 1)
     if inp.parts[-1] == "fill":
         ok &= values > 0
     return ok

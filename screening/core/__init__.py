@@ -1,1 +1,1 @@
-"""The physics core: pure SI functions and numerics (numpy, scipy, fluids only; no files, units objects or printing)."""
+"""The physics core: pure SI functions and numerics (numpy and scipy only; no files, units objects or printing)."""

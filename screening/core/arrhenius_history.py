@@ -65,7 +65,7 @@ import numpy as np
 from scipy.integrate import Radau, solve_ivp
 from scipy.optimize import brentq
 
-from screening.core.arrhenius import log_arrhenius_rate
+from screening.core.arrhenius import autocatalytic_term, log_arrhenius_rate
 from screening.core.model import GAS_CONSTANT, ScreeningModel
 from screening.core.daily_cycle import cycle_forcing
 from screening.core.terms import conductance_and_drive, constant_power, model_start_temperature
@@ -298,6 +298,11 @@ class _Balance:
                             else 1.0 for s in src], dtype=float)
         self.x0 = np.clip(np.where(self.tracked, 1.0 - np.array([s.accumulated_fraction for s in src],
                                                                   dtype=float), 0.0), 0.0, 1.0)
+        # autocatalytic sources: f(X) = (1 - X)^n (X^m + z), the factor X^m + z from core.arrhenius
+        self.am = np.array([float(s.autocatalytic_order) if s.specific_heat_of_reaction is not None else 0.0
+                            for s in src], dtype=float)
+        self.az = np.array([float(s.initiation) for s in src], dtype=float)
+        self.auto = self.am > 0
         # each source's specific power is capped so that m q / C <= RATE_CAP
         self.ln_cap = math.log(RATE_CAP * self.heat_capacity(0.0) / self.m0)
         self.track_idx = [int(j) for j in np.nonzero(self.tracked)[0]]
@@ -317,6 +322,7 @@ class _Balance:
         self._src = [(j, float(self.lnq[j]), float(self.e_r[j]), float(self.inv_tref[j]),
                       float(self.order[j]), self.pos.get(j), float(self.dh[j]), bool(self.u_mode[j]))
                      for j in range(self.n_src) if self.active[j]]
+        self._auto = {j: (float(self.am[j]), float(self.az[j])) for j in range(self.n_src) if self.auto[j]}
 
     def state_of_conversion(self, j, x):
         """State variable of tracked source j at conversion x."""
@@ -388,14 +394,29 @@ class _Balance:
             else:
                 rate = q / dh
             dq_dT = dq_dv = drate_dT = drate_dv = 0.0
+            auto = self._auto.get(j) if pos is not None else None
+            if auto is not None:  # times X^m + z (one implementation: core.arrhenius.autocatalytic_term)
+                if u_mode:
+                    vu = v if v > 0.0 else 0.0
+                    X = 1.0 - vu ** (1.0 / (1.0 - order))
+                    dX_dv = -vu ** (order / (1.0 - order)) / (1.0 - order)
+                else:
+                    X, dX_dv = v, 1.0
+                g, dg = autocatalytic_term(X, auto[0], auto[1])
+                q_plain, k_plain = q, k_T
+                q, rate = q * g, rate * g
             if with_derivatives:
                 slope = e_r * inv_T * inv_T if (not capped and T > 1.0) else 0.0
                 dq_dT = q * slope
                 if power:
                     dq_dv = power * q / (base if base > 1e-12 else 1e-12) * (1.0 if u_mode else -1.0)
+                if auto is not None:
+                    dq_dv += q_plain * dg * dX_dv
                 if pos is not None:
                     if u_mode:
                         drate_dT = rate * slope
+                        if auto is not None:
+                            drate_dv = -(1.0 - order) * k_plain * dg * dX_dv / dh
                     else:
                         drate_dT, drate_dv = dq_dT / dh, dq_dv / dh
             out.append((pos, q, dq_dT, dq_dv, rate, drate_dT, drate_dv))
@@ -505,6 +526,8 @@ class _Balance:
                     ex = ex + order / (1.0 - order) * np.log(np.maximum(Z[pos], 1e-300))
                 else:
                     ex = ex + order * np.log(np.maximum(1.0 - Z[pos], 1e-300))
+            if pos is not None and j in self._auto:
+                ex = ex + np.log(autocatalytic_term(self.conversion_of_state(j, Z[pos]), *self._auto[j])[0])
             q = np.exp(np.maximum(ex, LN_RATE_FLOOR))
             live = ~done_rows[j]
             gen = gen + self.m0 * np.where(live, q, 0.0)
@@ -662,6 +685,13 @@ def _source_warnings(model: ScreeningModel) -> tuple[list[str], list[str]]:
             else:
                 out.append(f"{tag}: no heat of reaction, so release never stops (zero order, unbounded); "
                            f"this is conservative but the peak temperature is not physical.")
+        elif s.autocatalytic:
+            on_times.append(autocatalytic_caution(tag, s))
+        elif s.role == "synthesis":
+            on_times.append(f"{tag}: depletion is credited with n-th order kinetics fitted at zero "
+                            f"conversion; if the reaction speeds up as it converts (autocatalytic), a rate "
+                            f"measured at zero conversion understates it (not conservative): give it as an "
+                            f"autocatalytic source.")
         else:
             on_times.append(f"{tag}: depletion is credited with n-th order kinetics fitted at zero "
                             f"conversion; an autocatalytic decomposition speeds up as it converts, and a "
@@ -673,6 +703,14 @@ def _source_warnings(model: ScreeningModel) -> tuple[list[str], list[str]]:
                             f"{s.reference_temperature:.1f} K; kinetics extrapolated far from their tested "
                             f"range are not conservative (other reactions may dominate).")
     return out + on_times, on_times
+
+
+def autocatalytic_caution(tag: str, source) -> str:
+    """The caution that goes with every time computed from an autocatalytic source."""
+    return (f"{tag}: autocatalytic kinetics (rate k(T) (1 - X)^n (X^m + z)); the times are very sensitive to the "
+            f"initiation term z = {source.initiation:.4g} and to the initial conversion "
+            f"({(1.0 - source.accumulated_fraction) * 100:.4g} %): aged, recycled or contaminated material, already "
+            f"partly converted or seeded with its own products, reacts much sooner.")
 
 
 # --------------------------------------------------------------------------- main entry
@@ -701,6 +739,9 @@ def _validate(model: ScreeningModel):
             (s.specific_heat_of_reaction is None or s.specific_heat_of_reaction > 0,
              "specific_heat_of_reaction must be positive"),
             (0 <= s.accumulated_fraction <= 1, "accumulated_fraction must be within [0, 1]"),
+            (s.autocatalytic_order >= 0 and s.initiation >= 0, "autocatalytic_order and initiation must be >= 0"),
+            (not s.autocatalytic or s.specific_heat_of_reaction is not None,
+             "an autocatalytic source needs specific_heat_of_reaction"),
         ]
     if model.boiling is not None:
         checks += [(model.boiling.boiling_point > 0, "boiling_point must be positive"),

@@ -122,7 +122,7 @@ from typing import NamedTuple, Sequence
 
 import numpy as np
 
-from screening.core.arrhenius import log_arrhenius_rate
+from screening.core.arrhenius import autocatalytic_term, log_arrhenius_rate
 from screening.core.daily_cycle import CycleForcing, cycle_forcing
 from screening.core.model import GAS_CONSTANT, ScreeningModel
 from screening.core.terms import constant_power, model_start_temperature
@@ -254,6 +254,10 @@ class ArrheniusSamples:
         (conservative).
     initial_conversion : array (N, J) or (J,), [-]
         X_0 = 1 - accumulated fraction, in [0, 1], default 0.
+    autocatalytic_order, initiation : array (N, J) or (J,), [-]
+        m in [0, 10] and z >= 0 of an autocatalytic source, whose rate is
+        q_ref exp(...) (1 - X)^n (X^m + z) (q_ref = Delta h k_ref); default 0 and 0: n-th order.
+        m > 0 needs a heat of reaction.
     forcing : CycleForcing or None, default None
         The daily cycle of the air and the sun (:class:`screening.core.daily_cycle.CycleForcing`, fields
         scalars or arrays (N,), W and s): the drive UA (T_eff(t) - T_a) added to the balance. With it, steps
@@ -280,6 +284,8 @@ class ArrheniusSamples:
     order: object = None
     heat_of_reaction: object = None
     initial_conversion: object = None
+    autocatalytic_order: object = None
+    initiation: object = None
     forcing: object = None
 
 
@@ -351,6 +357,8 @@ class _Inputs(NamedTuple):
     n: np.ndarray
     dh: np.ndarray
     X0: np.ndarray
+    am: np.ndarray  # (N, J) autocatalytic order m (0: n-th order)
+    az: np.ndarray  # (N, J) initiation z
     limits: np.ndarray  # (N, L)
     horizon: np.ndarray  # (N,)
     stop: np.ndarray  # (N,)
@@ -378,7 +386,7 @@ def _prepare(params: ArrheniusSamples, limits, horizon, stop_temperature) -> _In
     items = {k: _per_item(k, getattr(params, k)) for k in
              ("decaying_power", "decay_time", "media_ua", "media_temperature", "specific_power",
               "reference_temperature", "activation_energy", "order", "heat_of_reaction",
-              "initial_conversion")}
+              "initial_conversion", "autocatalytic_order", "initiation")}
     lim = np.asarray(limits, dtype=float)
     if lim.ndim == 0:
         lim = lim.reshape(1, 1)
@@ -429,9 +437,11 @@ def _prepare(params: ArrheniusSamples, limits, horizon, stop_temperature) -> _In
 
     Pd, ad = group(("decaying_power", "decay_time"), {})
     mua, mT = group(("media_ua", "media_temperature"), {})
-    q, Tr, E, n, dh, X0 = group(("specific_power", "reference_temperature", "activation_energy", "order",
-                                 "heat_of_reaction", "initial_conversion"),
-                                {"order": 0.0, "heat_of_reaction": np.nan, "initial_conversion": 0.0})
+    q, Tr, E, n, dh, X0, am, az = group(("specific_power", "reference_temperature", "activation_energy", "order",
+                                         "heat_of_reaction", "initial_conversion", "autocatalytic_order",
+                                         "initiation"),
+                                        {"order": 0.0, "heat_of_reaction": np.nan, "initial_conversion": 0.0,
+                                         "autocatalytic_order": 0.0, "initiation": 0.0})
     lim = mat(lim, lim.shape[1])
 
     fin = [np.isfinite(a) for a in (C, m, ua, Ta, T0, P0, H)]
@@ -461,6 +471,9 @@ def _prepare(params: ArrheniusSamples, limits, horizon, stop_temperature) -> _In
     _bad(~((n >= 0) & (n <= MAX_ORDER)), f"order must be within [0, {MAX_ORDER:g}]")
     _bad(~(np.isnan(dh) | ((dh > 0) & np.isfinite(dh))), "heat_of_reaction must be positive or NaN")
     _bad(~((X0 >= 0) & (X0 <= 1)), "initial_conversion must be within [0, 1]")
+    _bad(~(np.isfinite(am) & (am >= 0) & (am <= MAX_ORDER)), f"autocatalytic_order must be within [0, {MAX_ORDER:g}]")
+    _bad(~(np.isfinite(az) & (az >= 0) & (az <= MAX_MAGNITUDE)), "initiation must be finite and >= 0")
+    _bad((am > 0) & np.isnan(dh), "an autocatalytic source (autocatalytic_order > 0) needs a heat_of_reaction")
     _bad(~(np.isfinite(lim) & (lim > 0) & (lim <= T_CLIP)), f"limits must be within (0, {T_CLIP:g}] K")
     hi = lim.max(axis=1, initial=0.0)
     if stop_temperature is None:
@@ -478,7 +491,8 @@ def _prepare(params: ArrheniusSamples, limits, horizon, stop_temperature) -> _In
                                   ("air", "warmest_time", "solar", "day_length", "start_time"))
         _bad(~np.logical_and.reduce([np.isfinite(a) for a in (fa, ftw, fs, fday, fs0)]), "non-finite forcing")
         _bad(~((fday > 0) & (fday <= 86400.0)), "forcing.day_length must be within (0, 86400] s")
-    return _Inputs(C, m, ua, Ta, T0, P0, Pd, ad, mua, mT, q, Tr, E, n, dh, X0, lim, H, stop, fa, ftw, fs, fday, fs0)
+    return _Inputs(C, m, ua, Ta, T0, P0, Pd, ad, mua, mT, q, Tr, E, n, dh, X0, am, az, lim, H, stop,
+                   fa, ftw, fs, fday, fs0)
 
 
 # --------------------------------------------------------------------------- per-sample coefficients
@@ -490,7 +504,7 @@ class _Coef:
     per_sample = ("iC", "mC", "g", "p0", "lncap", "H", "stop", "hmax", "peakT", "peakt", "monotone",
                   "fa", "ftw", "fs", "fday", "fs0")
     per_item = ("pd", "nia", "lnq", "act", "er", "itr", "pw", "cu", "cw", "umode", "lim", "reached", "atol",
-                "dTad")
+                "dTad", "am", "az", "auto", "xu")
     shared = ("cols", "K", "J", "n", "all_tracked", "rel")
 
     def take(self, rows):
@@ -522,6 +536,7 @@ class _Coef:
         self.any_umode = bool(self.umode.any())
         self.pw_zero = not self.pw.any()
         self.pw_one = bool((self.pw == 1.0).all())
+        self.any_auto = bool(self.auto.any())
 
 
 def _coefficients(inp: _Inputs, rows, cols, rtol) -> tuple[_Coef, np.ndarray]:
@@ -553,6 +568,14 @@ def _coefficients(inp: _Inputs, rows, cols, rtol) -> tuple[_Coef, np.ndarray]:
     P.cu = np.where(umode, (1.0 - order) / safe_dh, 0.0)
     P.cw = np.where(wmode, 1.0 / safe_dh, 0.0)
     P.umode = umode
+    # autocatalytic sources: f = (1 - X)^n (X^m + z), the factor from core.arrhenius.autocatalytic_term;
+    # X = 1 - v for the state v = w, X = 1 - u^xu (xu = 1 / (1 - n)) for the state u
+    P.am = np.where(tracked, inp.am[rows].T, 0.0)
+    P.az = np.where(tracked, inp.az[rows].T, 0.0)
+    P.auto = P.am > 0
+    P.xu = np.where(umode, 1.0 / np.where(umode, 1.0 - order, 1.0), 1.0)
+    # an autocatalytic rate can grow as the reactant falls: no early finish of cooling samples
+    P.monotone = P.monotone & ~P.auto.any(axis=0)
     P.cols = cols
     P.K = len(cols)
     P.J = q.shape[0]
@@ -635,6 +658,13 @@ def _flux(P: _Coef, Z, jac=False):
                 kl = np.where(P.umode & (V <= 0.0), 0.0, k)
             else:
                 kl = k
+            if P.any_auto:  # kl times X^m + z; the slope of that factor with the state for the Jacobian
+                Vc = np.minimum(np.maximum(V, 0.0), 1.0)
+                X = np.where(P.umode, 1.0 - np.power(Vc, P.xu), 1.0 - Vc)
+                ga, dga = autocatalytic_term(X, P.am, P.az)
+                ga = np.where(P.auto, ga, 1.0)
+                dX_dv = np.where(P.umode, -P.xu * np.power(Vc, P.pw), -1.0)
+                kl0, kl = kl, kl * ga
             # states lie in [0, 1]; a stage of a step about to be rejected may not, and is held
             # within [0, 4] so that no power overflows
             if P.pw_zero:
@@ -680,12 +710,18 @@ def _flux(P: _Coef, Z, jac=False):
                 dqdv = kl
             else:
                 dqdv = kl * P.pw * np.power(np.maximum(base, 1e-12), P.pw - 1.0)
+            drdv = None
+            if P.any_auto:  # d(k g(X(v)) v^pw)/dv and d(rate)/dv of the autocatalytic factor
+                dgv = np.where(P.auto, kl0 * dga * dX_dv, 0.0)
+                pv = 1.0 if P.pw_zero else np.power(np.minimum(np.maximum(V, 0.0), 4.0), P.pw)
+                dqdv = dgv * pv if dqdv is None else dqdv + dgv * pv
+                drdv = -(P.cu * dgv + P.cw * dqdv)
             drdT = rate * slope
             for c, j in enumerate(P.cols):
                 JF[1 + c, 0] = drdT[j]
                 if dqdv is not None:
                     JF[0, 1 + c] = P.mC * dqdv[j]
-                    JF[1 + c, 1 + c] = -P.cw[j] * dqdv[j]
+                    JF[1 + c, 1 + c] = -P.cw[j] * dqdv[j] if drdv is None else drdv[j]
     # d rho / dz = (F_T JF[0] / V^2 + sum F_v JF[v] / W^2) / rho
     grad = JF[0] * (F[0] * (irho / STRETCH_RATE_T ** 2))
     for c in range(K):
@@ -973,7 +1009,9 @@ def _advance(W: _Work, out: _Out):
     temperature is reached and the running peak is final.  The test is
     f < -margin, the margin covering a state error of 1000 local tolerances
     (for a reactant all but used up, the heat it can still release, which
-    must also leave T below the next limit).
+    must also leave T below the next limit).  Two kinds of sample never finish
+    early: one with an autocatalytic source (its rate can grow as the reactant
+    falls) and one with a daily cycle (the air and the sun may turn it round).
     """
     P, Z = W.P, W.Z
     G0, JG = _flux(P, Z, jac=True)
@@ -1486,6 +1524,8 @@ def samples_from_models(models: Sequence[ScreeningModel]):
     n = np.zeros((N, J))
     dh = np.full((N, J), np.nan)
     X0 = np.zeros((N, J))
+    am = np.zeros((N, J))
+    az = np.zeros((N, J))
     for i, md in enumerate(models):
         for d, s in enumerate(md.decaying_sources):
             Pd[i, d], ad[i, d] = s.power, s.time_constant
@@ -1497,6 +1537,7 @@ def samples_from_models(models: Sequence[ScreeningModel]):
                 dh[i, j] = s.specific_heat_of_reaction
                 n[i, j] = s.order
                 X0[i, j] = min(max(1.0 - s.accumulated_fraction, 0.0), 1.0)
+                am[i, j], az[i, j] = s.autocatalytic_order, s.initiation
     params = ArrheniusSamples(
         heat_capacity=np.array([md.heat_capacity for md in models]),
         contents_mass=np.array([md.contents_mass for md in models]),
@@ -1506,7 +1547,8 @@ def samples_from_models(models: Sequence[ScreeningModel]):
         constant_power=np.array([constant_power(md) for md in models]),
         decaying_power=Pd, decay_time=ad, media_ua=mua, media_temperature=mT,
         specific_power=q, reference_temperature=Tr, activation_energy=E, order=n, heat_of_reaction=dh,
-        initial_conversion=X0, forcing=_stacked_forcing(models))
+        initial_conversion=X0, autocatalytic_order=am if am.any() else None,
+        initiation=az if am.any() else None, forcing=_stacked_forcing(models))
     limits = np.array([[lim.temperature for lim in md.limits] for md in models]).reshape(N, -1)
     horizon = np.array([md.horizon for md in models])
     return params, limits, horizon

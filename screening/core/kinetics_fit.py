@@ -19,7 +19,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from screening.core.arrhenius import log_arrhenius_rate
+from screening.core.arrhenius import autocatalytic_term, log_arrhenius_rate
 from screening.core.model import GAS_CONSTANT
 
 __all__ = ["RunRates", "KineticFit", "kissinger", "flynn_wall_ozawa", "friedman", "fit_nth_order",
@@ -415,8 +415,8 @@ def _model_rate(model, p, temperature, conversion, reference_temperature):
     a = np.clip(conversion, 0.0, 1.0)
     k = np.exp(_log_k(p, 1.0 / temperature, 1.0 / reference_temperature))
     rate = k * (1.0 - a) ** p["order"]
-    if model == AUTOCATALYTIC:
-        rate = rate * (a ** p["autocatalytic_order"] + math.exp(p["ln_initiation"]))
+    if model == AUTOCATALYTIC:  # times alpha^m + z (core.arrhenius.autocatalytic_term)
+        rate = rate * autocatalytic_term(a, p["autocatalytic_order"], math.exp(p["ln_initiation"]))[0]
     return rate
 
 
@@ -454,7 +454,8 @@ def _fit_rates(model, names, runs, reference_temperature, starts, lo, hi):
     inv_ref = 1.0 / reference_temperature
     one_minus = np.clip(1.0 - conv, 1e-12, 1.0)
     ln_one_minus = np.log(one_minus)
-    ln_a = np.log(np.clip(conv, 1e-12, 1.0))
+    a_fit = np.clip(conv, 1e-12, 1.0)
+    ln_a = np.log(a_fit)
     # internal variables: ln k, E / (R T_ref), n[, m, ln z]; E scaled for conditioning
     scale = np.ones(len(names))
     scale[1] = GAS_CONSTANT * reference_temperature
@@ -464,10 +465,8 @@ def _fit_rates(model, names, runs, reference_temperature, starts, lo, hi):
         k = np.exp(_log_k(p, inv_t, inv_ref))
         f = one_minus ** p["order"]
         g = 1.0
-        if model == AUTOCATALYTIC:
-            am = np.exp(p["autocatalytic_order"] * ln_a)
-            z = math.exp(p["ln_initiation"])
-            g = am + z
+        if model == AUTOCATALYTIC:  # alpha^m + z (core.arrhenius.autocatalytic_term)
+            g = autocatalytic_term(a_fit, p["autocatalytic_order"], math.exp(p["ln_initiation"]))[0]
         return p, k, f, g
 
     def residuals(x):
@@ -518,7 +517,7 @@ def _conversion_function(model, p):
     a = _ALPHA_GRID
     h = (1.0 - a) ** p["order"]
     if model == AUTOCATALYTIC:
-        h = h * (a ** p["autocatalytic_order"] + math.exp(p["ln_initiation"]))
+        h = h * autocatalytic_term(a, p["autocatalytic_order"], math.exp(p["ln_initiation"]))[0]
     return h
 
 
@@ -553,7 +552,7 @@ def _generation(model, names, v, reference_temperature, blocks):
         alpha = conversion_from_time_integral(model, p, big_k)
         h = (1.0 - alpha) ** p["order"]
         if model == AUTOCATALYTIC:
-            h = h * (alpha ** p["autocatalytic_order"] + math.exp(p["ln_initiation"]))
+            h = h * autocatalytic_term(alpha, p["autocatalytic_order"], math.exp(p["ln_initiation"]))[0]
         out.append(k * h)
     return out
 
@@ -728,7 +727,7 @@ def _log_linear_start(runs, reference_temperature, lo, hi, m=None, z=None):
     temp, conv, rate = temp[ok], conv[ok], rate[ok]
     y = np.log(rate)
     if m is not None:
-        y = y - np.log(np.clip(conv, 1e-12, 1.0) ** m + z)
+        y = y - np.log(autocatalytic_term(np.clip(conv, 1e-12, 1.0), m, z)[0])
     x = -(1.0 / temp - 1.0 / reference_temperature) / GAS_CONSTANT
     a = np.column_stack([np.ones_like(x), x, np.log(np.clip(1.0 - conv, 1e-12, 1.0))])
     coef, *_ = np.linalg.lstsq(a, y, rcond=None)
@@ -869,10 +868,10 @@ def autocatalytic_tmr_adiabatic(initial_temperature, adiabatic_rise, rate_consta
 
     .. math:: TMR_{ad} = \int_{\alpha_0}^{\alpha^*} \frac{d\alpha}{k(T(\alpha))(1-\alpha)^n(\alpha^m + z)}
 
-    with :math:`\alpha^*` the conversion of maximum rate (found on a fine grid and refined by bounded scalar
-    minimisation); the integral by adaptive quadrature (scipy ``quad``).  Townsend and Tou's closed form is
-    the zero-order asymptote and does not apply to an autocatalytic reaction.  (The autocatalytic source kind's
-    own criteria, when they land, compute the same integral; the two should be unified.)
+    with :math:`\alpha^*` the conversion of maximum rate, computed by the autocatalytic source kind's own
+    criterion (:func:`screening.core.runaway.autocatalytic.tmr_adiabatic_integrated`, the integrated adiabatic
+    history), so that the kinetics command and the screening give the same TMRad.  Townsend and Tou's closed
+    form is the zero-order asymptote and does not apply to an autocatalytic reaction.
 
     References
     ----------
@@ -886,29 +885,12 @@ def autocatalytic_tmr_adiabatic(initial_temperature, adiabatic_rise, rate_consta
     >>> round(autocatalytic_tmr_adiabatic(400.0, 100.0, 1e-3, 400.0, 1e-9, 1.0, 1.0, 0.01), 1)
     4559.6
     """
-    from scipy.integrate import quad
-    from scipy.optimize import minimize_scalar
+    from screening.core.model import ArrheniusSource
+    from screening.core.runaway.autocatalytic import tmr_adiabatic_integrated
 
-    a0 = float(initial_conversion)
-
-    def ln_rate(a):
-        t = initial_temperature + adiabatic_rise * (a - a0)
-        return (log_arrhenius_rate(1.0 / t, math.log(rate_constant), activation_energy / GAS_CONSTANT,
-                                   1.0 / reference_temperature)
-                + order * math.log(max(1.0 - a, 1e-300)) + math.log(a ** autocatalytic_order + initiation))
-
-    grid = a0 + (1.0 - a0) * np.concatenate([np.geomspace(1e-9, 1e-2, 60), np.linspace(1e-2, 1 - 1e-9, 2000)])
-    values = np.array([ln_rate(a) for a in grid])
-    i = int(np.argmax(values))
-    lo, hi = grid[max(i - 1, 0)], grid[min(i + 1, grid.size - 1)]
-    if i == 0:
-        a_star = a0
-    else:
-        a_star = float(minimize_scalar(lambda a: -ln_rate(a), bounds=(lo, hi), method="bounded",
-                                       options={"xatol": 1e-12}).x)
-    if a_star <= a0:
-        return 0.0
-    breaks = [a for a in a0 + (a_star - a0) * np.array([1e-4, 1e-3, 1e-2, 0.1, 0.5])]
-    value, _ = quad(lambda a: math.exp(-ln_rate(a)), a0, a_star, points=breaks, limit=500, epsabs=0.0,
-                    epsrel=1e-10)
-    return float(value)
+    # one implementation: the source kind's criterion, on 1 kg with c_p = 1 J/(kg K), so Delta h = Delta T_ad
+    source = ArrheniusSource(adiabatic_rise * rate_constant, reference_temperature, activation_energy,
+                             order=order, specific_heat_of_reaction=adiabatic_rise,
+                             accumulated_fraction=1.0 - float(initial_conversion),
+                             autocatalytic_order=autocatalytic_order, initiation=initiation)
+    return float(tmr_adiabatic_integrated(initial_temperature, 1.0, [source]))

@@ -135,7 +135,9 @@ class ArrheniusSource:
     Parameters
     ----------
     specific_power : float, [W/kg]
-        q_ref >= 0, the rate at ``reference_temperature`` and zero conversion.
+        q_ref >= 0, the rate at ``reference_temperature`` per unit of the conversion function
+        f(X): for an n-th order reaction (f(0) = 1) the rate at zero conversion; for an
+        autocatalytic one Delta h times its rate constant k_ref.
     reference_temperature : float, [K]
         T_ref > 0.
     activation_energy : float, [J/mol]
@@ -158,16 +160,24 @@ class ArrheniusSource:
         "decomposition" (a self-heating hazard: it sets T_D24, TMRad and the severity).
     label : str or None, default None
         How the output names the source (the case's label and place).
+    autocatalytic_order : float, [-], default 0
+        m; 0 for an n-th order reaction, m > 0 for an autocatalytic one (which then needs a
+        heat of reaction).
+    initiation : float, [-], default 0
+        z >= 0, the ratio of the initiation to the autocatalytic rate constant (autocatalytic
+        only; taken as independent of temperature).
 
     Notes
     -----
     .. math:: q(T, X) = q_{ref} \exp\left[-\frac{E}{R}\left(\frac{1}{T}
-              - \frac{1}{T_{ref}}\right)\right] (1 - X)^n, \qquad
+              - \frac{1}{T_{ref}}\right)\right] f(X), \qquad
               \frac{dX}{dt} = \frac{q(T, X)}{\Delta h}
 
-    (evaluated by :func:`screening.core.arrhenius.arrhenius_specific_power`).  Fitting
-    n-th order kinetics at zero conversion understates an autocatalytic decomposition,
-    whose rate rises as it converts: not conservative.
+    with the conversion function :math:`f(X) = (1 - X)^n` (n-th order) or
+    :math:`f(X) = (1 - X)^n (X^m + z)` (autocatalytic), written once in
+    :func:`screening.core.arrhenius.conversion_function`.  Fitting n-th order kinetics at
+    zero conversion understates an autocatalytic reaction, whose rate rises as it converts:
+    not conservative.
 
     References
     ----------
@@ -186,6 +196,13 @@ class ArrheniusSource:
     tested_range: tuple[float, float] | None = None  # K, where the kinetics were measured
     role: str = "decomposition"  # "synthesis" | "decomposition"
     label: str | None = None
+    autocatalytic_order: float = 0.0  # m; 0: n-th order
+    initiation: float = 0.0  # z, autocatalytic only
+
+    @property
+    def autocatalytic(self) -> bool:
+        """Whether the rate follows the autocatalytic form (1 - X)^n (X^m + z)."""
+        return self.autocatalytic_order > 0
 
 
 @dataclass(frozen=True)

@@ -1,9 +1,9 @@
-r"""Vessel volumes, liquid heights and wetted areas.
+r"""Vessel volumes, liquid heights and wetted areas of one vessel.
 
-Cylinders with heads and partial fill come from the ``fluids`` library
-(``fluids.geometry.TANK``); spheres from ``fluids.geometry`` partial-sphere
-functions; boxes are exact rectangular formulas.  All lengths in m, areas in
-m^2, volumes in m^3.
+Each function is the array function of :mod:`screening.core.vessel_geometry_arrays` called
+with a group of one, so a case and a register row share one implementation (closed forms,
+and a fixed Gauss-Legendre rule where a horizontal head has none).  All lengths in m, areas
+in m^2, volumes in m^3.
 
 Heads: flat; hemispherical (depth D/2); 2:1 semi-ellipsoidal (depth D/4, volume
 :math:`\pi D^3/24` each); torispherical (crown radius f D, knuckle radius k D,
@@ -12,23 +12,16 @@ wetted area includes the bottom (and the top when the vessel is brim-full).
 
 References
 ----------
-Bell, C. and contributors, *fluids: Fluid dynamics component of the Chemical
-Engineering Design Library (ChEDL)*, ``fluids.geometry`` (``TANK``,
-``V_partial_sphere``, ``SA_partial_sphere``), version 1.x; its documentation
-names the sources of each head formula.
+Standard mensuration (common practice); see :mod:`screening.core.vessel_geometry_arrays`.
+The tests check every shape against mpmath quadrature and against ``fluids.geometry.TANK``
+(Bell, C. and contributors, *fluids*, version 1.x) where its formulas are closed forms.
 """
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
 
-from screening.core.root_finding import brent_root
-from screening.core.root_finding import brent_root as brentq
-
-# fluids' default torispherical proportion: crown radius = 1.0 D, knuckle radius = 0.06 D
-# (a common flanged-and-dished proportion, common practice).
-DEFAULT_CROWN_FRACTION = 1.0
-DEFAULT_KNUCKLE_FRACTION = 0.06
+from screening.core import vessel_geometry_arrays as arrays
+from screening.core.vessel_geometry_arrays import DEFAULT_CROWN_FRACTION, DEFAULT_KNUCKLE_FRACTION  # noqa: F401
 
 
 @dataclass(frozen=True)
@@ -63,25 +56,9 @@ class VesselShape:
     knuckle_radius: float | None = None
 
 
-def _tank(v: VesselShape):
-    from fluids.geometry import TANK
-
-    horizontal = v.shape == "horizontal-cylinder"
-    if v.heads == "flat":
-        side = None
-        kwargs = {}
-    elif v.heads == "hemispherical":
-        side = "spherical"
-        kwargs = {"sideA_a": v.diameter / 2, "sideB_a": v.diameter / 2}
-    elif v.heads == "ellipsoidal":
-        side = "ellipsoidal"
-        kwargs = {"sideA_a": v.diameter / 4, "sideB_a": v.diameter / 4}  # 2:1 semi-ellipsoidal
-    else:
-        side = "torispherical"
-        f = (v.crown_radius / v.diameter) if v.crown_radius else DEFAULT_CROWN_FRACTION
-        k = (v.knuckle_radius / v.diameter) if v.knuckle_radius else DEFAULT_KNUCKLE_FRACTION
-        kwargs = {"sideA_f": f, "sideA_k": k, "sideB_f": f, "sideB_k": k}
-    return TANK(D=v.diameter, L=v.length, horizontal=horizontal, sideA=side, sideB=side, **kwargs)
+def _one(v: VesselShape) -> arrays.VesselArrays:
+    """The vessel as arrays of one row."""
+    return arrays.VesselArrays.of([v])
 
 
 def total_volume(v: VesselShape) -> float:
@@ -97,13 +74,12 @@ def total_volume(v: VesselShape) -> float:
 
     Notes
     -----
-    Box :math:`L W H`; sphere :math:`\pi D^3/6`; cylinders from ``fluids.geometry.TANK``
-    (straight side :math:`\pi D^2 L/4` plus the heads).
+    Box :math:`L W H`; sphere :math:`\pi D^3/6`; cylinders the straight side :math:`\pi D^2 L/4`
+    plus the heads (:func:`screening.core.vessel_geometry_arrays.total_volume`).
 
     References
     ----------
-    Bell, C. and contributors, *fluids*, ``fluids.geometry`` (``TANK``, partial spheres), version 1.x;
-    hand formulas for the flat, hemispherical and 2:1 ellipsoidal cases (common practice).
+    Standard mensuration (common practice); :mod:`screening.core.vessel_geometry_arrays`.
 
     Examples
     --------
@@ -118,11 +94,7 @@ def total_volume(v: VesselShape) -> float:
     >>> round(total_volume(VesselShape("sphere", diameter=2.0)), 6)
     4.18879
     """
-    if v.shape == "box":
-        return v.length * v.width * v.height
-    if v.shape == "sphere":
-        return math.pi * v.diameter ** 3 / 6.0
-    return float(_tank(v).V_total)
+    return float(arrays.total_volume(_one(v))[0])
 
 
 def total_area(v: VesselShape) -> float:
@@ -138,13 +110,12 @@ def total_area(v: VesselShape) -> float:
 
     Notes
     -----
-    Box :math:`2(LW + LH + WH)`; sphere :math:`\pi D^2`; cylinders from
-    ``fluids.geometry.TANK`` (shell :math:`\pi D L` plus the heads).
+    Box :math:`2(LW + LH + WH)`; sphere :math:`\pi D^2`; cylinders the shell :math:`\pi D L`
+    plus the heads (:func:`screening.core.vessel_geometry_arrays.total_area`).
 
     References
     ----------
-    Bell, C. and contributors, *fluids*, ``fluids.geometry`` (``TANK``, partial spheres), version 1.x;
-    hand formulas for the flat, hemispherical and 2:1 ellipsoidal cases (common practice).
+    Standard mensuration (common practice); :mod:`screening.core.vessel_geometry_arrays`.
 
     Examples
     --------
@@ -158,11 +129,7 @@ def total_area(v: VesselShape) -> float:
     >>> total_area(VesselShape("box", length=2.0, width=1.0, height=1.5))
     13.0
     """
-    if v.shape == "box":
-        return 2.0 * (v.length * v.width + v.length * v.height + v.width * v.height)
-    if v.shape == "sphere":
-        return math.pi * v.diameter ** 2
-    return float(_tank(v).A)
+    return float(arrays.total_area(_one(v))[0])
 
 
 def maximum_height(v: VesselShape) -> float:
@@ -180,8 +147,7 @@ def maximum_height(v: VesselShape) -> float:
 
     References
     ----------
-    Bell, C. and contributors, *fluids*, ``fluids.geometry`` (``TANK``, partial spheres), version 1.x;
-    hand formulas for the flat, hemispherical and 2:1 ellipsoidal cases (common practice).
+    Standard mensuration (common practice); :mod:`screening.core.vessel_geometry_arrays`.
 
     Examples
     --------
@@ -193,11 +159,7 @@ def maximum_height(v: VesselShape) -> float:
     >>> maximum_height(VesselShape("horizontal-cylinder", diameter=2.0, length=3.0, heads="ellipsoidal"))
     2.0
     """
-    if v.shape == "box":
-        return v.height
-    if v.shape == "sphere":
-        return v.diameter
-    return float(_tank(v).h_max)
+    return float(arrays.maximum_height(_one(v))[0])
 
 
 def liquid_height(v: VesselShape, liquid_volume: float) -> float:
@@ -215,13 +177,12 @@ def liquid_height(v: VesselShape, liquid_volume: float) -> float:
 
     Notes
     -----
-    Inverts the monotone V(h) of ``fluids`` (or of the partial sphere) with Brent's
-    method (:func:`screening.core.root_finding.brent_root`) to about 1e-13 m.
+    Inverts V(h) by a safeguarded Newton iteration
+    (:func:`screening.core.vessel_geometry_arrays.liquid_height`) to about 1e-14 of the height.
 
     References
     ----------
-    Bell, C. and contributors, *fluids*, ``fluids.geometry`` (``TANK``, partial spheres), version 1.x;
-    hand formulas for the flat, hemispherical and 2:1 ellipsoidal cases (common practice).
+    Standard mensuration (common practice); :mod:`screening.core.vessel_geometry_arrays`.
 
     Examples
     --------
@@ -238,23 +199,7 @@ def liquid_height(v: VesselShape, liquid_volume: float) -> float:
     >>> round(liquid_height(VesselShape("vertical-cylinder", diameter=2.0, length=3.0), math.pi * 1.5), 9)
     1.5
     """
-    full = total_volume(v)
-    if liquid_volume >= full:
-        return maximum_height(v)
-    if liquid_volume <= 0:
-        return 0.0
-    if v.shape == "box":
-        return liquid_volume / (v.length * v.width)
-    if v.shape == "sphere":
-        from fluids.geometry import V_partial_sphere
-
-        return float(brentq(lambda h: V_partial_sphere(v.diameter, h) - liquid_volume, 0.0, v.diameter,
-                            xtol=1e-12, rtol=1e-14))
-    tank = _tank(v)
-    # Invert the monotone V(h) ourselves: fluids' h_from_V builds a spline table (slow to import).
-
-    return float(brent_root(lambda h: float(tank.V_from_h(h)) - liquid_volume, 0.0, float(tank.h_max),
-                            xtol=1e-13, rtol=1e-15))
+    return float(arrays.liquid_height(_one(v), liquid_volume)[0])
 
 
 def wetted_area(v: VesselShape, liquid_volume: float) -> float:
@@ -272,13 +217,12 @@ def wetted_area(v: VesselShape, liquid_volume: float) -> float:
 
     Notes
     -----
-    Box :math:`LW + 2(L + W) h`; sphere :math:`\pi D h` (spherical cap, via
-    ``fluids.geometry.SA_partial_sphere``); cylinders ``fluids.geometry.TANK.SA_from_h``.
+    Box :math:`LW + 2(L + W) h`; sphere :math:`\pi D h` (spherical zone); cylinders
+    :func:`screening.core.vessel_geometry_arrays.wetted_area_at_height`.
 
     References
     ----------
-    Bell, C. and contributors, *fluids*, ``fluids.geometry`` (``TANK``, partial spheres), version 1.x;
-    hand formulas for the flat, hemispherical and 2:1 ellipsoidal cases (common practice).
+    Standard mensuration (common practice); :mod:`screening.core.vessel_geometry_arrays`.
 
     Examples
     --------
@@ -295,19 +239,7 @@ def wetted_area(v: VesselShape, liquid_volume: float) -> float:
     >>> wetted_area(VesselShape("box", length=2.0, width=1.0, height=1.5), 1.0)
     5.0
     """
-    h = liquid_height(v, liquid_volume)
-    if v.shape == "box":
-        if h >= v.height:  # brim-full: the lid is wetted too, as for full cylinders and spheres
-            return total_area(v)
-        return v.length * v.width + 2.0 * (v.length + v.width) * h
-    if v.shape == "sphere":
-        from fluids.geometry import SA_partial_sphere
-
-        return float(SA_partial_sphere(v.diameter, h)) if h < v.diameter else math.pi * v.diameter ** 2
-    tank = _tank(v)
-    if h >= tank.h_max:
-        return float(tank.A)
-    return float(tank.SA_from_h(h))
+    return float(arrays.liquid_height(_one(v), liquid_volume, with_area=True)[1][0])
 
 
 def wetted_area_below(v: VesselShape, liquid_volume: float, height_above_bottom: float) -> float:
@@ -328,8 +260,7 @@ def wetted_area_below(v: VesselShape, liquid_volume: float, height_above_bottom:
 
     References
     ----------
-    Bell, C. and contributors, *fluids*, ``fluids.geometry`` (``TANK``, partial spheres), version 1.x;
-    hand formulas for the flat, hemispherical and 2:1 ellipsoidal cases (common practice).
+    Standard mensuration (common practice); :mod:`screening.core.vessel_geometry_arrays`.
 
     Examples
     --------
@@ -339,11 +270,12 @@ def wetted_area_below(v: VesselShape, liquid_volume: float, height_above_bottom:
     >>> wetted_area_below(VesselShape("box", length=2.0, width=1.0, height=1.5), 2.0, 0.25)
     3.5
     """
-    h_liquid = liquid_height(v, liquid_volume)
+    one = _one(v)
+    h_liquid = float(arrays.liquid_height(one, liquid_volume)[0])
     h = max(0.0, min(h_liquid, height_above_bottom))
     if h <= 0:
         return 0.0
-    return wetted_area(v, liquid_volume_at_height(v, h))
+    return float(arrays.wetted_area_at_height(one, h)[0])
 
 
 def liquid_volume_at_height(v: VesselShape, h: float) -> float:
@@ -361,13 +293,12 @@ def liquid_volume_at_height(v: VesselShape, h: float) -> float:
 
     Notes
     -----
-    Box :math:`L W h`; sphere :math:`\pi h^2 (3 D/2 - h)/3` (``fluids.geometry.V_partial_sphere``);
-    cylinders ``fluids.geometry.TANK.V_from_h``.
+    Box :math:`L W h`; sphere :math:`\pi h^2 (3 D/2 - h)/3`; cylinders
+    :func:`screening.core.vessel_geometry_arrays.volume_at_height`.
 
     References
     ----------
-    Bell, C. and contributors, *fluids*, ``fluids.geometry`` (``TANK``, partial spheres), version 1.x;
-    hand formulas for the flat, hemispherical and 2:1 ellipsoidal cases (common practice).
+    Standard mensuration (common practice); :mod:`screening.core.vessel_geometry_arrays`.
 
     Examples
     --------
@@ -376,14 +307,7 @@ def liquid_volume_at_height(v: VesselShape, h: float) -> float:
     >>> round(liquid_volume_at_height(VesselShape("sphere", diameter=2.0), 1.0), 6)
     2.094395
     """
-    if v.shape == "box":
-        return v.length * v.width * min(h, v.height)
-    if v.shape == "sphere":
-        from fluids.geometry import V_partial_sphere
-
-        return float(V_partial_sphere(v.diameter, min(h, v.diameter)))
-    tank = _tank(v)
-    return float(tank.V_from_h(min(h, tank.h_max)))
+    return float(arrays.volume_at_height(_one(v), h)[0])
 
 
 def conduction_shape(v: VesselShape | None) -> tuple[str, float] | None:

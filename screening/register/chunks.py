@@ -220,7 +220,9 @@ def _validate_chunk(work: ChunkWork) -> ChunkTask:
                     if rep_index not in rep_inputs:
                         rep_inputs[rep_index] = collect_inputs(validated[rep_index][0])
                     inputs = _derive_inputs(rep_inputs[rep_index], updates)
-                prep = prepare_case(spec, inputs=inputs)
+                prep = rep_prepared.get(i) if hint is None else None  # a representative is prepared once
+                if prep is None:
+                    prep = prepare_case(spec, inputs=inputs)
                 prepared_all[i] = (prep, _row_hash(work, cells))
                 if not prep.model.arrhenius_sources and prep.model.daily_cycle is None:
                     closed.append(prep)

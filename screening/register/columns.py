@@ -4,11 +4,15 @@ Most registers are many rows of one shape: the same filled columns over the
 same base case, differing only in numbers.  When such a group's representative
 row (validated and screened in full) is a simple closed-form case, namely
 
-* a heat-up scenario (no synthesis or decomposition source), no vessel geometry, heat loss as a given
-  UA, no fire, heating medium, boiling data, cooling recovery, alarm or uncertainty block,
+* a heat-up scenario (no synthesis or decomposition source), no fire, heating medium, boiling data,
+  cooling recovery, alarm or uncertainty block, and either
+* no vessel block and heat loss as a given UA, or
+* a vessel given by geometry with stirred contents and heat loss as a given UA or a coefficient on
+  the wetted, total or a given area (a group of tanks: its volumes, areas, mass and UA come from
+  :mod:`screening.case.geometry_columns`, the functions prepare_case calls with a group of one),
 
 and every column that varies in the group is one of the quantities listed in
-:data:`VARYING_PATHS` (or the id or title), the other rows need not be built
+:data:`VARYING_PATHS` (or :data:`GEOMETRY_PATHS` for tanks, or the id or title), the other rows need not be built
 one by one.  Their cells are parsed a column at a time with the column's unit
 looked up once, the SI model numbers are assembled as arrays, the vectorised
 engine runs once for the group, and each row's result object is the
@@ -31,10 +35,19 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from screening.case.geometry_columns import (
+    HIGH_COEFFICIENT,
+    heat_loss_columns,
+    high_coefficient_warning,
+    is_over_full,
+    over_full_warning,
+    vessel_columns,
+)
 from screening.case.paths import model_slot
 from screening.case.prepare import display_unit_from_texts
 from screening.case.units import UnitError, unit_factor
 from screening.core.terms import conductance_and_drive, heat_capacity
+from screening.core.vessel_geometry_arrays import VesselArrays
 from screening.register.reading import Column
 from screening.register.rows import _NUMBER_ONLY, _cell_value
 from screening.register.validation import _is_absolute_temperature
@@ -62,10 +75,17 @@ VARYING_KEYS = frozenset({
     "id", "title", "time_constant_s", "peak_temperature_K", "peak_time_s", "steady_temperature_K", "limits",
     "adiabatic", "warnings", "detection_time_s", "response_time_s", "initial_temperature_K", "ambient_temperature_K",
     "horizon_s", "heat_capacity_J_per_K", "ua_W_per_K", "limit_exceeded_at_start", "assumptions", "inputs", "units",
-    "input_hash"})
+    "input_hash", "geometry"})
 
 #: Raise instead of falling back when a group's self-check fails (the tests set this).
 STRICT_SELF_CHECK = False
+
+#: Quantity paths a group of tanks given by geometry may also vary (path -> kind).
+GEOMETRY_PATHS = {("vessel", "diameter"): "diameter", ("vessel", "length"): "length", ("vessel", "width"): "width",
+                  ("vessel", "height"): "height", ("vessel", "crown_radius"): "crown_radius",
+                  ("vessel", "knuckle_radius"): "knuckle_radius", ("contents", "fill"): "fill",
+                  ("contents", "volume"): "volume", ("contents", "density"): "density",
+                  ("heat_loss", "coefficient"): "coefficient"}
 
 #: Model slots (screening.case.paths) a uniform group may vary, column by column.
 _SCALAR_KINDS = ("mass", "cp", "T0", "Ta", "ua", "H", "response")
@@ -93,8 +113,11 @@ def plan_group(rep, fast_cols) -> list[_Varying] | None:
     (column, role, parser, field name, marker).
     """
     spec, model = rep.spec, rep.model
+    tank = _is_tank_group(rep)
+    if tank is None:
+        return None
     if (model.scenario != "heat-up" or model.released_at_start
-            or spec.vessel is not None or spec.heat_loss.ua is None or spec.contents.mass is None
+            or (not tank and (spec.heat_loss.ua is None or spec.contents.mass is None))
             or model.arrhenius_sources or model.fire_sources or model.heating_media or model.boiling is not None
             or rep.recovery is not None or rep.detection_alarm is not None or rep.uncertainty_plan is not None
             or model.wall_heat_capacity != 0.0 or model.daily_cycle is not None):
@@ -107,11 +130,27 @@ def plan_group(rep, fast_cols) -> list[_Varying] | None:
                 return None
             out.append(_Varying(col, path[0], 0, None, path[0]))
             continue
+        if tank and path in GEOMETRY_PATHS and marker is not None:
+            out.append(_Varying(col, GEOMETRY_PATHS[path], 0, marker, ".".join(path)))
+            continue
         slot = model_slot(spec, path, rep.source_positions)
         if slot is None or slot.kind not in _COLUMN_KINDS or marker is None:
             return None
         out.append(_Varying(col, slot.kind, slot.index, marker, ".".join(str(p) for p in path)))
     return out
+
+
+def _is_tank_group(rep) -> bool | None:
+    """True for a vessel given by its geometry that a group can take (stirred contents, heat loss as a given UA
+    or a coefficient on the wetted, total or a given area), False without a vessel block, None otherwise."""
+    spec = rep.spec
+    if spec.vessel is None:
+        return False
+    if spec.vessel.shape is None or rep.model.mixing != "stirred":
+        return None
+    if spec.heat_loss.ua is None and "heat_loss_area_m2" not in rep.geometry:
+        return None
+    return True
 
 
 def _parse_column(v: _Varying, cells: list[str]):
@@ -210,6 +249,12 @@ def screen_group(rep, rep_index: int, rows: list[list[str]], members: list[int],
     if not ok[0]:
         return GroupResults({}, list(members))
     cols = _model_columns(rep, plan, parsed, n)
+    tank = None
+    if rep.spec.vessel is not None:
+        tank = _TankColumns(rep, plan, parsed, cols, n)
+        ok &= tank.ok
+        if not ok[0]:
+            return GroupResults({}, list(members))
 
     m = rep.model
     nl = len(m.limits)
@@ -233,7 +278,7 @@ def screen_group(rep, rep_index: int, rows: list[list[str]], members: list[int],
         return GroupResults({}, list(members))
     numbers = _GroupNumbers(rep, cols, C, G, Q0, times[:, :nl], summary, ad_times)
     reference = rep_result_of(numbers.values_of(0))
-    builder = _RowBuilder(rep, plan, parsed, numbers, dict(reference))
+    builder = _RowBuilder(rep, plan, parsed, numbers, dict(reference), tank)
     mine = builder.result(0, row_hash(rows[rep_index]))
     reference["input_hash"] = mine["input_hash"]
     if mine != reference:
@@ -326,11 +371,80 @@ def _model_columns(rep, plan: list[_Varying], parsed: dict, n: int) -> dict:
     return cols
 
 
+class _TankColumns:
+    """The vessels of a group given by geometry: volumes, areas, the contents' mass and the UA per row,
+    from the same array functions prepare_case calls with a group of one (and the same warning texts)."""
+
+    def __init__(self, rep, plan: list[_Varying], parsed: dict, cols: dict, n: int):
+        spec = rep.spec
+        v, c, hl = spec.vessel, spec.contents, spec.heat_loss
+        given = {v_.kind: np.asarray(parsed[id(v_)][0], dtype=float) for v_ in plan
+                 if v_.marker is not None and v_.kind in GEOMETRY_PATHS.values()}
+
+        def column(kind, q):
+            if kind in given:
+                return given[kind]
+            return None if q is None else np.full(n, q.si, dtype=float)
+
+        dims = {name: column(name, getattr(v, name)) for name in
+                ("diameter", "length", "width", "height", "crown_radius", "knuckle_radius")}
+        vessels = VesselArrays.from_columns(v.shape, v.heads, **{k: (np.nan if x is None else x)
+                                                                  for k, x in dims.items()})
+        density = column("density", c.density)
+        g = vessel_columns(vessels, mass=cols["mass"] if c.mass is not None else None,
+                           volume=column("volume", c.volume), fill=column("fill", c.fill), density=density)
+        self.ok = g.computable.copy()
+        if g.liquid_computable is not None:
+            self.ok &= g.liquid_computable
+        if hl.ua is not None:
+            ua, sc = heat_loss_columns(ua=cols["ua"], wetted_area=g.wetted_area, total_area=g.total_area)
+            area_used = None
+        else:
+            area = hl.area
+            if area == "wetted":
+                area_used = g.wetted_area
+            elif area == "total":
+                area_used = g.total_area
+            else:  # an area given as a number: the representative's, the same for every row
+                area_used = np.full(n, rep.geometry["heat_loss_area_m2"])
+            ua, sc = heat_loss_columns(coefficient=column("coefficient", hl.coefficient), area_used=area_used)
+        cols["mass"], cols["ua"] = g.mass, ua
+        with np.errstate(invalid="ignore"):
+            self.high = (sc > HIGH_COEFFICIENT) if sc is not None else np.zeros(n, dtype=bool)
+        self.over = is_over_full(g.fill_fraction) if g.fill_fraction is not None else np.zeros(n, dtype=bool)
+        self.sc = sc.tolist() if sc is not None else None
+        self.names = ["vessel_volume_m3", "total_area_m2", "height_m"]
+        arrays = [g.vessel_volume, g.total_area, g.height]
+        if g.liquid_volume is not None:
+            self.names += ["liquid_volume_m3", "fill_fraction", "liquid_height_m", "wetted_area_m2"]
+            arrays += [g.liquid_volume, g.fill_fraction, g.liquid_height, g.wetted_area]
+        if area_used is not None:
+            self.names.append("heat_loss_area_m2")
+            arrays.append(area_used)
+        self.values = [a.tolist() for a in arrays]
+        self.over_list, self.high_list = self.over.tolist(), self.high.tolist()
+
+    def geometry(self, r: int) -> dict:
+        return {name: values[r] for name, values in zip(self.names, self.values)}
+
+    def warnings(self, r: int) -> list[str]:
+        """prepare_case's warnings of the row, in its order."""
+        out = []
+        if self.over_list[r]:
+            g = self.geometry(r)
+            out.append(over_full_warning(g["liquid_volume_m3"], g["fill_fraction"], g["vessel_volume_m3"]))
+        if self.high_list[r]:
+            out.append(high_coefficient_warning(self.sc[r]))
+        return out
+
+
 class _RowBuilder:
     """Writes one row's numbers into a copy of the representative's result object."""
 
-    def __init__(self, rep, plan: list[_Varying], parsed: dict, numbers: _GroupNumbers, template: dict):
+    def __init__(self, rep, plan: list[_Varying], parsed: dict, numbers: _GroupNumbers, template: dict,
+                 tank: _TankColumns | None = None):
         self.rep = rep
+        self.tank = tank
         self.numbers = numbers
         self.names = [lim.name for lim in rep.model.limits]
         extra = {"warnings": []}
@@ -377,7 +491,7 @@ class _RowBuilder:
                        "margin_s": t - (detection + response) if t is not None and response is not None else None,
                        "margin_note": note if t is not None and response is not None else None}
                       for name, lt, t in zip(self.names, g.limit_T[r], times)]
-        warnings = list(rep.warnings)
+        warnings = list(rep.warnings) if self.tank is None else self.tank.warnings(r)
         if not g.plain[r]:
             warnings += self._warnings(r, limit_rows, unit)
         warnings += self.tail_warnings
@@ -393,6 +507,8 @@ class _RowBuilder:
                    heat_capacity_J_per_K=g.C[r], ua_W_per_K=g.ua[r], limit_exceeded_at_start=0.0 in times,
                    assumptions=list(self.assumptions), inputs=inputs, units={"temperature": unit},
                    input_hash=input_hash)
+        if self.tank is not None:
+            out["geometry"] = self.tank.geometry(r)
         return out
 
     def _warnings(self, r: int, limit_rows: list, unit: str) -> list[str]:

@@ -180,6 +180,9 @@ def validate_rows(ctx: RowContext, rows: list[list[str]], build_specs: bool = Tr
                     if name == "accumulated_fraction" and not (0 < value.si <= 1):  # 0 % goes the full way
                         ok = False
                         break
+                    if name == "initial_conversion" and not (0 <= value.si < 1):  # 100 % goes the full way
+                        ok = False
+                        break
                 else:
                     value = cell
                     if name in ("id", "name") and not value.strip():

@@ -66,6 +66,7 @@ from screening.report.pdf import (
     _verdict_key,
     _with_unit,
 )
+from screening.report import readings
 from screening.report.templates import load_templates
 
 
@@ -325,32 +326,72 @@ class _Memo:
     def sec_inputs(self):
         lay = self.lay
         out = lay.heading(self.numbers["inputs"], "inputs", before_table=True)
-        items = _seq(self.r.get("inputs"), "inputs")
+        fields = self.r.get("case_fields")
+        items = _seq(fields if fields is not None else self.r.get("inputs"),
+                     "case_fields" if fields is not None else "inputs")
         if not items:
             out.append(lay.P(f"<i>{self.esc(self.L('no_inputs'))}</i>"))
-            return out
+            return out + self._derived_table()
         rows = [[lay.P(self.esc(self.L(k)), "head") for k in ("input_field", "input_text", "input_si", "input_source")]]
         w = lay.frame_width
+        where = "case_fields" if fields is not None else "inputs"
         for i, item in enumerate(items):
-            m = _mapping(item, f"inputs[{i}]") or {}
+            m = _mapping(item, f"{where}[{i}]") or {}
             value = m.get("value_si")
-            unit = _str(m.get("unit_si"), f"inputs[{i}].unit_si") or ""
+            unit = _str(m.get("unit_si"), f"{where}[{i}].unit_si") or ""
             if value is None:
                 si = ""
             elif isinstance(value, bool):
                 si = "true" if value else "false"
             elif isinstance(value, (int, float)):
-                si = f"{_num_text(float(value), 6)} {unit}".strip()
+                si = f"{_num_text(float(value), 6)} {unit if unit != '1' else ''}".strip()
             else:
                 si = f"{value} {unit}".strip()
+            source = m.get("source")
+            if m.get("written") is False and source is None:
+                source_cell = lay.P(f"<i>{self.esc(self.L('input_default'))}</i>", "cell")
+            else:
+                source_cell = lay.user(source)
             rows.append([
                 lay.path(m.get("field"), w * 0.27 - 8),
                 lay.user(m.get("text")),
                 lay.user(si),
-                lay.user(m.get("source")),
+                source_cell,
             ])
         out.append(lay.table(rows, [w * 0.27, w * 0.25, w * 0.2, w * 0.28]))
-        return out
+        if fields is not None:
+            out.append(lay.P(self.esc(self.L("inputs_note")), "small"))
+        return out + self._derived_table()
+
+    def _derived_table(self) -> list:
+        """What the tool computed from the inputs and used, at 7 significant figures."""
+        from reportlab.platypus import CondPageBreak
+
+        lay = self.lay
+        items = _seq(self.r.get("derived_inputs"), "derived_inputs")
+        if not items:
+            return []
+        names, bases = lay.tpl["derived"], lay.tpl["derived_basis"]
+        w = lay.frame_width
+        rows = [[lay.P(self.esc(self.L(k)), "head") for k in ("derived_name", "derived_value", "derived_basis")]]
+        for i, item in enumerate(items):
+            where = f"derived_inputs[{i}]"
+            m = _mapping(item, where) or {}
+            key = _str(m.get("key"), f"{where}.key") or ""
+            value = _num(m.get("value_si"), f"{where}.value_si")
+            unit = _str(m.get("unit_si"), f"{where}.unit_si") or ""
+            text = self.na() if value is None else self.esc(derived_value_text(value, unit))
+            basis_key = _str(m.get("basis"), f"{where}.basis") or key
+            fields = _mapping(m.get("fields"), f"{where}.fields") or {}
+            basis = bases.get(basis_key, "")
+            try:
+                basis = basis.format(**{k: _any_text(v) for k, v in fields.items()})
+            except (KeyError, IndexError, ValueError):
+                pass
+            rows.append([lay.P(self.esc(names.get(key, key)), "cellb"), lay.P(text, "cell"), lay.user(basis)])
+        return [CondPageBreak(90), lay.P(self.esc(self.L("derived_heading")), "h2"),
+                lay.table(rows, [w * 0.34, w * 0.28, w * 0.38]),
+                lay.P(self.esc(self.L("derived_note")), "small")]
 
     def sec_method(self):
         lay = self.lay
@@ -379,6 +420,7 @@ class _Memo:
         response = self.num("response_time_s")
         detection = self.num("detection_time_s")
         not_reached = self.L("not_reached", horizon=self.horizon_text())
+        sensitive: list[str] = []
         if self.limits:
             head = [lay.P(self.esc(self.L(k)), "head") for k in
                     ("limit", "limit_temperature", "time_to_reach", "margin", "adiabatic_time")]
@@ -386,6 +428,9 @@ class _Memo:
             for li, lim in enumerate(self.limits, start=1):
                 if lim["time_s"] is not None and lim["reached"]:
                     t_txt = self.hrs(lim["time_s"])
+                    if self._near_peak(lim):
+                        t_txt += f"<br/><i>{self.esc(self.L('sensitive_short'))}</i>"
+                        sensitive.append(lim["name"])
                 else:
                     t_txt = self.esc(not_reached)
                 if lim["margin_s"] is not None:
@@ -414,6 +459,20 @@ class _Memo:
             w = lay.frame_width
             out.append(lay.table(rows, [w * 0.22, w * 0.2, w * 0.19, w * 0.2, w * 0.19]))
             out.append(lay.P(self.esc(self.L("margin_note")), "small"))
+            if sensitive:
+                out.append(lay.P(f"<b>{self.esc(self.L('sensitive_note', limits=', '.join(sensitive)))}</b>",
+                                 "small"))
+            bound = self._adiabatic_is_bound()
+            if bound is not None and ad_by_index:
+                amb = self.u.full(readings.bound_ambient(self.r))
+                cycle = readings.daily_cycle(self.r) is not None
+                if bound:
+                    key = "adiabatic_bound_note"
+                    amb = self.L("adiabatic_cycle_ambient", temp=amb) if cycle else amb
+                else:
+                    key = "adiabatic_not_bound_note_cycle" if cycle else "adiabatic_not_bound_note"
+                out.append(lay.P(self.esc(self.L(key, ambient=amb, start=self.u.full(self._start_temperature()))),
+                                 "small"))
             if self.detection_basis() == "assumed":
                 out.append(lay.P(f"<b>{self.esc(self.L('detection_assumed_note'))}</b>", "small"))
             elif self.detection_basis() == "unmonitored":
@@ -438,14 +497,13 @@ class _Memo:
             (self.L("initial_temperature"), self.temp(self.num("initial_temperature_K"))),
             (ambient_label, self.temp(self.num("ambient_temperature_K"))),
             *(self._cycle_pairs(cycle) if cycle is not None else []),
-            (self.L("peak_temperature"), self.temp(self.num("peak_temperature_K"))),
-            (self.L("peak_time"), self.hrs(self.num("peak_time_s"))),
-            (self.L("steady_daily_mean" if cycle is not None else "steady_temperature"),
-             self.temp(steady, self.L("no_steady_state"))),
-            (self.L("time_constant"), self.hrs(tau, self.L("adiabatic_no_loss"))),
-            (self.L("adiabatic_rise"), self.esc(self.u.rise(self.num("temperature_rise_K", adiabatic,
-                                                                     "adiabatic.temperature_rise_K")))
-             if adiabatic.get("temperature_rise_K") is not None else self.na()),
+        ]
+        pairs += self._peak_and_steady_pairs(steady, cycle is not None)
+        pairs.append((self.L("time_constant"), self.hrs(tau, self.L("adiabatic_no_loss"))))
+        rise = self.num("temperature_rise_K", adiabatic, "adiabatic.temperature_rise_K")
+        if rise is not None and rise > 0:  # only where decaying heat gives one (never a 0 K "rise")
+            pairs.append((self.L("adiabatic_rise"), self.esc(self.u.rise(rise))))
+        pairs += [
             (self.L("heat_capacity"), self.esc(_si_prefixed(self.num("heat_capacity_J_per_K"), "J/K", 4))
              if self.r.get("heat_capacity_J_per_K") is not None else self.na()),
             (self.L("ua"), self.esc(_si_prefixed(ua, "W/K", 4)) if ua is not None else self.na()),
@@ -484,6 +542,43 @@ class _Memo:
         start = _num(cycle.get("start_time_of_day_s"), "daily_cycle.start_time_of_day_s")
         pairs.append((self.L("cycle_start"), self.esc(f"{start / 3600.0:.4g} h ({basis})") if start is not None
                       else self.na()))
+        return pairs
+
+    def _start_temperature(self) -> float | None:
+        return readings.start_temperature(self.r)
+
+    def _near_peak(self, lim: dict) -> bool:
+        return readings.near_peak(self.r, lim["temperature_K"])
+
+    def _adiabatic_is_bound(self) -> bool | None:
+        return readings.adiabatic_is_bound(self.r)
+
+    def _boiling_plateau(self) -> Mapping | None:
+        return _mapping(readings.boiling_plateau(self.r), "boiling")
+
+    def _peak_and_steady_pairs(self, steady: float | None, daily_cycle: bool = False) -> list:
+        """Peak (or boiling plateau, or temperature at the horizon) and steady rows; with a daily cycle the steady
+        temperature is the daily mean of the periodic state."""
+        peak, t_peak = self.num("peak_temperature_K"), self.num("peak_time_s")
+        steady_key = "steady_daily_mean" if daily_cycle else "steady_temperature"
+        plateau = self._boiling_plateau()
+        if plateau is not None:
+            t_boil = _num(plateau.get("time_to_boil_s"), "boiling.time_to_boil_s")
+            t_dry = _num(plateau.get("time_to_dry_s"), "boiling.time_to_dry_s")
+            until = self.hrs(t_dry) if t_dry is not None else self.esc(self.L("plateau_no_dry_out"))
+            pairs = [(self.L("boiling_plateau"), self.markup("boiling_plateau_value", temp=self.temp(peak),
+                                                             start=self.hrs(t_boil), until=until))]
+            if steady is not None and peak is not None and steady > peak:
+                pairs.append((self.L("steady_after_dry_out_daily_mean" if daily_cycle else "steady_after_dry_out"),
+                              self.temp(steady)))
+            else:
+                pairs.append((self.L(steady_key), self.temp(steady, self.L("no_steady_state"))))
+            return pairs
+        if readings.still_rising(self.r):  # no peak within the horizon: still rising, towards the steady state or without bound
+            pairs = [(self.L("horizon_temperature"), self.temp(peak))]
+        else:
+            pairs = [(self.L("peak_temperature"), self.temp(peak)), (self.L("peak_time"), self.hrs(t_peak))]
+        pairs.append((self.L(steady_key), self.temp(steady, self.L("no_steady_state"))))
         return pairs
 
     def allowable_values(self) -> list:
@@ -1064,12 +1159,19 @@ class _Memo:
         se = _num(m.get(key + "_standard_error"), f"{where}.{key}_standard_error")
         if p is None:
             return self.esc(self.L("unc_no_deadline")) if key == "probability_before_response" else self.na()
-        text = self.esc(_percent(p, se))
         if se is not None and se == 0 and p in (0.0, 1.0):
             zero_flags.append(True)
+            count = _num(self.uncertainty().get("accepted"), "uncertainty.accepted") if self.uncertainty() else None
+            if count is not None and count >= 1:
+                bound = zero_hit_upper_bound(int(count))  # one-sided 95 % (Clopper-Pearson with no hits)
+                key = "unc_zero_bound" if p == 0.0 else "unc_all_bound"
+                return self.esc(self.L(key, n=n or str(int(count)),
+                                       bound=_percent(bound if p == 0.0 else 1.0 - bound)))
+            text = self.esc(_percent(p, se))
             if n is not None:
                 text += " " + self.esc(self.L("unc_none_of" if p == 0.0 else "unc_all_of", n=n))
-        return text
+            return text
+        return self.esc(_percent(p, se))
 
     def _unc_limits(self, u: Mapping) -> list:
         lay = self.lay
@@ -1354,6 +1456,21 @@ def _interp(x: float, xs: list[float], ys: list[float]) -> float:
         if x0 <= x <= x1:
             return y0 if x1 == x0 else y0 + (y1 - y0) * (x - x0) / (x1 - x0)
     return pairs[-1][1]
+
+
+def zero_hit_upper_bound(n: int) -> float:
+    """One-sided 95 % upper bound on a probability when none of n samples is a hit: 1 - 0.05^(1/n) (about 3/n).
+
+    The Clopper-Pearson bound for zero successes (the "rule of three" in its exact form)."""
+    return 1.0 - 0.05 ** (1.0 / n)
+
+
+def derived_value_text(value: float, unit: str) -> str:
+    """A derived input at 7 significant figures in SI, with kW beside large powers."""
+    text = f"{_num_text(value, 7)} {unit}".strip() if unit != "1" else _num_text(value, 7)
+    if unit == "W" and abs(value) >= 1000:
+        text += f" ({_num_text(value / 1000.0, 7)} kW)"
+    return text
 
 
 def render_memo(result: Mapping, templates_dir: str | os.PathLike | None = None) -> bytes:

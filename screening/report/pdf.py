@@ -269,6 +269,8 @@ def _hours_short(seconds: float) -> str:
         return _minus(f"{h:.1f} h")
     if a >= 1:
         return _minus(f"{h:.2f} h")
+    if seconds != 0 and abs(seconds) < 36:  # under 0.01 h: in seconds (a sub-second time as such, never "0 h")
+        return _minus(f"{seconds:.2g} s")
     return _minus(f"{h:.2g} h")
 
 

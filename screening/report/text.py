@@ -4,6 +4,7 @@ from __future__ import annotations
 import textwrap
 
 from screening.case.display import dtemp, duration, temp
+from screening.report import readings
 
 
 def _wrap(text: str, indent: str = "    - ") -> str:
@@ -153,16 +154,47 @@ def format_result(r: dict) -> str:
     lines.append("")
     if r.get("start_release"):
         lines.append(_wrap(r["start_release"]["note"], ""))
-    lines.append(f"Peak {temp(r['peak_temperature_K'], u)} at {duration(r['peak_time_s'])}")
     st = r.get("steady_temperature_K")
-    lines.append(f"Steady temperature{' (daily mean)' if r.get('daily_cycle') else ''} "
-                 f"{temp(st, u) if st is not None else 'none (no stable steady state)'}")
+    steady_word = "Steady temperature (daily mean)" if r.get("daily_cycle") else "Steady temperature"
+    plateau = readings.boiling_plateau(r)
+    if plateau is not None:
+        dry = plateau.get("time_to_dry_s")
+        lines.append(f"Boiling plateau (open vessel) {temp(r['peak_temperature_K'], u)} from "
+                     f"{duration(plateau['time_to_boil_s'])} until "
+                     f"{duration(dry) if dry is not None else 'the end of the horizon (not dry within it)'}")
+        if st is not None and st > r["peak_temperature_K"]:
+            lines.append(f"{steady_word} after dry-out (only if heating continued once dry) {temp(st, u)}")
+        else:
+            lines.append(f"{steady_word} {temp(st, u) if st is not None else 'none (no stable steady state)'}")
+    else:
+        if readings.still_rising(r):
+            lines.append(f"Temperature at the end of the horizon {temp(r['peak_temperature_K'], u)} (still rising; "
+                         f"no peak within it)")
+        else:
+            lines.append(f"Peak {temp(r['peak_temperature_K'], u)} at {duration(r['peak_time_s'])}")
+        lines.append(f"{steady_word} {temp(st, u) if st is not None else 'none (no stable steady state)'}")
     ad = r.get("adiabatic") or {}
     if ad:
         parts = [f"{a['name']}: {duration(a['time_s']) if a['time_s'] is not None else 'not reached'}"
                  for a in ad.get("limits", [])]
-        lines.append(f"Adiabatic bound (UA = 0): {'; '.join(parts)}; rise from decaying sources "
-                     f"{dtemp(ad.get('temperature_rise_K'), u)}")
+        bound = readings.adiabatic_is_bound(r)
+        if r.get("daily_cycle"):
+            head = ("No heat loss (UA = 0), a bound here (the contents never fall below the daily maximum of the "
+                    "effective ambient)" if bound else
+                    "No heat loss (UA = 0), not shown to be a bound here (the contents do not stay above the daily "
+                    "maximum of the effective ambient)" if bound is False else "No heat loss (UA = 0)")
+        else:
+            head = ("No heat loss (UA = 0), a bound here (the contents never fall below the ambient)" if bound else
+                    "No heat loss (UA = 0), not a bound here (the ambient is above the contents for part of the "
+                    "history)" if bound is False else "No heat loss (UA = 0)")
+        rise = ad.get("temperature_rise_K")
+        lines.append(f"{head}: {'; '.join(parts)}" + (f"; rise from decaying sources {dtemp(rise, u)}"
+                                                       if rise is not None and rise > 0 else ""))
+    sensitive = [l["name"] for l in r["limits"] if l.get("time_s") is not None
+                 and readings.near_peak(r, l.get("temperature_K"))]
+    if sensitive:
+        lines.append(_wrap(f"Sensitive to the inputs: {', '.join(sensitive)} lies within 2 % of the peak "
+                           f"temperature rise; a small change in any input moves its time a lot.", ""))
     rows = criteria_rows(r, u)
     if rows or r.get("runaway_summary"):
         lines.append("")
@@ -196,9 +228,13 @@ def format_result(r: dict) -> str:
                                + ", ".join(unc["correlation"]["inputs"])))
         for l in unc.get("limits", []):
             pb = l["probability_before_response"]
-            pb_text = "—" if pb is None else f"{pb:.4f} ± {l['probability_before_response_standard_error']:.4f}"
+            n_acc = unc.get("accepted", unc["samples"])
+            pb_text = "—" if pb is None else _probability_text(pb, l['probability_before_response_standard_error'],
+                                                               n_acc)
+            pw_text = _probability_text(l['probability_within_horizon'],
+                                        l.get('probability_within_horizon_standard_error'), n_acc)
             lines.append(f"  {l['name']}: P(before detection + response) {pb_text}"
-                         f"; P(within horizon) {l['probability_within_horizon']:.4f}; time 5/50/95 %: "
+                         f"; P(within horizon) {pw_text}; time 5/50/95 %: "
                          f"{duration(l['p05_time_s']) if l['p05_time_s'] is not None else 'not reached'} / "
                          f"{duration(l['p50_time_s']) if l['p50_time_s'] is not None else 'not reached'} / "
                          f"{duration(l['p95_time_s']) if l['p95_time_s'] is not None else 'not reached'}")
@@ -255,3 +291,14 @@ def _cycle_lines(r: dict, cycle: dict, u: str) -> list[str]:
                f"{temp(cycle['effective_ambient_max_K'], u)} at {hours(cycle['effective_ambient_max_time_of_day_s'])}; "
                f"the critical-ambient criteria compare with {temp(r.get('criteria_ambient_K'), u)}")
     return [_wrap(line, "") for line in out]
+
+
+def _probability_text(p: float, se, n) -> str:
+    """A Monte Carlo probability; with no hit (or all hits) in n samples, the one-sided 95 % bound
+    1 - 0.05^(1/n) (about 3/n), not "0.0000 +- 0.0000"."""
+    if n and p in (0.0, 1.0) and not se:
+        bound = 1.0 - 0.05 ** (1.0 / n)
+        if p == 0.0:
+            return f"0 of {n} samples (below {bound:.2g}, one-sided 95 % upper bound)"
+        return f"all {n} samples (above {1 - bound:.4g}, one-sided 95 % lower bound)"
+    return f"{p:.4f}" if se is None else f"{p:.4f} ± {se:.4f}"

@@ -10,6 +10,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, replace
 
+from screening import progress
 from screening.case.paths import apply_updates, locate_quantity, path_parts
 from screening.case.prepare import PreparedCase, prepare_case
 from screening.case.schema import CaseError, CaseSpec, FieldProblem, Quantity
@@ -129,24 +130,31 @@ def find_allowable_values(prepared: PreparedCase, path: str, low: float | None =
         xs = [lo * (hi / lo) ** (k / (n - 1)) for k in range(n)]
     else:
         xs = [lo + (hi - lo) * k / (n - 1) for k in range(n)]
-    verdicts = [verdict_at(prepared, parts, q, x, rules_path) for x in xs]
-    changes = []
-    tol = BISECTION_RTOL * (hi - lo)
-    for a, b, va, vb in zip(xs[:-1], xs[1:], verdicts[:-1], verdicts[1:]):
-        if va == vb:
-            continue
-        # bisection keeps the two verdicts at the bracket ends; with several changes inside one scan cell
-        # the first one found is reported and the scan resolution is stated
-        for _ in range(80):
-            if b - a <= tol:
-                break
-            mid = 0.5 * (a + b)
-            vm = verdict_at(prepared, parts, q, mid, rules_path)
-            if vm == va:
-                a = mid
-            else:
-                b, vb = mid, vm
-        changes.append(VerdictChange(0.5 * (a + b), va, vb, (a, b)))
+    with progress.task(f"margin: {path}", total=n) as advance:
+        verdicts = []
+        for x in xs:
+            verdicts.append(verdict_at(prepared, parts, q, x, rules_path))
+            advance()
+        changes = []
+        tol = BISECTION_RTOL * (hi - lo)
+        steps = math.ceil(math.log2(max((hi - lo) / max(tol, 1e-300), 2.0)))  # bisection steps per change, at most
+        advance.add_total(steps * sum(va != vb for va, vb in zip(verdicts[:-1], verdicts[1:])))
+        for a, b, va, vb in zip(xs[:-1], xs[1:], verdicts[:-1], verdicts[1:]):
+            if va == vb:
+                continue
+            # bisection keeps the two verdicts at the bracket ends; with several changes inside one scan cell
+            # the first one found is reported and the scan resolution is stated
+            for _ in range(80):
+                if b - a <= tol:
+                    break
+                mid = 0.5 * (a + b)
+                vm = verdict_at(prepared, parts, q, mid, rules_path)
+                advance()
+                if vm == va:
+                    a = mid
+                else:
+                    b, vb = mid, vm
+            changes.append(VerdictChange(0.5 * (a + b), va, vb, (a, b)))
     unit = _unit_of(q)
     conv = lambda v: to_case_units(v, q)  # noqa: E731
     return {

@@ -15,11 +15,13 @@ vectorised Rosenbrock integrator for Arrhenius sources
 """
 from __future__ import annotations
 
+import dataclasses
 import math
 from dataclasses import dataclass
 
 import numpy as np
 
+from screening import progress
 from screening.case.paths import apply_updates, locate_quantity, model_slot
 from screening.case.prepare import PreparedCase, prepare_case
 from screening.case.schema import (
@@ -72,6 +74,9 @@ class SampleArrays:
     order: np.ndarray
     dh: np.ndarray  # NaN: none
     af: np.ndarray
+    kr: np.ndarray  # (N, J) rate constant of an autocatalytic source, 1/s (its q is dh kr); NaN: not one
+    am: np.ndarray  # (N, J) autocatalytic order m (0: n-th order)
+    az: np.ndarray  # (N, J) initiation z
     limits: np.ndarray  # (N, L)
     horizon: np.ndarray
     response: np.ndarray  # NaN when not given
@@ -116,6 +121,8 @@ def base_arrays(prepared: PreparedCase, n: int) -> SampleArrays:
         E=cols([s.activation_energy for s in srcs]), order=cols([s.order for s in srcs]),
         dh=cols([s.specific_heat_of_reaction if s.specific_heat_of_reaction is not None else np.nan for s in srcs]),
         af=cols([s.accumulated_fraction for s in srcs]),
+        kr=cols([s.specific_power / s.specific_heat_of_reaction if s.autocatalytic else np.nan for s in srcs]),
+        am=cols([s.autocatalytic_order for s in srcs]), az=cols([s.initiation for s in srcs]),
         limits=cols([lim.temperature for lim in model.limits]), horizon=full(model.horizon),
         response=full(prepared.response_time if prepared.response_time is not None else np.nan),
         delay=full(prepared.detection_delay if prepared.detection_delay is not None else np.nan),
@@ -147,6 +154,7 @@ def _cycle_arrays(prepared: PreparedCase, full) -> dict:
 _ARRAY_OF_SLOT = {"mass": "m", "cp": "cp", "T0": "T0", "Ta": "Ta", "ua": "ua", "H": "horizon", "response": "response",
                   "delay": "delay", "alarm": "alarm", "limit": "limits", "const": "Pc", "dpower": "Pd", "dtau": "ad",
                   "medium_ua": "mua", "medium_T": "mT", "q": "q", "Tr": "Tr", "E": "E", "dh": "dh", "af": "af",
+                  "kr": "kr", "ic": "af",
                   "daily_range": "rng", "warmest": "tw", "start": "s0", "irradiance": "irr", "absorptivity": "alpha",
                   "day_length": "day", "outer_coefficient": "ho"}
 
@@ -172,7 +180,9 @@ def direct_setter(prepared: PreparedCase, parts: tuple):
     name = _ARRAY_OF_SLOT.get(slot.kind)
     if name is None:
         return None
-    if slot.kind == "limit" or name in ("Pc", "Pd", "ad", "mua", "mT", "q", "Tr", "E", "dh", "af"):
+    if slot.kind == "ic":  # the initial conversion: the fraction left is 1 - it
+        return lambda a, v: a.af.__setitem__((slice(None), slot.index), 1.0 - v)
+    if slot.kind == "limit" or name in ("Pc", "Pd", "ad", "mua", "mT", "q", "Tr", "E", "dh", "af", "kr"):
         return lambda a, v: getattr(a, name).__setitem__((slice(None), slot.index), v)
     return lambda a, v: setattr(a, name, v)
 
@@ -228,6 +238,29 @@ class SampleTimes:
     detection: np.ndarray  # (N,), NaN: never detected (alarm not reached)
 
 
+#: Samples integrated together at least, for cases with Arrhenius sources, when progress is reported in steps
+#: (the batch integrator shares work between two processes only for twice its own chunk or more).
+ARRHENIUS_STEP = 4 * 8192
+
+
+def screen_samples_in_steps(prepared: PreparedCase, arrays: SampleArrays, advance) -> SampleTimes:
+    """:func:`screen_samples` in about 20 steps when someone watches the progress (each sample's result does not
+    depend on the others it is screened with), at once otherwise."""
+    n = arrays.n
+    step = max(math.ceil(n / 20), ARRHENIUS_STEP if prepared.model.arrhenius_sources else 1)
+    if not progress.active() or n <= step:
+        st = screen_samples(prepared, arrays)
+        advance(n)
+        return st
+    parts = []
+    for start in range(0, n, step):
+        rows = slice(start, min(start + step, n))
+        parts.append(screen_samples(prepared, SampleArrays(**{f.name: getattr(arrays, f.name)[rows]
+                                                               for f in dataclasses.fields(SampleArrays)})))
+        advance(rows.stop - rows.start)
+    return SampleTimes(np.concatenate([p.limit_times for p in parts]), np.concatenate([p.detection for p in parts]))
+
+
 def screen_samples(prepared: PreparedCase, arrays: SampleArrays) -> SampleTimes:
     """First crossing of each limit (and the alarm) for every sample."""
     n = arrays.n
@@ -244,14 +277,17 @@ def screen_samples(prepared: PreparedCase, arrays: SampleArrays) -> SampleTimes:
             first_crossing_times_arrhenius,
         )
 
+        auto = np.isfinite(arrays.kr)
         params = ArrheniusSamples(
             heat_capacity=C, contents_mass=arrays.m, ua=arrays.ua, ambient_temperature=arrays.Ta,
             initial_temperature=T_start, constant_power=p_const,
             decaying_power=arrays.Pd, decay_time=arrays.ad, media_ua=arrays.mua, media_temperature=arrays.mT,
-            specific_power=arrays.q, reference_temperature=arrays.Tr, activation_energy=arrays.E,
+            specific_power=np.where(auto, arrays.dh * np.where(auto, arrays.kr, 0.0), arrays.q),
+            reference_temperature=arrays.Tr, activation_energy=arrays.E,
             order=np.where(np.isnan(arrays.dh), 0.0, arrays.order), heat_of_reaction=arrays.dh,
             initial_conversion=np.where(np.isnan(arrays.dh), 0.0, np.clip(1.0 - arrays.af, 0.0, 1.0)),
-            forcing=arrays.forcing())
+            forcing=arrays.forcing(),
+            **({"autocatalytic_order": arrays.am, "initiation": arrays.az} if auto.any() else {}))
         times = first_crossing_times_arrhenius(params, L, arrays.horizon).times
     else:
         from screening.core.time_to_limit_batch import first_crossing_times
@@ -321,7 +357,12 @@ def analyse(prepared: PreparedCase, plan: UncertaintyPlan | None = None) -> dict
                                                             f"capacity): the distributions of "
                                                             f"{', '.join(inp.path for inp in plan.inputs)} give no "
                                                             f"value the case can take")])
-    st = screen_samples(prepared, arrays)
+    with progress.task(f"Monte Carlo: {n} samples", total=n + 2 * len(plan.inputs)) as advance:
+        st = screen_samples_in_steps(prepared, arrays, advance)
+        return _summarise(prepared, plan, values, arrays, st, n, rejected, advance)
+
+
+def _summarise(prepared, plan, values, arrays, st, n, rejected, advance) -> dict:
     model = prepared.model
     limits_out = []
     deadline = st.detection + arrays.response  # NaN when no response time, or never detected
@@ -348,6 +389,7 @@ def analyse(prepared: PreparedCase, plan: UncertaintyPlan | None = None) -> dict
         })
     first = int(np.argmin([lim.temperature for lim in model.limits]))
     sensitivity = _sensitivity(prepared, plan, values, st.limit_times[:, first], float(np.max(arrays.horizon)))
+    advance(2 * len(plan.inputs))
     cdf = _cdf(st.limit_times[:, first])
     return {
         "samples": plan.samples, "accepted": n, "rejected": rejected, "seed": plan.seed, "sampling": plan.sampling,

@@ -24,6 +24,7 @@ from screening.run.scenario_criteria import (
     named_kinetics_warnings,
     roles_of,
     scenario_criteria,
+    steady_conversions,
 )
 
 ALARM = "\x00alarm"
@@ -83,7 +84,9 @@ def screen_with_arrhenius(prepared: PreparedCase) -> dict:
         warnings.extend(w for w in ws if w not in warnings)
 
     # --- steady states of the whole balance (all reactions at their initial conversion): where it settles
-    steady, ws = rc.steady_states(m, sources, P, model.ua, Ta, model.heating_media, conversion=X0, full_output=True)
+    X_rate = steady_conversions(model)  # an autocatalytic source at its conversion of maximum rate (conservative)
+    steady, ws = rc.steady_states(m, sources, P, model.ua, Ta, model.heating_media, conversion=X_rate,
+                                  full_output=True)
     transient = bool(model.decaying_sources or model.fire_sources or T0 > Ta)
     if scenario != "cooling-failure" and model.mixing == "stirred":
         add(w for w in ws if w != rc.WARNING_TRANSIENT_SOURCES or (transient and scenario == "storage"))
@@ -99,13 +102,16 @@ def screen_with_arrhenius(prepared: PreparedCase) -> dict:
     if scenario != "cooling-failure" and model.mixing == "stirred":
         _steady_state_statements(model, hist, steady, runs_away, T0, unit, warnings)
 
-    facts = HistoryFacts(hist.peak_temperature, hist.peak_time, bool(runs_away), bool(hist.rising_at_end), T0, stable)
+    facts = HistoryFacts(hist.peak_temperature, hist.peak_time, bool(runs_away), bool(hist.rising_at_end), T0, stable,
+                         float(hist.temperature[-1]))
     criteria, ws, used = scenario_criteria(prepared, facts)
     add(ws)
     _, decomposition = roles_of(model)
-    kinetics = [rc.WARNING_ZERO_CONVERSION] if any(s.specific_power > 0 for s in sources) else []
+    general = rc.zero_conversion_warning(sources)
+    kinetics = [general] if general is not None else []
     for s in sources:  # one extrapolation caution per source, at the farthest temperature its kinetics were used at
         kinetics += named_kinetics_warnings([s], [T0, hist.peak_temperature] + (used if s in decomposition else []))
+    kinetics += rc.initiation_warnings(sources, [T0, hist.peak_temperature] + used)
     warnings[:] = _consolidate(warnings, kinetics)
 
     # --- adiabatic bound
@@ -146,7 +152,7 @@ def screen_with_arrhenius(prepared: PreparedCase) -> dict:
                           "generation_W": np.asarray(hist.heat_generation).tolist(),
                           "loss_W": np.asarray(hist.heat_loss_ambient).tolist()}
     if scenario == "heat-up":
-        curve_sources, curve_X, states = sources, X0, (steady.stable, steady.unstable)
+        curve_sources, curve_X, states = sources, X_rate, (steady.stable, steady.unstable)
     else:
         block = criteria["semenov"] or {}
         curve_sources, curve_X, states = decomposition, None, (block.get("stable_K"), block.get("no_return_K"))
@@ -166,10 +172,11 @@ def _consolidate(warnings: list[str], kinetics: list[str]) -> list[str]:
     zero-conversion caution only when no source-specific one says it."""
     out = [w for w in warnings if not _is_extrapolation(w)]
     specific = any("fitted at zero conversion" in w for w in out)
+    general = (rc.WARNING_ZERO_CONVERSION, rc.WARNING_ZERO_CONVERSION_REACTION)
     if specific:
-        out = [w for w in out if w != rc.WARNING_ZERO_CONVERSION]
+        out = [w for w in out if w not in general]
     for w in kinetics:
-        if specific and w == rc.WARNING_ZERO_CONVERSION:
+        if specific and w in general:
             continue
         if w not in out:
             out.append(w)
@@ -237,7 +244,8 @@ def _arrhenius_recovery(prepared: PreparedCase, result: dict, hist) -> None:
             reached.append(c.name)
     steady = rc.steady_states(model.contents_mass, sources, constant_power(model), model.ua,
                               model.ambient_temperature, media,
-                              conversion=[1.0 - s.accumulated_fraction if s.specific_heat_of_reaction else 0.0
+                              conversion=[rc.rate_conversion(s) if s.autocatalytic  # its largest rate from here on
+                                          else 1.0 - s.accumulated_fraction if s.specific_heat_of_reaction else 0.0
                                           for s in sources])
     past = bool(steady.unstable is not None and T_start >= steady.unstable) or (steady.stable is None)
     peak_T, peak_t = rec.peak_temperature, start + rec.peak_time

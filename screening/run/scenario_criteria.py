@@ -26,10 +26,11 @@ import numpy as np
 
 from screening.case.display import dtemp, duration, temp
 from screening.case.prepare import PreparedCase, source_name
-from screening.case.schema import ArrheniusSpec
+from screening.case.schema import TEMPERATURE_DEPENDENT
 from screening.core import runaway as rc
 from screening.core.model import ScreeningModel
 from screening.core.terms import constant_power, model_start_temperature
+from screening.run import autocatalytic_criteria as ac
 from screening.run.daily_cycle import criteria_ambient
 
 #: Every key :func:`scenario_criteria` writes (None / empty when it does not apply).
@@ -65,6 +66,7 @@ class HistoryFacts:
     rising_at_end: bool  # still rising at the horizon
     start_temperature: float  # K, at t = 0 after any heat released at once
     steady_temperature: float | None = None  # K, the stable state the history settles toward, if any
+    end_temperature: float | None = None  # K, at the end of the history (None: not given)
 
 
 def empty_criteria(scenario: str | None = None) -> dict:
@@ -88,7 +90,7 @@ def roles_of(model: ScreeningModel) -> tuple[tuple, tuple]:
 def _names(prepared: PreparedCase, role: str) -> list[str]:
     out = []
     for i, s in enumerate(prepared.spec.heat_sources):
-        r = s.effective_role if isinstance(s, ArrheniusSpec) else getattr(s, "role", None)
+        r = s.effective_role if isinstance(s, TEMPERATURE_DEPENDENT) else getattr(s, "role", None)
         if r == role:
             out.append(source_name(s, i))
     return out
@@ -136,8 +138,8 @@ def scenario_criteria(prepared: PreparedCase, facts: HistoryFacts) -> tuple[dict
     cp, m, T0 = model.contents_specific_heat, model.contents_mass, model.initial_temperature
     used = [T0]
     if decomposition:
-        out["tmr_adiabatic_s"] = _finite(rc.tmr_adiabatic(T0, cp, decomposition))
-        td24, ws = rc.t_d24(cp, decomposition, full_output=True)
+        out["tmr_adiabatic_s"] = _finite(ac.tmr(T0, cp, decomposition))
+        td24, ws = ac.td24(cp, decomposition)
         warnings += ws
         out["t_d24_K"] = td24
         rise, ws = rc.adiabatic_temperature_rise(m, cp, decomposition, full_output=True)
@@ -152,6 +154,7 @@ def scenario_criteria(prepared: PreparedCase, facts: HistoryFacts) -> tuple[dict
     else:
         warnings += _heat_up(prepared, facts, out, decomposition)
     warnings += _heating_medium(prepared, out, decomposition, used)
+    warnings += ac.add_block(prepared, out, decomposition)
     if decomposition and out["decomposition_rise_unbounded"]:
         warnings.append("A decomposition source has no heat of reaction, so its temperature rise is unbounded: the "
                         "severity is taken as high and no final temperature is given.")
@@ -227,7 +230,7 @@ def _cooling_failure(prepared, facts, out, decomposition, used) -> list[str]:
         if mtt is not None:
             out["criticality_classes_possible"] = list(rc.possible_criticality_classes(mtsr, mtt))
     else:
-        tmr_mtsr = rc.tmr_adiabatic(mtsr, cp, decomposition)
+        tmr_mtsr = ac.tmr(mtsr, cp, decomposition)
         out["tmr_at_mtsr_s"] = _finite(tmr_mtsr)
         rates = [float(rc.heat_generation(mtsr, 1.0, [s])) for s in decomposition]
         total = sum(rates)
@@ -241,7 +244,7 @@ def _cooling_failure(prepared, facts, out, decomposition, used) -> list[str]:
             td24_class = td24
             if td24 is None:  # TMRad is above 24 h everywhere searched, or below it everywhere
                 low = rc.T_D24_RANGE[0]
-                td24_class = -math.inf if rc.tmr_adiabatic(low, cp, decomposition) <= rc.T_D24_TIME else math.inf
+                td24_class = -math.inf if ac.tmr(low, cp, decomposition) <= rc.T_D24_TIME else math.inf
             cls, ws = rc.criticality_class(T0, mtsr, mtt, td24_class, full_output=True)
             out["criticality_class"] = cls
             warnings += ws
@@ -278,7 +281,7 @@ def _storage(prepared, facts, out, decomposition, used) -> list[str]:
     Ta = criteria_ambient(model)[0]  # with a daily cycle: the daily maximum of the effective ambient
     storage_T = max(T0, Ta)
     out["storage_temperature_K"] = storage_T
-    out["tmr_at_storage_temperature_s"] = _finite(rc.tmr_adiabatic(storage_T, cp, decomposition))
+    out["tmr_at_storage_temperature_s"] = _finite(ac.tmr(storage_T, cp, decomposition))
     used.append(storage_T)
     P = constant_power(model)
     if model.mixing == "stirred":
@@ -348,7 +351,7 @@ def _heat_up(prepared, facts, out, decomposition) -> list[str]:
     model = prepared.model
     if not model.arrhenius_sources or model.mixing != "stirred":
         return []
-    X0 = initial_conversions(model)
+    X0 = steady_conversions(model)
     steady = rc.steady_states(model.contents_mass, model.arrhenius_sources, constant_power(model), model.ua,
                               model.ambient_temperature, model.heating_media, conversion=X0)
     out["no_return_temperature_K"] = steady.unstable
@@ -360,6 +363,13 @@ def _heat_up(prepared, facts, out, decomposition) -> list[str]:
 def initial_conversions(model: ScreeningModel) -> list[float]:
     return [1.0 - s.accumulated_fraction if s.specific_heat_of_reaction is not None else 0.0
             for s in model.arrhenius_sources]
+
+
+def steady_conversions(model: ScreeningModel) -> list[float]:
+    """The conversions at which the steady states of the whole balance take the rates: the initial conversion
+    of an n-th order source, the conversion of maximum rate of an autocatalytic one (conservative)."""
+    return [rc.rate_conversion(s) if s.autocatalytic else x0
+            for s, x0 in zip(model.arrhenius_sources, initial_conversions(model))]
 
 
 # ------------------------------------------------------------------ heating medium left on
@@ -410,6 +420,7 @@ def _summary(prepared, facts: HistoryFacts, out: dict, unit: str) -> str:
     elif model.arrhenius_sources:
         parts.append("Heat-up scenario: the verdict rests on the time to each limit; no MTSR, criticality class or "
                      "critical ambient is given.")
+        parts += ac.summary_sentences(out, unit)
         parts.append(_history_sentence(facts, unit))
     if out["critical_medium_temperature_K"] is not None:
         tm, tmc = out["heating_medium_temperature_K"], out["critical_medium_temperature_K"]
@@ -428,6 +439,12 @@ def _history_sentence(facts: HistoryFacts, unit: str) -> str:
             and abs(facts.peak_temperature - facts.steady_temperature) < 0.5:
         return (f"In the computed history (with the heat loss as stated) the contents approach their stable steady "
                 f"state ({temp(facts.steady_temperature, unit)}) by the end of the horizon.")
+    if facts.rising_at_end and facts.end_temperature is not None \
+            and facts.peak_temperature - facts.end_temperature > 0.05:
+        first = (f"start at {temp(facts.peak_temperature, unit)}" if facts.peak_time <= 0 else
+                 f"peak at {temp(facts.peak_temperature, unit)} after {duration(facts.peak_time)}")
+        return (f"In the computed history (with the heat loss as stated) the contents {first}, cool, and are rising "
+                f"again at the end of the horizon ({temp(facts.end_temperature, unit)}).")
     if facts.rising_at_end:
         return (f"In the computed history (with the heat loss as stated) the contents are still rising at the end of "
                 f"the horizon ({temp(facts.peak_temperature, unit)}).")
@@ -472,6 +489,7 @@ def _cooling_failure_summary(model, facts, out, unit) -> str:
         elif out["mtsr_above_no_return"] is False:
             text.append(f"MTSR lies below the decomposition's no-return temperature ({temp(nr, unit)}): with the "
                         f"heat loss as stated the decomposition alone does not run away from the MTSR.")
+    text += ac.summary_sentences(out, unit)
     text.append(_history_sentence(facts, unit))
     if not facts.runs_away and out["synthesis_sources"] and facts.peak_temperature < (mtsr or math.inf):
         text.append("The synthesis is self-limiting here: the contents peak and cool instead of running away, and "
@@ -523,6 +541,7 @@ def _storage_summary(model, facts, out, unit) -> str:
     if out["unstirred_hot_start"]:
         text.append("The unstirred contents start above the ambient: the steady criterion does not cover the hot "
                     "start.")
+    text += ac.summary_sentences(out, unit)
     if model.mixing == "stirred":
         text.append(_history_sentence(facts, unit))
     return " ".join(text)

@@ -13,6 +13,7 @@ from screening.case.display import temp
 from screening.core.terms import model_start_temperature
 from screening.run.closed_form_case import ClosedFormValues, screen_closed_form
 from screening.run.daily_cycle import add_cycle_keys, choose_start
+from screening.run.memo_inputs import case_fields, derived_inputs
 from screening.run.monte_carlo import analyse
 from screening.run.runaway_case import screen_with_arrhenius
 from screening.run.scenario_criteria import HistoryFacts, empty_criteria, scenario_criteria
@@ -70,6 +71,9 @@ def screen_prepared(prepared: PreparedCase, input_hash: str | None = None,
     result["input_hash"] = input_hash
     if core.get("_history") is not None:
         result["_history"] = core["_history"]
+    if with_history:  # what a memo or the web page shows; not in the JSON (a register without memos skips it)
+        result["_case_fields"] = case_fields(spec)
+        result["_derived_inputs"] = derived_inputs(prepared, result)
     if prepared.uncertainty_plan is not None:
         unc = analyse(prepared, prepared.uncertainty_plan)
         result["_uncertainty_cdf"] = unc.pop("_cdf", None)

@@ -77,6 +77,17 @@ pre.listing i{font-style:normal;color:var(--muted);display:inline-block;min-widt
 .mono{font-family:"DejaVu Sans Mono",monospace;font-size:.88rem}
 details{margin:.6rem 0}
 ul.links li{margin:.2rem 0}
+figure.chart{margin:.4rem 0 1rem;border:1px solid var(--line);padding:.4rem .6rem;max-width:60rem}
+figure.chart figcaption{font-size:.9rem;color:var(--muted)}
+.workbench{display:grid;grid-template-columns:minmax(0,1.5fr) minmax(0,1fr);gap:1.4rem;align-items:start}
+@media (max-width:1100px){.workbench{grid-template-columns:1fr}}
+.workbench textarea{min-height:22rem}
+.note{border-left:6px solid var(--warn);padding:.2rem .7rem;background:#fdf6e8}
+.moved{background:#fdf0d8}
+#inputs td:nth-child(4),#derived td:nth-child(3){min-width:12rem}
+#inputs td:first-child{word-break:break-word}
+:focus-visible{outline:3px solid #1b4f7a;outline-offset:2px}
+.skip{position:absolute;left:-999px}.skip:focus{left:1rem;top:.5rem;background:#fff;padding:.3rem .6rem;z-index:2}
 """
 
 
@@ -87,10 +98,10 @@ def page(title: str, body: str, status: int = 200, refresh: int | None = None) -
     doc = f"""<!doctype html>
 <html lang="en"><head><meta charset="utf-8"><meta name="viewport" content="width=device-width, initial-scale=1">
 {meta}<title>{esc(title)} · heatscreen</title><style>{STYLE}</style></head>
-<body><header class="top"><span class="name">heatscreen</span><span class="muted">screening service {esc(__version__)}</span>
+<body><a class="skip" href="#main">Skip to the content</a><header class="top"><span class="name">heatscreen</span><span class="muted">screening service {esc(__version__)}</span>
 <nav><a href="/">Case</a><a href="/ui/register">Register</a><a href="/ui/runs">Runs</a><a href="/ui/jobs">Jobs</a>
-<a href="/ui/rules">Rule sets</a><a href="/ui/schema.json">Case schema</a></nav></header>
-<main><p class="caution" role="note"><strong>Caution.</strong> {esc(CAUTION)}</p>
+<a href="/ui/compare">Compare runs</a><a href="/ui/rules">Rule sets</a><a href="/ui/schema.json">Case schema</a></nav></header>
+<main id="main"><p class="caution" role="note"><strong>Caution.</strong> {esc(CAUTION)}</p>
 {body}</main></body></html>"""
     return HTMLResponse(doc, status_code=status)
 
@@ -225,6 +236,7 @@ async def ui_check(request: Request):
     text = str(form.get("case_text") or "")
     rules = str(form.get("rules") or "default")
     fmt = str(form.get("format") or "auto")
+    previous = str(form.get("previous") or "")  # the run this case was edited from (offered for comparison)
     filename = None
     raw = text.replace("\r\n", "\n").encode("utf-8")
     if upload is not None and not isinstance(upload, str) and upload.filename:
@@ -244,7 +256,10 @@ async def ui_check(request: Request):
         if exc.status in (413, 422):
             return case_form(svc, text, rules, fmt, problems=exc.problems, lines=exc.lines, status=exc.status)
         raise
-    return RedirectResponse(f"/ui/runs/{res.run_id}", status_code=303)
+    from screening.service.api import _ID
+
+    after = f"?previous={previous}" if previous and _ID.match(previous) and previous != res.run_id else ""
+    return RedirectResponse(f"/ui/runs/{res.run_id}{after}", status_code=303)
 
 
 # ------------------------------------------------------------------ results
@@ -259,9 +274,12 @@ def _fmt(v, digits: int = 4) -> str:
     return esc(str(v))
 
 
-def result_html(r: dict) -> str:
+def result_html(r: dict, view: dict | None = None) -> str:
+    """The result of one run; ``view`` (the memo's view of it: history, every field, derived inputs) adds the
+    chart, the inputs as written and the derived inputs."""
     from screening.case.display import dtemp, duration, temp
     from screening.report.text import criteria_rows, format_result
+    from screening.service import web_workbench as wb
 
     u = (r.get("units") or {}).get("temperature", "K")
     verdict = str(r.get("verdict") or "")
@@ -298,17 +316,19 @@ def result_html(r: dict) -> str:
                     f'</td><td class="n">{esc(when)}</td><td class="n">{esc(mtxt)}</td>'
                     f'<td class="n">{esc(duration(ad) if ad is not None else "not reached")}</td></tr>')
     out.append('<h2>Time to each limit</h2><table id="limits"><tr><th>Limit</th><th>Temperature</th>'
-               '<th>Reached after</th><th>Margin after detection and response</th><th>Adiabatic bound (UA = 0)</th>'
+               '<th>Reached after</th><th>Margin after detection and response</th><th>No heat loss (UA = 0)</th>'
                '</tr>' + "".join(rows) + "</table>")
     out.append('<p class="muted">"Not reached within the horizon" means only that: the limit may be reached later.</p>')
+    out.append(wb.reading_notes(r))
+    out.append(wb.history_section(r, view))
     if r.get("detection_note"):
         out.append(f'<p><b>{esc(str(r["detection_note"]))}</b></p>')
     tc = r.get("time_constant_s")
     key = [("Initial temperature", temp(r.get("initial_temperature_K"), u)),
            ("Ambient temperature", temp(r.get("ambient_temperature_K"), u)),
            ("Horizon", duration(horizon)),
-           ("Peak temperature", f'{temp(r.get("peak_temperature_K"), u)} at {duration(r.get("peak_time_s"))}'),
-           ("Steady temperature", temp(r.get("steady_temperature_K"), u) if r.get("steady_temperature_K") is not None
+           wb.peak_text(r),
+           (wb.steady_label(r), temp(r.get("steady_temperature_K"), u) if r.get("steady_temperature_K") is not None
             else "none (no stable steady state)"),
            ("Time constant", duration(tc) if tc is not None else "none (adiabatic)"),
            ("Heat capacity", f'{_fmt(r.get("heat_capacity_J_per_K"))} J/K'),
@@ -324,7 +344,6 @@ def result_html(r: dict) -> str:
     cycle = r.get("daily_cycle") if isinstance(r.get("daily_cycle"), dict) else None
     if cycle is not None:  # the daily cycle of the air and the sun
         key[1] = ("Ambient temperature (daily mean)", temp(r.get("ambient_temperature_K"), u))
-        key[4] = ("Steady temperature (daily mean)", key[4][1])
         sun = cycle.get("sun") if isinstance(cycle.get("sun"), dict) else None
         key[2:2] = [("Daily range of the air", dtemp(cycle.get("daily_range_K"), u)),
                     ("Sol-air rise at noon (contents' share)", dtemp(sun.get("sol_air_rise_K"), u) if sun else "no sun"),
@@ -347,13 +366,18 @@ def result_html(r: dict) -> str:
     if assumptions:
         out.append("<h2>Assumptions</h2><ul>" + "".join(f"<li>{esc(a)}</li>" for a in assumptions) + "</ul>")
     inputs = r.get("inputs") or []
-    if inputs:
+    listed = wb.inputs_section(r, view)
+    if listed:
+        out.append(listed)
+    elif inputs:
         out.append("<h2>Inputs as written</h2><table><tr><th>Field</th><th>As written</th><th>SI value</th>"
                    "<th>Source</th></tr>" + "".join(
                        f'<tr><td class="mono">{esc(str(i.get("field")))}</td><td>{esc(str(i.get("text")))}</td>'
                        f'<td class="n">{_fmt(i.get("value_si"), 6)} {esc(str(i.get("unit_si") or ""))}</td>'
                        f'<td>{esc(str(i.get("source") or "not stated"))}</td></tr>' for i in inputs if isinstance(i, dict))
                    + "</table>")
+    out.append(wb.derived_section(view))
+    out.append(wb.uncertainty_section(r, view))
     try:
         text = format_result(r)
     except Exception:  # noqa: BLE001 - the text report is a convenience
@@ -364,20 +388,58 @@ def result_html(r: dict) -> str:
     return "\n".join(out)
 
 
-@router.get("/ui/runs/{run_id}", response_class=HTMLResponse)
-async def ui_run(request: Request, run_id: str):
-    from screening.service.api import _check_id
+def _view_of(run) -> dict | None:
+    """The memo's view of a run (history, every field, derived inputs), when it was recorded."""
+    if not run.memo_view_json:
+        return None
+    try:
+        view = json.loads(run.memo_view_json)
+    except ValueError:
+        return None
+    return view if isinstance(view, dict) else None
 
-    run = await _svc(request).store.get_run(_check_id(run_id, "run_id"))
+
+def _edit_form(svc, run) -> str:
+    """'Edit and screen again': the run's own case text in an editor, sent back as a new run."""
+    if run.input_bytes is None or run.input_kind not in ("yaml", "json", "toml"):
+        return ""
+    try:
+        text = run.input_bytes.decode("utf-8-sig")
+    except UnicodeDecodeError:
+        return ""
+    return f"""<section aria-labelledby="edit-heading" id="edit"><h2 id="edit-heading">Edit and screen again</h2>
+<p class="muted">Change the case below and screen it again; the new run keeps a link to this one so the two can be
+compared side by side.</p>
+<form method="post" action="/ui/check" enctype="multipart/form-data" id="rerun-form">
+<input type="hidden" name="previous" value="{esc(run.id)}"><input type="hidden" name="format" value="{esc(run.input_kind)}">
+<label for="case_text">Case ({esc(run.input_kind.upper())})</label>
+<textarea id="case_text" name="case_text" spellcheck="false">{esc(text)}</textarea>
+<p><label>Rule set <select name="rules" id="rules">{_rule_options(svc, run.rule_set_file or "default")}</select></label>
+<button type="submit" id="screen-again">Screen again</button></p></form></section>"""
+
+
+@router.get("/ui/runs/{run_id}", response_class=HTMLResponse)
+async def ui_run(request: Request, run_id: str, previous: str | None = None):
+    from screening.service.api import _ID, _check_id
+
+    svc = _svc(request)
+    run = await svc.store.get_run(_check_id(run_id, "run_id"))
     if run is None:
         return message_page("Not found", "There is no run with this id.", status=404)
     result = json.loads(run.result_json) if run.result_json else None
     parts = []
+    if previous and _ID.match(previous) and previous != run.id:
+        parts.append(f'<p class="note" id="compare-offer">This run was edited from run '
+                     f'<a href="/ui/runs/{esc(previous)}" class="mono">{esc(previous[:12])}</a>. '
+                     f'<a id="compare-link" href="/ui/compare?a={esc(previous)}&amp;b={esc(run.id)}">Compare the two '
+                     f'side by side</a>.</p>')
     if result is None:
         parts.append(f'<h1>Run {esc(run.id)}</h1><p class="problems" role="alert">This run did not give a result: '
                      f'{esc(run.status)}. {esc(run.error or "")}</p>')
     else:
-        parts.append(result_html(result))
+        edit = _edit_form(svc, run)
+        main = result_html(result, _view_of(run))
+        parts.append(f'<div class="workbench"><div>{main}</div><div>{edit}</div></div>' if edit else main)
     downloads = []
     if result is not None and run.memo_view_json:
         downloads.append(f'<li><a id="memo-link" href="/ui/runs/{run.id}/memo.pdf">Review memo (PDF)</a></li>')
@@ -445,6 +507,38 @@ async def ui_runs(request: Request, offset: int = 0):
     nxt = f'<p><a href="/ui/runs?offset={offset + 100}">Older runs</a></p>' if offset + 100 < total else ""
     return page("Runs", f"""<h1>Recorded runs ({total})</h1><table><tr><th>Run</th><th>Recorded (UTC)</th><th>Kind</th>
 <th>Case</th><th>Verdict</th><th>Warnings</th></tr>{trs}</table>{nxt}""")
+
+
+@router.get("/ui/compare", response_class=HTMLResponse)
+async def ui_compare(request: Request, a: str | None = None, b: str | None = None):
+    from screening.service.api import _check_id
+    from screening.service.web_workbench import compare_html
+
+    svc = _svc(request)
+    if a and b:
+        runs = []
+        for rid, which in ((a, "a"), (b, "b")):
+            run = await svc.store.get_run(_check_id(rid, "run_id"))
+            if run is None or not run.result_json:
+                return message_page("Not found", f"Run {which.upper()} has no result to compare.", status=404)
+            runs.append((run, json.loads(run.result_json), _view_of(run)))
+        return page("Compare runs", compare_html(runs[0], runs[1]))
+    rows, _ = await svc.store.list_runs(100, 0)
+    ok = [r for r in rows if r["status"] == "ok"]
+
+    def options(selected):
+        return "".join(f'<option value="{esc(r["id"])}"{" selected" if r["id"] == selected else ""}>'
+                       f'{esc(r["created_at"])} · {esc(str(r["case_id"] or "—"))} · {esc(str(r["verdict"] or ""))} · '
+                       f'{esc(r["id"][:12])}</option>' for r in ok)
+
+    first = ok[1]["id"] if len(ok) > 1 else None
+    second = ok[0]["id"] if ok else None
+    return page("Compare runs", f"""<h1>Compare two runs</h1>
+<p>Pick two recorded runs: the page lists the inputs that differ and the results that moved, with both temperature
+histories side by side.</p>
+<form method="get" action="/ui/compare" id="compare-form"><p><label>Run A <select name="a" id="run-a">{options(first)}
+</select></label></p><p><label>Run B <select name="b" id="run-b">{options(second)}</select></label></p>
+<p><button type="submit" id="compare">Compare</button></p></form>""")
 
 
 # ------------------------------------------------------------------ registers

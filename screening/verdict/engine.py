@@ -53,6 +53,8 @@ def _fmt_time(s: float, precise: bool = False) -> str:
         return f"{_trim(h, digits + extra)} h"
     if round(abs(s), 1) >= 59.95:
         return f"{_trim(s / 60.0, 1 + extra)} min"
+    if s != 0 and abs(s) < 1.0:  # under a second: as such, never "0 s"
+        return f"{s:.{2 + extra}g} s"
     return f"{_trim(s, 1 + extra)} s"
 
 

@@ -404,6 +404,34 @@ def _runaway(key: str, label: str):
     return fn
 
 
+_INDUCTION_SCENARIO = {"induction_time_at_storage_temperature_s": "storage",
+                       "induction_time_over_storage_period": "storage", "induction_time_at_mtsr_s": "cooling-failure"}
+
+
+def _q_induction_time(key: str):
+    scenario_of_key = _INDUCTION_SCENARIO[key]
+
+    @_safe
+    def fn(r):
+        scenario = _scenario(r)
+        if scenario != scenario_of_key:
+            return _Missing(NOT_APPLICABLE, f"{scenario or 'this'} scenario: the induction time is judged "
+                                            f"{'in storage' if scenario_of_key == 'storage' else 'at MTSR'}")
+        v = _num(r, key)
+        if v is not None:
+            if key == "induction_time_over_storage_period":
+                return v, {"induction_time": _num(r, "induction_time_at_storage_temperature_s"),
+                           "storage_period": _num(r, "horizon_s")}
+            return v, None
+        if not isinstance(r.get("autocatalytic"), dict):
+            return _Missing(NOT_APPLICABLE, "no autocatalytic decomposition, so no induction time")
+        return _Missing(UNKNOWN, "induction time not in the result (none at all: the material starts at its "
+                                 "maximum rate)" if key != "induction_time_at_mtsr_s" else
+                        "induction time not in the result")
+
+    return fn
+
+
 def _storage_gap(r):
     missing = _scenario_missing(r, "critical_ambient_temperature_K")
     if missing is not None:
@@ -584,6 +612,20 @@ def _q_steady_temperature(r):
     return _Missing(NOT_APPLICABLE, "there is no stable steady state") if v is None else (v, None)
 
 
+@_safe
+def _q_steady_gap_to_limit(r):
+    """Smallest (limit temperature - steady temperature) over the limits at or above the steady temperature."""
+    steady = _num(r, "steady_temperature_K")
+    if steady is None:
+        return _Missing(NOT_APPLICABLE, "there is no stable steady state")
+    above = [(tl - steady, lim, tl) for lim in _limits(r) if (tl := _num(lim, "temperature_K")) is not None
+             and tl >= steady]
+    if not above:
+        return _Missing(NOT_APPLICABLE, "every limit lies below the steady temperature")
+    gap, lim, tl = min(above, key=lambda x: x[0])
+    return gap, {"limit": _lname(lim), "limit_temperature": tl, "steady_temperature": steady}
+
+
 def _boiling(key: str, label: str):
     @_safe
     def fn(r):
@@ -715,6 +757,10 @@ def _quantity_table() -> dict[str, Quantity]:
                  "time + response time), the most the calculation can show about their margin",
                  _q_horizon_margin, (("limit", TEXT),)),
         Quantity("limit_count", COUNT, "number of limit temperatures given", _q_limit_count),
+        Quantity("steady_gap_to_limit", DELTA_T, "the nearest limit at or above the stable steady temperature "
+                 "minus that steady temperature; not applicable without a steady state or without such a limit",
+                 _q_steady_gap_to_limit, (("limit", TEXT), ("limit_temperature", TEMPERATURE),
+                                          ("steady_temperature", TEMPERATURE))),
         Quantity("limit_exceeded_at_start", FLAG, "a limit is already reached or exceeded at t = 0",
                  _q_limit_exceeded_at_start, (("limit", TEXT),)),
         Quantity("undetected_limit", FLAG, "a limit is reached within the horizon while nothing detects it: the "
@@ -789,6 +835,15 @@ def _quantity_table() -> dict[str, Quantity]:
                  _runaway("tmr_at_storage_temperature_s", "TMRad at the storage temperature")),
         Quantity("gas_in_closed_package", FLAG, "a decomposition makes gas and the vessel or package is closed "
                  "(storage)", _flag("gas_in_closed_package", ("storage",), "gas in a closed package")),
+        Quantity("induction_time_at_storage_temperature", TIME, "isothermal induction time (time to the maximum "
+                 "rate at a constant temperature) of an autocatalytic decomposition at the storage temperature "
+                 "(storage)", _q_induction_time("induction_time_at_storage_temperature_s")),
+        Quantity("induction_time_over_storage_period", NUMBER, "isothermal induction time at the storage "
+                 "temperature divided by the storage period (the horizon) (storage, autocatalytic decomposition)",
+                 _q_induction_time("induction_time_over_storage_period"),
+                 (("induction_time", TIME), ("storage_period", TIME))),
+        Quantity("induction_time_at_mtsr", TIME, "isothermal induction time of an autocatalytic decomposition at "
+                 "the MTSR (cooling failure)", _q_induction_time("induction_time_at_mtsr_s")),
         Quantity("unstirred_hot_start", FLAG, "unstirred contents start above the ambient, which the steady "
                  "critical-ambient criterion does not cover (storage)",
                  _flag("unstirred_hot_start", ("storage",), "the hot start of unstirred contents")),

@@ -78,8 +78,20 @@ BY_VOLUME = {
     "heat_loss": {"ambient_temperature": "20 degC", "ua": "100 W/K"},
     "limits": [{"name": "onset", "temperature": "90 degC"}],
 }
-SUNNY = {
+AUTOCATALYTIC = {
     "id": "NF-4",
+    "contents": {"mass": "400 kg", "specific_heat": "1.6 kJ/(kg*K)", "initial_temperature": "30 degC"},
+    "heat_loss": {"ambient_temperature": "30 degC", "ua": "2 W/K"},
+    "heat_sources": [{"kind": "arrhenius", "specific_power": "0.001 W/kg", "reference_temperature": "80 degC",
+                      "activation_energy": "100 kJ/mol", "order": 1, "specific_heat_of_reaction": "300 kJ/kg",
+                      "initial_conversion": "5 %"},
+                     {"kind": "autocatalytic", "rate_constant": "2e-5 1/s", "reference_temperature": "150 degC",
+                      "activation_energy": "120 kJ/mol", "order": 1, "autocatalytic_order": 1, "initiation": 0.02,
+                      "specific_heat_of_reaction": "500 kJ/kg", "initial_conversion": "1 %"}],
+    "limits": [{"name": "onset", "temperature": "60 degC"}],
+}
+SUNNY = {
+    "id": "NF-5",
     "contents": {"mass": "200 kg", "specific_heat": "2 kJ/(kg*K)", "initial_temperature": "25 degC"},
     "heat_loss": {"ambient_temperature": "28 degC", "ua": "20 W/K", "daily_range": "14 K",
                   "warmest_time_of_day": "15 h"},
@@ -88,7 +100,7 @@ SUNNY = {
     "start_time_of_day": "6 h",
     "limits": [{"name": "onset", "temperature": "90 degC"}],
 }
-CASES = (FULL, BOX, BY_VOLUME, SUNNY)
+CASES = (FULL, BOX, BY_VOLUME, AUTOCATALYTIC, SUNNY)
 # Quantities the schema types as free values and validates itself: each needs its own entry here.
 CHECKED_OUTSIDE_THE_MODEL = [("heat_loss", "area"), ("heat_sources", 3, "tested_range", 0),
                              ("heat_sources", 3, "tested_range", 1), ("sun", "exposed_area")]

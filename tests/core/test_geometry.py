@@ -56,7 +56,9 @@ def test_cylinders_against_fluids_tank(shape, heads):
         V = tank.V_from_h(h)
         assert liquid_height(v, V) == pytest.approx(h, rel=1e-9)
         assert wetted_area(v, V) == pytest.approx(tank.SA_from_h(h), rel=1e-9)
-        assert liquid_volume_at_height(v, h) == pytest.approx(V, rel=1e-12)
+        # fluids' horizontal torispherical V(h) is an adaptive quadrature, 5e-12 off the mpmath value at
+        # some heights (tests/core/test_geometry_arrays.py checks ours against mpmath to 1e-9, found 1e-15)
+        assert liquid_volume_at_height(v, h) == pytest.approx(V, rel=1e-10)
         assert h == pytest.approx(tank.h_from_V(V, method="brenth"), rel=1e-9)  # fluids' own exact inverse
 
 
@@ -69,7 +71,10 @@ def test_torispherical_with_given_radii_against_fluids():
         assert total_volume(v) == pytest.approx(tank.V_total, rel=1e-12)
         assert total_area(v) == pytest.approx(tank.A, rel=1e-12)
         h = 0.6 * tank.h_max
-        assert wetted_area(v, tank.V_from_h(h)) == pytest.approx(tank.SA_from_h(h), rel=1e-9)
+        # lying down, fluids' wetted area here is a double adaptive quadrature (with IntegrationWarnings),
+        # 5e-9 off the mpmath value; ours agrees with mpmath to 1e-15 (tests/core/test_geometry_arrays.py)
+        rel = 1e-7 if shape == "horizontal-cylinder" else 1e-9
+        assert wetted_area(v, tank.V_from_h(h)) == pytest.approx(tank.SA_from_h(h), rel=rel)
 
 
 def test_sphere_against_fluids_partial_sphere_and_cap_formulas():

@@ -66,3 +66,32 @@ def test_no_second_copy_of_the_terms_assembly():
     allowed = {"core/terms.py", "core/model.py"}
     copies = [f"{rel}: {m.group(0)!r}" for rel, text in _sources(allowed) for p in patterns for m in p.finditer(text)]
     assert not copies, "the balance terms are assembled again; use screening.core.terms:\n" + "\n".join(copies)
+
+
+def test_every_engine_takes_the_conversion_function_from_one_place():
+    # f(alpha) = (1 - alpha)^n (alpha^m + z): the autocatalytic factor comes from core.arrhenius in every engine
+    for module in ("core/runaway/rates.py", "core/runaway/autocatalytic.py", "core/arrhenius_history.py",
+                   "core/arrhenius_history_batch.py"):
+        assert _imports_name(module, "screening.core.arrhenius", "autocatalytic_term"), module
+
+
+_AUTOCATALYTIC_FACTOR = re.compile(
+    r"(\*\*\s*\(?\s*[\w.\[\]\"']*\b(autocatalytic_order|m|am|P\.am)\b[\w.\[\]\"']*\s*\)?\s*\)?"  # alpha ** m
+    r"\s*\+\s*[\w.(\[\"']*\b(initiation|ln_initiation|z|az|P\.az)\b)"  # + z (or exp(p["ln_initiation"]))
+    r"|(power\([^()]*\b(autocatalytic_order|m|am)\b[^()]*\)\s*\+\s*[\w.(]*\b(initiation|z|az)\b)")
+
+
+def test_the_copy_pattern_finds_the_autocatalytic_factor():
+    # the pattern below must recognise the one implementation itself and the usual spellings of a copy
+    text = (PACKAGE / "core/arrhenius.py").read_text(encoding="utf-8")
+    assert _AUTOCATALYTIC_FACTOR.search(text)
+    for copy in ("g = a ** m + z", "x ** s.autocatalytic_order + s.initiation", "np.power(X, P.am) + P.az",
+                 "(alpha ** (m) + z)", 'a ** p["autocatalytic_order"] + math.exp(p["ln_initiation"])'):
+        assert _AUTOCATALYTIC_FACTOR.search(copy), copy
+
+
+def test_no_second_copy_of_the_autocatalytic_factor():
+    copies = [f"{rel}: {m.group(0)!r}" for rel, text in _sources({"core/arrhenius.py"})
+              for m in _AUTOCATALYTIC_FACTOR.finditer(text)]
+    assert not copies, ("the factor alpha^m + z is written out again; call core.arrhenius.autocatalytic_term:\n"
+                        + "\n".join(copies))

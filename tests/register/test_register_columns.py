@@ -191,3 +191,135 @@ def test_summary_from_rows_in_parts_equals_summary_from_results(monkeypatch):
     k = len(results) // 2
     rows = summarise_register_results(results[:k]) + summarise_register_results(results[k:], start=k)
     assert render_register_summary(rows, summarised=True) == whole
+
+
+# ------------------------------------------------------------------ tanks given by geometry
+
+TANK_BASE = {
+    "id": "BASE",
+    "vessel": {"shape": "horizontal-cylinder", "diameter": "2.5 m", "length": "6 m", "heads": "torispherical"},
+    "contents": {"fill": "0.6", "density": "900 kg/m^3", "specific_heat": "2.1 kJ/(kg*K)",
+                 "initial_temperature": "25 degC"},
+    "heat_loss": {"ambient_temperature": "30 degC", "coefficient": "5 W/(m^2*K)", "area": "wetted"},
+    "heat_sources": [{"kind": "constant", "power": "1 kW"},
+                     {"kind": "decaying", "power": "10 kW", "time_constant": "3 h"}],
+    "limits": [{"name": "onset", "temperature": "60 degC"}],
+    "response_time": "2 h",
+}
+
+# every shape and head the schema accepts (structure, the same for a whole register here)
+TANK_SHAPES = [("vertical-cylinder", h) for h in ("flat", "hemispherical", "ellipsoidal", "torispherical")] \
+    + [("horizontal-cylinder", h) for h in ("flat", "hemispherical", "ellipsoidal", "torispherical")] \
+    + [("sphere", None), ("box", None)]
+
+TANK_COLUMNS = {
+    "vessel.diameter [m]": st.one_of(st.floats(0.3, 6).map(lambda v: f"{v:.4g}"), st.just("1e-200")),
+    "vessel.length [m]": st.floats(0.1, 20).map(lambda v: f"{v:.4g}"),
+    "vessel.width [m]": st.floats(0.2, 5).map(lambda v: f"{v:.4g}"),
+    "vessel.height [m]": st.floats(0.2, 5).map(lambda v: f"{v:.4g}"),
+    "vessel.crown_radius [m]": st.sampled_from(["2.5", "3.1", "1.0"]),  # 1.0 m is below D/2: an error
+    "vessel.knuckle_radius [m]": st.sampled_from(["0.15", "0.4"]),
+    "contents.fill": st.one_of(st.floats(0.001, 1.0).map(lambda v: f"{v:.4g}"), st.just("1.2"), st.just("0")),
+    "contents.density [kg/m^3]": st.sampled_from(["800", "1000", "1450"]),
+    "heat_loss.coefficient [W/(m^2*K)]": st.sampled_from(["0", "2.5", "8", "40"]),
+    "contents.specific_heat [kJ/(kg*K)]": st.sampled_from(["2.1", "4.18"]),
+    "heat_sources.1.power [kW]": st.floats(0, 80).map(lambda v: f"{v:.4g}"),
+    "limits.0.temperature [degC]": st.sampled_from(["40", "55", "90"]),
+}
+
+
+@st.composite
+def tank_registers(draw):
+    shape, heads = draw(st.sampled_from(TANK_SHAPES))
+    need = {"box": ["vessel.length [m]", "vessel.width [m]", "vessel.height [m]"],
+            "sphere": ["vessel.diameter [m]"]}.get(shape, ["vessel.diameter [m]", "vessel.length [m]"])
+    optional = sorted(c for c in TANK_COLUMNS if c not in need and not c.startswith("vessel."))
+    if heads == "torispherical":
+        optional += ["vessel.crown_radius [m]", "vessel.knuckle_radius [m]"]
+    chosen = need + draw(st.lists(st.sampled_from(optional), max_size=5, unique=True))
+    n = draw(st.integers(2, 8))
+    rows = [[f"V-{i}"] + [draw(TANK_COLUMNS[c]) for c in chosen] for i in range(n)]
+    area = draw(st.sampled_from(["wetted", "total", "ua"]))
+    amount = draw(st.sampled_from(["fill", "mass", "volume"]))
+    return shape, heads, ["id"] + chosen, rows, area, amount
+
+
+def _tank_base(shape, heads, area, amount):
+    base = json.loads(json.dumps(TANK_BASE))
+    base["vessel"] = {"shape": shape} if heads is None else {"shape": shape, "heads": heads}
+    if area == "ua":
+        base["heat_loss"] = {"ambient_temperature": "30 degC", "ua": "40 W/K"}
+    else:
+        base["heat_loss"]["area"] = area
+    if amount == "mass":
+        base["contents"].pop("fill")
+        base["contents"]["mass"] = "3 t"
+    elif amount == "volume":
+        base["contents"].pop("fill")
+        base["contents"]["volume"] = "2 m^3"
+    return base
+
+
+@settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(case=tank_registers())
+def test_tank_groups_equal_row_by_row(tmp_path_factory, monkeypatch, strict, case):
+    """Tanks given by geometry, every shape and head: the array path's result objects equal the general path's."""
+    import warnings
+
+    shape, heads, header, rows, area, amount = case
+    if amount != "fill" and "contents.fill" in header:  # the amount is given another way: no fill column
+        k = header.index("contents.fill")
+        header = header[:k] + header[k + 1:]
+        rows = [r[:k] + r[k + 1:] for r in rows]
+    base = _tank_base(shape, heads, area, amount)
+    tmp = tmp_path_factory.mktemp("tanks")
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")  # no library warning on either path
+        fast = _run(tmp, header, rows, base, False, monkeypatch)
+        slow = _run(tmp, header, rows, base, True, monkeypatch)
+    assert fast[0] == {**slow[0], "out_dir": fast[0]["out_dir"]}
+    assert fast[1] == slow[1]  # every result object, every key
+    assert fast[2] == slow[2]  # errors.csv
+    assert fast[3] == slow[3]  # results.csv
+
+
+def test_tank_register_goes_the_array_path(tmp_path, monkeypatch, strict):
+    """A register of horizontal torispherical tanks is screened as a group, without a warning."""
+    import warnings
+
+    taken = []
+    real = columns.screen_group
+
+    def spy(*args, **kwargs):
+        out = real(*args, **kwargs)
+        taken.append(len(out.results))
+        return out
+
+    monkeypatch.setattr(chunks, "screen_group", spy)
+    header = ["id", "vessel.diameter [m]", "vessel.length [m]", "contents.fill"]
+    rows = [[f"T-{i}", f"{1 + 0.1 * i:.3g}", f"{2 + 0.3 * i:.3g}", f"{0.05 + 0.03 * i:.3g}"] for i in range(30)]
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        fast = _run(tmp_path, header, rows, TANK_BASE, False, monkeypatch)
+    assert len(taken) >= 1 and sum(taken) == len(rows) - len(taken)
+    slow = _run(tmp_path, header, rows, TANK_BASE, True, monkeypatch)
+    assert fast[1] == slow[1] and fast[3] == slow[3]
+
+
+@pytest.mark.parametrize("shape,heads", TANK_SHAPES)
+def test_every_tank_shape_equals_row_by_row(tmp_path, monkeypatch, strict, shape, heads):
+    """Each shape and head once, with its dimensions, fill, density and coefficient varying per row."""
+    import random
+
+    rnd = random.Random(f"{shape}-{heads}")
+    dims = {"box": ["vessel.length [m]", "vessel.width [m]", "vessel.height [m]"],
+            "sphere": ["vessel.diameter [m]"]}.get(shape, ["vessel.diameter [m]", "vessel.length [m]"])
+    header = ["id"] + dims + ["contents.fill", "contents.density [kg/m^3]", "heat_loss.coefficient [W/(m^2*K)]"]
+    rows = [[f"V-{i}"] + [f"{rnd.uniform(0.3, 5):.4g}" for _ in dims]
+            + [f"{rnd.uniform(0.001, 1.05):.4g}", f"{rnd.uniform(600, 1500):.4g}", f"{rnd.uniform(0, 30):.3g}"]
+            for i in range(12)]
+    base = _tank_base(shape, heads, "wetted", "fill")
+    fast = _run(tmp_path, header, rows, base, False, monkeypatch)
+    slow = _run(tmp_path, header, rows, base, True, monkeypatch)
+    assert fast[1] == slow[1] and fast[2] == slow[2] and fast[3] == slow[3]
+    assert all(r["geometry"]["wetted_area_m2"] > 0 for r in fast[1])

@@ -501,15 +501,21 @@ def test_uncertainty_section_content(mc_rendered):
     for lim in u["limits"]:
         for key in ("probability_before_response", "probability_within_horizon"):
             p, se = lim[key], lim[key + "_standard_error"]
+            if p == 0.0 and se == 0.0:  # no hit: the one-sided 95 % upper bound instead (checked below)
+                continue
             assert flat(mw._percent(p, se)) in text, (lim["name"], key)
         for key in ("p05_time_s", "p50_time_s", "p95_time_s"):
             if lim[key] is not None:
                 assert mw._hours_short(lim[key]) in text
     assert "56.25 % \u00b1 0.81 %" in text  # the first limit, before detection + response
     assert "not reached" in text
-    # p = 0 with a zero standard error: says how many samples and that it is not certainty
-    assert f"0 % (none of {u['accepted']} samples)" in text
-    assert "does not mean certainty" in text
+    # p = 0 with a zero standard error: how many samples, and the one-sided 95 % upper bound 1 - 0.05^(1/N)
+    # (exact Clopper-Pearson bound for no successes, about 3/N: the "rule of three"; Hanley and Lippman-Hand,
+    # JAMA 249 (1983) 1743, from memory)
+    bound = 1.0 - 0.05 ** (1.0 / u["accepted"])
+    assert abs(bound - 3.0 / u["accepted"]) < 0.05 * bound
+    assert f"none of {u['accepted']} samples; below {flat(mw._percent(bound))}" in text
+    assert "0.0000 ± 0.0000" not in text and "0 % ± 0 %" not in text
     # run line and method
     assert (f"Samples drawn: 4000; screened: {u['accepted']}; rejected as physically impossible: "
             f"{u['rejected']}; seed: 11; sampling: random.") in text
@@ -618,7 +624,8 @@ def test_uncertainty_edge_values():
     assert "all inputs at case values: not reached" in text
     assert "not reached within the horizon (bar drawn to the horizon)" in text
     assert "n/a (no response time given)" in text
-    assert f"100 % (all {u['accepted']} samples)" in text
+    # all samples: the one-sided 95 % lower bound 0.05^(1/N) (exact Clopper-Pearson, from memory)
+    assert f"all {u['accepted']} samples; above {flat(mw._percent(0.05 ** (1.0 / u['accepted'])))}" in text
     assert "The chart shows the 15 most influential inputs; all 27 are in the table below." in text
     assert "heat_sources.19.power" in text  # every input is in the table
     assert "No sample reaches Flash point within the horizon" in text

@@ -251,3 +251,41 @@ def test_margin_scan_keeps_absorptivity_and_times_of_day_possible(run_cli):
     out = run_cli("margin", "screening/demo_cases/fw-d52-drum-yard.yaml", "--vary", "heat_loss.warmest_time_of_day")
     assert out.returncode in (0, 1), out.stderr
     assert "to 24 h" in out.stdout or "to 86400" in out.stdout or "to 1440 min" in out.stdout, out.stdout
+
+
+@pytest.mark.parametrize("rate", ["3e-6 1/s", "8e-6 1/s"])
+def test_autocatalytic_source_in_the_sun_batch_equals_one_case_engine(rate):
+    """Both switches of the batch integrator's early finish at once (an autocatalytic source and the daily cycle):
+    its times and peak equal the one-case engine's (scipy solve_ivp with events, the reference), and the sun and
+    the air's cycle are what bring the limit within the horizon."""
+    import dataclasses
+
+    import yaml
+
+    from screening.core.arrhenius_history import integrate_history
+    from screening.core.arrhenius_history_batch import first_crossing_times_arrhenius, samples_from_models
+
+    case = {
+        "id": "AC-SUN",
+        "contents": {"mass": "400 kg", "specific_heat": "1.6 kJ/(kg*K)", "initial_temperature": "30 degC"},
+        "heat_loss": {"ambient_temperature": "30 degC", "ua": "2 W/K", "daily_range": "14 K"},
+        "sun": {"peak_irradiance": "850 W/m^2", "absorptivity": 0.7, "exposed_area": "1 m^2", "day_length": "13 h"},
+        "start_time_of_day": "6 h",
+        "heat_sources": [{"kind": "autocatalytic", "rate_constant": rate, "reference_temperature": "60 degC",
+                          "activation_energy": "120 kJ/mol", "order": 1, "autocatalytic_order": 1,
+                          "initiation": 0.02, "specific_heat_of_reaction": "500 kJ/kg", "initial_conversion": "1 %"}],
+        "limits": [{"name": "a", "temperature": "43 degC"}, {"name": "b", "temperature": "80 degC"}],
+        "horizon": "10 d",
+    }
+    model = prepare_case(load_case_bytes(yaml.safe_dump(case).encode(), "yaml").spec).model
+    assert model.daily_cycle is not None and model.arrhenius_sources[0].autocatalytic
+    one = integrate_history(model)
+    params, limits, horizon = samples_from_models([model])
+    assert params.forcing is not None and params.autocatalytic_order is not None
+    batch = first_crossing_times_arrhenius(params, limits, horizon)
+    t_one = one.limits[0].time
+    assert t_one is not None and batch.times[0, 0] == pytest.approx(t_one, rel=1e-6)
+    assert one.limits[1].time is None and math.isnan(batch.times[0, 1])
+    assert batch.peak_temperature[0] == pytest.approx(one.peak_temperature, rel=1e-7)
+    shade = integrate_history(dataclasses.replace(model, daily_cycle=None))
+    assert shade.limits[0].time is None and shade.peak_temperature < one.peak_temperature

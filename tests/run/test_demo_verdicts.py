@@ -72,11 +72,13 @@ def test_tanks_and_fire_case_are_heat_up_cases(name):
     assert not any("MTSR" in x or "criticality" in x.lower() for x in decisive(r))
 
 
-def test_fw_t204_passes_on_its_stated_alarm():
+def test_fw_t204_review_only_because_it_settles_just_below_a_limit():
+    # its stated alarm gives enough margin; but it settles at 59.8 degC, 0.2 K below the 60 degC limit, under the
+    # default rule set's 5 K margin between a steady temperature and a limit (site choice)
     r = screen_demo("fw-t204-hold-tank.yaml")
-    assert r["verdict"] == "pass" and r["detection_basis"] == "alarm"
-    [summary] = r["reasons"]
-    assert "limit-before-response" in summary and "does not show that the vessel is safe" in summary
+    assert r["verdict"] == "review" and r["detection_basis"] == "alarm"
+    [reason] = decisive(r)
+    assert "settle at 59.8 °C, only 0.2 K below limit 'decomposition onset margin' (60.0 °C)" in reason
 
 
 def test_fw_t410_fire_case_review_because_detection_is_only_assumed():
@@ -105,12 +107,15 @@ def test_fw_t302_review_on_assumed_detection_and_monte_carlo():
     assert any("Monte Carlo samples (0.01 or more)" in x for x in reasons)
 
 
-def test_example_case_shows_roles_and_passes_as_class_1():
+def test_example_case_shows_roles_class_1_and_review_for_its_steady_state():
     r = screen_demo("example_case.yaml")
     assert r["scenario"] == "cooling-failure" and r["criticality_class"] == 1
     assert r["synthesis_sources"] == ["heat_sources.1"]
     assert r["decomposition_sources"] == ["heat_sources.2 (decomposition of the resin)"]
-    assert r["verdict"] == "pass"
+    # review only because it settles 0.8 K below the 45 degC limit (the 5 K steady-state margin, site choice)
+    assert r["verdict"] == "review"
+    reasons = [x for x in decisive(r) if not x.startswith("Runaway risk matrix")]
+    assert len(reasons) == 1 and "only 0.8 K below limit 'onset margin'" in reasons[0]
     [matrix] = [x for x in r["reasons"] if x.startswith("Runaway risk matrix")]
     assert "(low probability)" in matrix and "(medium severity)" in matrix
 

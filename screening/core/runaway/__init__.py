@@ -6,6 +6,8 @@ Pure SI functions of temperatures, masses and :class:`screening.core.model.Arrhe
 - :mod:`~screening.core.runaway.tmr`: time to maximum rate under adiabatic conditions, T_D24
 - :mod:`~screening.core.runaway.semenov`: critical ambient and steady states of a well-stirred mass
 - :mod:`~screening.core.runaway.stoessel`: adiabatic rise, MTSR, criticality, probability and severity classes
+- :mod:`~screening.core.runaway.autocatalytic`: TMRad and T_D24 of the integrated adiabatic history, the
+  isothermal induction time (autocatalytic reactions)
 - :mod:`~screening.core.runaway.frank_kamenetskii`: critical conditions of unstirred contents with conduction
 
 Each function documents its equation, its assumptions (well stirred or conduction, zero
@@ -20,6 +22,14 @@ University Press (1955), 2nd ed. Plenum (1969).
 Stoessel, F., *Thermal Safety of Chemical Processes*, Wiley-VCH (2008) (from memory).
 """
 
+from screening.core.runaway.autocatalytic import (
+    METHOD_CLOSED_FORM,
+    METHOD_INTEGRATED,
+    induction_integral,
+    isothermal_induction_time,
+    t_d24_integrated,
+    tmr_adiabatic_integrated,
+)
 from screening.core.runaway.frank_kamenetskii import (
     frank_kamenetskii_critical,
     frank_kamenetskii_critical_ambient,
@@ -39,11 +49,16 @@ from screening.core.runaway.rates import (
     WARNING_LOW_SEVERITY_PRESSURE,
     WARNING_TRANSIENT_SOURCES,
     WARNING_UNBOUNDED_RISE,
+    WARNING_INITIATION_TEMPERATURE,
     WARNING_ZERO_CONVERSION,
+    WARNING_ZERO_CONVERSION_REACTION,
     heat_generation,
     heat_generation_slope,
     heat_loss,
+    initiation_warnings,
     kinetics_warnings,
+    rate_conversion,
+    zero_conversion_warning,
 )
 from screening.core.runaway.semenov import (
     SemenovCritical,
@@ -80,7 +95,11 @@ __all__ = [
     "WARNING_LOW_SEVERITY_PRESSURE",
     "WARNING_TRANSIENT_SOURCES",
     "WARNING_UNBOUNDED_RISE",
+    "METHOD_CLOSED_FORM",
+    "METHOD_INTEGRATED",
+    "WARNING_INITIATION_TEMPERATURE",
     "WARNING_ZERO_CONVERSION",
+    "WARNING_ZERO_CONVERSION_REACTION",
     "accumulated_temperature_rise",
     "adiabatic_temperature_rise",
     "criticality_class",
@@ -91,14 +110,21 @@ __all__ = [
     "heat_generation",
     "heat_generation_slope",
     "heat_loss",
+    "induction_integral",
+    "initiation_warnings",
+    "isothermal_induction_time",
     "kinetics_warnings",
     "mtsr",
     "possible_criticality_classes",
+    "rate_conversion",
     "semenov_critical_ambient",
     "semenov_critical_medium_temperature",
     "severity_class",
     "steady_states",
     "t_d24",
+    "t_d24_integrated",
     "tmr_adiabatic",
+    "tmr_adiabatic_integrated",
     "tmr_probability_class",
+    "zero_conversion_warning",
 ]

@@ -55,7 +55,7 @@ from typing import Sequence
 
 import numpy as np
 
-from screening.core.arrhenius import log_arrhenius_rate
+from screening.core.arrhenius import autocatalytic_term, conversion_of_maximum_rate, log_arrhenius_rate
 from screening.core.model import GAS_CONSTANT, ArrheniusSource, HeatingMedium
 from screening.core.root_finding import brent_root
 
@@ -93,6 +93,22 @@ WARNING_ZERO_CONVERSION = (
     "given). If the decomposition is autocatalytic its rate rises as it "
     "proceeds, so a rate measured at zero conversion understates it and the "
     "times and temperatures derived from it are not conservative."
+)
+
+#: The same caution for sources that include a desired reaction (synthesis), which is not a decomposition.
+WARNING_ZERO_CONVERSION_REACTION = (
+    "Heat-release rates are taken at zero conversion (or at the conversion "
+    "given). If a reaction is autocatalytic its rate rises as it proceeds, so "
+    "a rate measured at zero conversion understates it and the times and "
+    "temperatures derived from it are not conservative; give such a reaction "
+    "as an autocatalytic source."
+)
+
+#: Where an autocatalytic source's kinetics are used outside their tested range.
+WARNING_INITIATION_TEMPERATURE = (
+    "{label}: kinetics used at {temperature:.1f} K, outside the tested range; the initiation "
+    "term z is taken as independent of temperature (one activation energy for the initiation and "
+    "the autocatalytic path), which is not known to hold there."
 )
 
 WARNING_EXTRAPOLATION = (
@@ -199,13 +215,28 @@ def _check_sources(sources) -> tuple[ArrheniusSource, ...]:
             raise ValueError(f"Arrhenius source {i}: order must be >= 0")
         if not 0.0 <= s.accumulated_fraction <= 1.0:
             raise ValueError(f"Arrhenius source {i}: accumulated fraction must be in [0, 1]")
+        if not (s.autocatalytic_order >= 0 and s.initiation >= 0):
+            raise ValueError(f"Arrhenius source {i}: autocatalytic order and initiation must be >= 0")
     return sources
+
+
+def rate_conversion(source) -> float:
+    r"""The conversion at which a source's rate is taken by the steady criteria when none is given, [-].
+
+    0 for an n-th order source (its rate only falls as it converts); for an autocatalytic source the
+    conversion of maximum rate :math:`\alpha^*` from its initial conversion on
+    (:func:`screening.core.arrhenius.conversion_of_maximum_rate`), which is conservative.
+    """
+    if not source.autocatalytic:
+        return 0.0
+    return conversion_of_maximum_rate(source.order, source.autocatalytic_order, source.initiation,
+                                      1.0 - source.accumulated_fraction)
 
 
 def _conversions(sources, conversion) -> list[float]:
     n = len(sources)
     if conversion is None:
-        values = [0.0] * n
+        values = [rate_conversion(s) for s in sources]
     elif np.ndim(conversion) == 0:
         values = [float(conversion)] * n
     else:
@@ -229,6 +260,8 @@ def _log_specific_powers(temperature, sources, conversion):
                                 1.0 / s.reference_temperature)
         if s.order != 0:
             lq = lq + s.order * _safe_log(1.0 - x)
+        if s.autocatalytic:  # times X^m + z: f(X) = (1 - X)^n (X^m + z)
+            lq = lq + math.log(autocatalytic_term(x, s.autocatalytic_order, s.initiation)[0])
         out[i] = lq
     return out
 
@@ -447,6 +480,44 @@ def _lumped_loss(ua, heating_media):
 # Warnings about the kinetics
 # --------------------------------------------------------------------------
 
+def zero_conversion_warning(sources) -> str | None:
+    """The zero-conversion caution in the words that fit the sources' roles, or None.
+
+    None when every active source is autocatalytic (its rate at the conversion of maximum rate is
+    used); the decomposition wording when every n-th order source is a decomposition; a wording
+    about reactions in general when one is the desired reaction (synthesis).
+    """
+    nth = [s for s in sources if s.specific_power > 0 and not s.autocatalytic]
+    if not nth:
+        return None
+    if all(s.role != "synthesis" for s in nth):
+        return WARNING_ZERO_CONVERSION
+    return WARNING_ZERO_CONVERSION_REACTION
+
+
+def initiation_warnings(sources, temperatures) -> list[str]:
+    """For each autocatalytic source used outside its tested range: z is taken as temperature-independent.
+
+    A source without a tested range is judged against its reference temperature, with the same
+    allowance as :func:`kinetics_warnings` (:data:`DEFAULT_MAX_EXTRAPOLATION`).
+    """
+    out = []
+    temps = [float(t) for t in temperatures if t is not None and math.isfinite(float(t))]
+    for i, s in enumerate(sources, start=1):
+        if not s.autocatalytic or not temps:
+            continue
+        if s.tested_range is not None:
+            lo, hi, allow = float(s.tested_range[0]), float(s.tested_range[1]), 0.0
+        else:
+            lo = hi = s.reference_temperature
+            allow = DEFAULT_MAX_EXTRAPOLATION
+        worst = max(temps, key=lambda t: max(lo - t, t - hi))
+        if max(lo - worst, worst - hi) > allow:
+            out.append(WARNING_INITIATION_TEMPERATURE.format(label=s.label or f"Arrhenius source {i}",
+                                                             temperature=worst))
+    return out
+
+
 def kinetics_warnings(sources, temperatures=(), conversion=None, tested_range=None,
                       max_extrapolation=DEFAULT_MAX_EXTRAPOLATION) -> list[str]:
     """Warning texts for results computed from Arrhenius sources.
@@ -499,7 +570,7 @@ def kinetics_warnings(sources, temperatures=(), conversion=None, tested_range=No
     active = [s for s in sources if s.specific_power > 0]
     if not active:
         return []
-    out = [WARNING_ZERO_CONVERSION]
+    out = [zero_conversion_warning(active)] if not all(s.autocatalytic for s in active) else []
 
     def is_pair(r):
         return (r is not None and len(r) == 2
