@@ -14,6 +14,8 @@ from __future__ import annotations
 import ast
 from pathlib import Path
 
+import pytest
+
 PACKAGE = Path(__file__).resolve().parents[1] / "screening"
 
 RANK = {"": 0, "errors": 0, "fileio": 0, "workers": 0, "resources": 0, "progress": 0, "core": 1, "case": 2, "result": 2, "run": 3, "verdict": 3,
@@ -134,14 +136,16 @@ def test_shipped_files_are_found_through_resources():
     assert not offenders, f"use screening.resources instead of Path(__file__) in: {offenders}"
 
 
-def test_check_of_a_closed_form_case_loads_no_heavy_module():
-    """`heatscreen check` on a closed-form case stays fast: no stiff integrator, PDF library or web stack."""
+@pytest.mark.parametrize("case", ["fw-t204-hold-tank.yaml", "fw-d52-drum-yard.yaml"])
+def test_check_of_a_closed_form_case_loads_no_heavy_module(case):
+    """`heatscreen check` on a closed-form case stays fast: no stiff integrator, PDF library or web stack
+    (fw-d52: with the daily cycle of the air and the sun, and the worst of 24 hourly starts)."""
     import subprocess
     import sys
 
     code = ("import sys, io, contextlib\n"
             "from screening.cli import run\n"
-            "sys.argv = ['heatscreen', 'check', 'screening/demo_cases/fw-t204-hold-tank.yaml', '--json']\n"
+            f"sys.argv = ['heatscreen', 'check', 'screening/demo_cases/{case}', '--json']\n"
             "with contextlib.redirect_stdout(io.StringIO()):\n"
             "    try:\n        run()\n    except SystemExit:\n        pass\n"
             "heavy = ('scipy.integrate', 'scipy.optimize', 'reportlab', 'fastapi', 'openpyxl', 'sympy', 'dask', "

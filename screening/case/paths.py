@@ -92,6 +92,9 @@ SCALAR_SLOTS = {
     ("heat_loss", "ua"): "ua", ("heat_loss", "ua_per_mass"): "ua_per_mass", ("heat_loss", "coefficient"): "coefficient", ("horizon",): "H",
     ("response_time",): "response", ("detection", "delay"): "delay", ("detection", "alarm_temperature"): "alarm",
     ("vessel", "wall_mass"): "wall_mass", ("vessel", "wall_specific_heat"): "wall_cp",
+    ("heat_loss", "daily_range"): "daily_range", ("heat_loss", "warmest_time_of_day"): "warmest",
+    ("start_time_of_day",): "start", ("sun", "peak_irradiance"): "irradiance", ("sun", "absorptivity"): "absorptivity",
+    ("sun", "day_length"): "day_length", ("sun", "outer_coefficient"): "outer_coefficient",
 }
 
 #: (heat-source kind, field) -> slot; the slot's index is the source's position among sources of its kind.

@@ -3,7 +3,7 @@ from __future__ import annotations
 
 import math
 from collections import Counter
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 from pydantic import BaseModel
@@ -30,13 +30,26 @@ from screening.case.schema import (
     HeatingMediumSpec,
     Quantity,
     _area_value,
+    _exposed_area_value,
     effective_scenario,
 )
 from screening.case.uncertainty_plan import plan_uncertainty
 from screening.case.units import parse_quantity, temperature_unit_of
 from screening.core import model as m
+from screening.core.daily_cycle import (
+    DEFAULT_OUTER_COEFFICIENT,
+    DEFAULT_WARMEST_TIME,
+    DailyCycle,
+    largest_projection,
+)
 from screening.core.fire_exposure import api521_fire_heat_input, fire_wetted_area
-from screening.core.vessel_geometry import VesselShape, conduction_shape, liquid_height, wetted_area_below
+from screening.core.vessel_geometry import (
+    VesselShape,
+    conduction_shape,
+    liquid_height,
+    maximum_height,
+    wetted_area_below,
+)
 from screening.core.vessel_geometry_arrays import DEFAULT_CROWN_FRACTION, DEFAULT_KNUCKLE_FRACTION, VesselArrays
 
 
@@ -246,6 +259,7 @@ def prepare_case(spec: CaseSpec, inputs: list[dict] | None = None) -> PreparedCa
         warnings.append("A fire source is present: heat loss to ambient is not credited (UA set to 0), since the "
                         "fire correlation is a net heat input to the exposed surface.")
         ua = 0.0
+    daily_cycle = _daily_cycle(spec, shape, ua, geometry, assumptions, warnings)
     horizon = spec.horizon.si if spec.horizon is not None else parse_quantity(DEFAULT_HORIZON_TEXT, "time").value
     boiling = None
     if c.boiling_point is not None:
@@ -277,7 +291,7 @@ def prepare_case(spec: CaseSpec, inputs: list[dict] | None = None) -> PreparedCa
         characteristic_length=char_length, conduction_geometry=cond[0] if cond else None,
         conduction_radius=cond[1] if cond else None, density=c.density.si if c.density else None,
         surface_coefficient=surface_coefficient, released_at_start=tuple(released),
-        scenario=effective_scenario(spec))
+        scenario=effective_scenario(spec), daily_cycle=daily_cycle)
     prepared = PreparedCase(model, spec, inputs if inputs is not None else collect_inputs(spec), _display_unit(spec),
                             warnings, assumptions, geometry,
                             fill_fraction=fill_fraction, surface_coefficient=surface_coefficient,
@@ -330,6 +344,64 @@ def unstirred_problems(spec: CaseSpec) -> list[FieldProblem]:
                                 f"cylinder) with its dimensions; a box is taken as a slab of its smallest "
                                 f"half-thickness and a cylinder as infinitely long (both conservative)"))
     return out
+def _daily_cycle(spec: CaseSpec, shape, ua: float, geometry: dict, assumptions: list[str],
+                 warnings: list[str]) -> DailyCycle | None:
+    """The daily cycle of the air and the sun (SI), or None; the exposed area and its share go into ``geometry``.
+
+    The share of UA on the exposed surface is the exposed area over the area the case's UA refers to
+    (heat_loss.area, else the wetted or total area of the vessel, as for the surface coefficient); without
+    an area the whole UA is taken as exposed (conservative). The start time is set later when not given
+    (the worst of 24 hourly starts, :mod:`screening.run.daily_cycle`).
+    """
+    hl, sun = spec.heat_loss, spec.sun
+    if hl.daily_range is None and sun is None:
+        return None
+    daily_range = hl.daily_range.si if hl.daily_range is not None else 0.0
+    warmest = hl.warmest_time_of_day.si if hl.warmest_time_of_day is not None else DEFAULT_WARMEST_TIME
+    if hl.daily_range is not None and hl.warmest_time_of_day is None:
+        assumptions.append("heat_loss.warmest_time_of_day is not stated: the warmest air is taken at 15 h solar "
+                           "time (common practice).")
+    solar_rise, day_length = 0.0, 43200.0
+    if sun is not None:
+        h_o = sun.outer_coefficient.si if sun.outer_coefficient is not None else DEFAULT_OUTER_COEFFICIENT
+        if sun.outer_coefficient is None:
+            assumptions.append("sun.outer_coefficient is not stated: the outer film coefficient of the sol-air "
+                               "temperature is taken as 15 W/(m^2*K) (common practice; a lower value, in still "
+                               "air, gives a hotter surface).")
+        if sun.exposed_area == "projected":
+            exposed = float(_projected_area(shape))
+            basis = "projected"
+        else:
+            exposed = _exposed_area_value(sun.exposed_area).si
+            basis = "given"
+        area = geometry.get("heat_loss_area_m2") or geometry.get("wetted_area_m2") or geometry.get("total_area_m2")
+        if area:
+            share = min(1.0, exposed / area)
+            if exposed > area:
+                warnings.append(f"sun.exposed_area ({exposed:.4g} m^2) is larger than the area the heat loss refers "
+                                f"to ({area:.4g} m^2): the whole UA is taken as exposed.")
+        else:
+            share = 1.0
+            assumptions.append("No area is known for the heat loss (ua given without a vessel geometry): the whole "
+                               "UA is taken as exposed to the sun (conservative).")
+        if area and ua > 0 and ua / area > h_o:
+            warnings.append(f"The heat-loss coefficient ({ua / area:.3g} W/(m^2 K)) is above the outer film "
+                            f"coefficient of the sol-air temperature ({h_o:.3g} W/(m^2 K)): the solar gain then "
+                            f"exceeds what the surface absorbs (conservative).")
+        solar_rise = share * sun.absorptivity.si * sun.peak_irradiance.si / h_o
+        day_length = sun.day_length.si
+        geometry.update(exposed_area_m2=exposed, exposed_area_basis=basis, exposed_share=share,
+                        outer_coefficient_W_per_m2K=h_o)
+    start = spec.start_time_of_day.si if spec.start_time_of_day is not None else 0.0
+    return DailyCycle(daily_range, warmest, start, solar_rise, day_length)
+
+
+def _projected_area(shape: VesselShape) -> float:
+    """Largest projection of the vessel for solar elevations 30-90 degrees (a dished cylinder as its bounding one)."""
+    if shape.shape in ("vertical-cylinder", "horizontal-cylinder"):
+        overall = maximum_height(replace(shape, shape="vertical-cylinder"))
+        return float(largest_projection(shape.shape, shape.diameter, overall))
+    return float(largest_projection(shape.shape, shape.diameter, shape.length, shape.width, shape.height))
 
 
 def source_name(spec: ArrheniusSpec, index: int) -> str:

@@ -81,6 +81,12 @@ def _make_quantity_validator(dimension: str, check: str | None):
         if check == "unit_fraction" and not 0 < si <= 1:
             raise ValueError(f"must be above 0 and at most 1 (100 %) (got {parsed.text}); expected "
                              f"{DIMENSION_WORDS[dimension]}")
+        if check == "time_of_day" and not 0.0 <= si < 86400.0:
+            raise ValueError(f"must be a solar time of day from 0 h to below 24 h (got {parsed.text}); expected "
+                             f"{DIMENSION_WORDS[dimension]}")
+        if check == "day_length" and not 0.0 < si <= 86400.0:
+            raise ValueError(f"must be above 0 h and at most 24 h (got {parsed.text}); expected "
+                             f"{DIMENSION_WORDS[dimension]}")
         if check == "absolute" and not si > 0:
             raise ValueError(f"{parsed.text} is at or below absolute zero; expected {DIMENSION_WORDS[dimension]}")
         return Quantity(si, parsed.text, source, dimension)
@@ -201,9 +207,15 @@ class HeatLossSpec(Strict):
     coefficient: Q("heat_transfer_coefficient", "nonnegative") = None
     area: Any = Field(default=None, json_schema_extra={
         "description": "'wetted', 'total', or an area with a unit such as '12 m^2'"})
+    daily_range: Annotated[Q("temperature_difference", "nonnegative"), Field(description=(
+        "warmest minus coolest air over the day (sinusoidal); ambient_temperature is then the daily mean"))] = None
+    warmest_time_of_day: Annotated[Q("time", "time_of_day"), Field(description=(
+        "solar time of the warmest air; default 15 h"))] = None
 
     @model_validator(mode="after")
     def _one_way(self):
+        if self.warmest_time_of_day is not None and self.daily_range is None:
+            raise ValueError("warmest_time_of_day needs daily_range (the warmest minus the coolest air)")
         given = [name for name in ("ua", "ua_per_mass", "coefficient") if getattr(self, name) is not None]
         if len(given) > 1 or (self.area is not None and self.coefficient is None and given):
             both = given + (["area"] if self.area is not None and "coefficient" not in given else [])
@@ -215,6 +227,27 @@ class HeatLossSpec(Strict):
         if self.coefficient is not None and self.area is None:
             raise ValueError("coefficient needs area: wetted, total, or an area such as '12 m^2'")
         return self
+
+
+class SunSpec(Strict):
+    """The sun on the exposed surface: a half sine between sunrise and sunset, centred on solar noon."""
+
+    peak_irradiance: Annotated[Q("irradiance", "nonnegative"), Field(description=(
+        "irradiance at solar noon on the exposed area"))]
+    absorptivity: Annotated[Q("fraction", "unit_fraction"), Field(description=(
+        "solar absorptivity of the outer surface (white paint about 0.2, dark about 0.9)"))]
+    exposed_area: Any = Field(json_schema_extra={
+        "description": "'projected' (the largest projection of the vessel for solar elevations 30-90 degrees), "
+                       "or an area with a unit such as '3 m^2'"})
+    day_length: Annotated[Q("time", "day_length"), Field(description="sunrise to sunset, centred on solar noon")]
+    outer_coefficient: Annotated[Q("heat_transfer_coefficient", "positive"), Field(description=(
+        "outer film coefficient for the sol-air temperature; default 15 W/(m^2*K)"))] = None
+
+
+def _exposed_area_value(value: Any):
+    if value == "projected":
+        return value
+    return _make_quantity_validator("area", "positive")(value)
 
 
 def _area_value(value: Any):
@@ -499,6 +532,9 @@ class CaseSpec(Strict):
     detection: DetectionSpec | None = None
     recovery: RecoverySpec | None = None
     maximum_technical_temperature: Q("temperature", "absolute") = None
+    sun: SunSpec | None = None
+    start_time_of_day: Annotated[Q("time", "time_of_day"), Field(description=(
+        "solar time at t = 0 with a daily cycle; default: the worst of 24 hourly starts (reported)"))] = None
     scenario: Literal["cooling-failure", "storage", "heat-up"] | None = Field(default=None, description=(
         "what is screened: cooling-failure (a reactor loses cooling: MTSR, criticality class), storage "
         "(critical ambient, TMRad at the storage temperature) or heat-up (time to limits only); the default "
@@ -520,6 +556,9 @@ class CaseSpec(Strict):
         dupes = sorted({n for n in names if names.count(n) > 1})
         if dupes:
             raise ValueError(f"limit names must differ: {', '.join(dupes)} given more than once")
+        if self.start_time_of_day is not None and self.sun is None and self.heat_loss.daily_range is None:
+            raise ValueError("start_time_of_day applies to a daily cycle: give heat_loss.daily_range or sun, or "
+                             "leave start_time_of_day out")
         return self
 
 
@@ -705,7 +744,8 @@ def _owner_for(raw_loc: tuple) -> type[BaseModel] | None:
             return None
         ann = field.annotation
         nxt = None
-        for candidate in (VesselSpec, ContentsSpec, HeatLossSpec, LimitSpec, DetectionSpec, RecoverySpec, MetaSpec):
+        for candidate in (VesselSpec, ContentsSpec, HeatLossSpec, LimitSpec, DetectionSpec, RecoverySpec, MetaSpec,
+                          SunSpec):
             if candidate is ann or candidate in getattr(ann, "__args__", ()):
                 nxt = candidate
         if part == "heat_sources":
@@ -730,6 +770,11 @@ def validate_case_data(data: Any) -> CaseSpec:
             _area_value(area)
         except ValueError as exc:
             problems.append(FieldProblem("heat_loss.area", f"{exc} (or 'wetted' / 'total')"))
+    if spec.sun is not None:
+        try:
+            _exposed_area_value(spec.sun.exposed_area)
+        except ValueError as exc:
+            problems.append(FieldProblem("sun.exposed_area", f"{exc} (or 'projected')"))
     for i, src in enumerate(spec.heat_sources):
         if isinstance(src, TEMPERATURE_DEPENDENT) and src.tested_range is not None:
             if len(src.tested_range) != 2:
@@ -772,6 +817,9 @@ def _geometry_problems(spec: CaseSpec) -> list[FieldProblem]:
         if spec.contents.fill is not None:
             problems.append(FieldProblem("contents.fill", (
                 f"needs {need} to take the volume from; or give contents.mass (or volume with density)")))
+        if spec.sun is not None and spec.sun.exposed_area == "projected":
+            problems.append(FieldProblem("sun.exposed_area", (
+                f"'projected' needs {need} to project; or give an area such as '3 m^2'")))
         if spec.heat_loss.area in ("wetted", "total"):
             problems.append(FieldProblem("heat_loss.area", (
                 f"'{spec.heat_loss.area}' needs {need} to take the area from; or give an area such as "

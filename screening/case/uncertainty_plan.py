@@ -324,6 +324,12 @@ def physically_possible(inp: UncertainInput, values: np.ndarray) -> np.ndarray:
         ok &= values > 0
     elif inp.check == "nonnegative":
         ok &= values >= 0
+    elif inp.check == "unit_fraction":
+        ok &= (values > 0) & (values <= 1)
+    elif inp.check == "day_length":
+        ok &= (values > 0) & (values <= 86400.0)
+    elif inp.check == "time_of_day":
+        ok &= (values >= 0) & (values < 86400.0)
     if inp.parts[-1] == "accumulated_fraction":
         ok &= (values > 0) & (values <= 1)
     if inp.parts[-1] == "initial_conversion":

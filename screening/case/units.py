@@ -39,6 +39,7 @@ DIMENSIONS: dict[str, tuple[str, str]] = {
     "molar_energy": ("J/mol", "[mass] * [length] ** 2 / [time] ** 2 / [substance]"),
     "specific_energy": ("J/kg", "[length] ** 2 / [time] ** 2"),
     "fraction": ("1", "[]"),
+    "irradiance": ("W/m^2", "[mass] / [time] ** 3"),
     "rate_constant": ("1/s", "1 / [time]"),
 }
 
@@ -63,6 +64,7 @@ DIMENSION_WORDS = {
     "molar_energy": "an activation energy (e.g. 95 kJ/mol)",
     "specific_energy": "an energy per mass (e.g. 300 kJ/kg)",
     "fraction": "a fraction (e.g. 70 %, 0.7)",
+    "irradiance": "an irradiance (e.g. 850 W/m^2)",
     "rate_constant": "a rate constant (e.g. 2e-5 1/s, 0.07 1/h)",
 }
 
@@ -268,6 +270,7 @@ COMMON_UNITS: dict[str, tuple[str, ...]] = {
     "molar_energy": ("J/mol", "kJ/mol", "kcal/mol", "cal/mol", "MJ/kmol", "kJ/kmol"),
     "specific_energy": ("J/kg", "kJ/kg", "MJ/kg", "J/g", "kJ/g", "cal/g", "kcal/kg", "Btu/lb"),
     "temperature_difference": ("delta_degC", "delta_degF"),
+    "irradiance": ("W/m^2", "W/m**2", "kW/m^2"),
     "rate_constant": ("1/s", "1/min", "1/h", "1/d", "s^-1", "h^-1"),
 }
 

@@ -67,6 +67,7 @@ from scipy.optimize import brentq
 
 from screening.core.arrhenius import autocatalytic_term, log_arrhenius_rate
 from screening.core.model import GAS_CONSTANT, ScreeningModel
+from screening.core.daily_cycle import cycle_forcing
 from screening.core.terms import conductance_and_drive, constant_power, model_start_temperature
 
 #: Default temperature at which a runaway is no longer followed, K.
@@ -94,6 +95,7 @@ MAX_STEPS = 200_000
 MAX_PHASES = 200
 #: Evenly spaced sample times over the horizon (added to the solver's steps).
 N_GRID = 401
+CYCLE_MAX_STEP = 1800.0  # s, the longest solver step with a daily cycle (sunrise and sunset are kinks of the forcing)
 
 
 # --------------------------------------------------------------------------- results
@@ -280,6 +282,8 @@ class _Balance:
         g_total, drive = conductance_and_drive(self.ua, self.ta, 0.0, [float(h.ua) for h in model.heating_media],
                                                [float(h.medium_temperature) for h in model.heating_media])
         self.g_total, self.drive = float(g_total), float(drive)
+        # the daily cycle of the air and the sun: F(t) = UA (T_eff(t) - T_a), part of the loss to ambient
+        self.forcing = cycle_forcing(model.daily_cycle, self.ua)
 
         src = model.arrhenius_sources
         self.n_src = len(src)
@@ -349,6 +353,12 @@ class _Balance:
             dp -= e / a
         return p, dp
 
+    def _cycle(self, t):
+        """F(t) and dF/dt of the daily cycle (0 without one), plain floats."""
+        if self.forcing is None:
+            return 0.0, 0.0
+        return float(self.forcing.power(t)), float(self.forcing.power_rate(t))
+
     def _sources(self, T, z, with_derivatives):
         """Per-source terms, plain floats; finished sources are left out.
 
@@ -417,7 +427,8 @@ class _Balance:
         ext, dext = self._external(t)
         srcs = self._sources(T, z, with_jac)
         gen = ext + self.m0 * sum(s[1] for s in srcs)
-        loss = self.g_total * T - self.drive
+        cyc, dcyc = self._cycle(t)
+        loss = self.g_total * T - self.drive - cyc
         net = gen - loss
         F = np.zeros(self.n)
         C = self.heat_capacity(mb)
@@ -438,7 +449,7 @@ class _Balance:
         row = self.iM if boiling else 0
         scale = self.latent if boiling else C
         J[row, 0] = (dgen_dT - self.g_total) / scale
-        J[row, self.it] = dext / scale
+        J[row, self.it] = (dext + dcyc) / scale
         if not boiling:
             J[0, self.iM] = net * self.cp / (C * C)
         for pos, _, _, dq_dv, _, drate_dT, drate_dv in srcs:
@@ -450,6 +461,7 @@ class _Balance:
         J[self.iG, 0] = dgen_dT
         J[self.iG, self.it] = dext
         J[self.iL, 0] = self.g_total
+        J[self.iL, self.it] = -dcyc
         return F, J
 
     def _rho(self, F):
@@ -482,7 +494,7 @@ class _Balance:
         T, t = float(z[0]), float(z[self.it])
         ext, _ = self._external(t)
         gen = ext + self.m0 * sum(s[1] for s in self._sources(T, z, False))
-        return gen - (self.g_total * T - self.drive)
+        return gen - (self.g_total * T - self.drive - self._cycle(t)[0])
 
     def atol(self):
         c0 = self.heat_capacity(0.0)
@@ -521,6 +533,8 @@ class _Balance:
             gen = gen + self.m0 * np.where(live, q, 0.0)
             capped_any |= capped & live
         loss = self.g_total * Z[0] - self.drive
+        if self.forcing is not None:
+            loss = loss - self.forcing.power(t)
         return gen, loss, capped_any
 
 
@@ -573,7 +587,9 @@ def _run_phase(bal, boiling, z0, events, grid, step_budget):
     atol = bal.atol()
     it = bal.it
     zs, fired = [np.array(z0, dtype=float)], []
-    solver = Radau(fun, 0.0, z0, np.inf, rtol=RTOL, atol=atol, jac=jac)
+    # with a daily cycle, steps of at most 30 min (in stretched time, so also in time) follow the sun and the air
+    max_step = CYCLE_MAX_STEP if bal.forcing is not None else np.inf
+    solver = Radau(fun, 0.0, z0, np.inf, rtol=RTOL, atol=atol, jac=jac, max_step=max_step)
     g_old = [ev.g(z0) for ev in events]
     steps = 0
     eps4 = 4 * np.finfo(float).eps
@@ -994,6 +1010,8 @@ def _integrate(model: ScreeningModel, stop_temperature: float | None) -> Numeric
             done_rows[j] = Z[bal.pos[j]] <= 0.0
     gen, loss, capped = bal.powers(Z, done_rows)
     loss_amb = bal.ua * (Z[0] - bal.ta)
+    if bal.forcing is not None:
+        loss_amb = loss_amb - bal.forcing.power(Z[bal.it])  # UA (T - T_eff(t))
     mb = Z[bal.iM]
     net = gen - loss
     if bal.latent:

@@ -123,6 +123,7 @@ from typing import NamedTuple, Sequence
 import numpy as np
 
 from screening.core.arrhenius import autocatalytic_term, log_arrhenius_rate
+from screening.core.daily_cycle import CycleForcing, cycle_forcing
 from screening.core.model import GAS_CONSTANT, ScreeningModel
 from screening.core.terms import constant_power, model_start_temperature
 from screening.workers import die_with_parent, stop_pool
@@ -157,6 +158,7 @@ DEFAULT_RTOL = 1.0e-9
 MAX_STEPS = 20_000
 #: Largest step, as a fraction of the sample's horizon (in time t).
 MAX_STEP_FRACTION = 0.1
+CYCLE_MAX_STEP = 1800.0  # s, the longest step in time with a daily cycle
 #: Highest temperature accepted anywhere, K (the right-hand side is evaluated at
 #: temperatures clipped to [1, T_CLIP]).
 T_CLIP = 1.0e6
@@ -256,6 +258,10 @@ class ArrheniusSamples:
         m in [0, 10] and z >= 0 of an autocatalytic source, whose rate is
         q_ref exp(...) (1 - X)^n (X^m + z) (q_ref = Delta h k_ref); default 0 and 0: n-th order.
         m > 0 needs a heat of reaction.
+    forcing : CycleForcing or None, default None
+        The daily cycle of the air and the sun (:class:`screening.core.daily_cycle.CycleForcing`, fields
+        scalars or arrays (N,), W and s): the drive UA (T_eff(t) - T_a) added to the balance. With it, steps
+        are at most 30 min and a cooling sample is not finished early (the cycle may turn it round).
 
     Temperatures are within [1, 1e6] K; capacities, masses, powers,
     conductances, rates, heats of reaction and time constants at most 1e30 in
@@ -280,6 +286,7 @@ class ArrheniusSamples:
     initial_conversion: object = None
     autocatalytic_order: object = None
     initiation: object = None
+    forcing: object = None
 
 
 class ArrheniusScreen(NamedTuple):
@@ -355,6 +362,11 @@ class _Inputs(NamedTuple):
     limits: np.ndarray  # (N, L)
     horizon: np.ndarray  # (N,)
     stop: np.ndarray  # (N,)
+    fa: np.ndarray  # (N,) daily cycle: air drive amplitude, W
+    ftw: np.ndarray  # (N,) warmest time of day, s
+    fs: np.ndarray  # (N,) peak solar drive, W
+    fday: np.ndarray  # (N,) day length, s
+    fs0: np.ndarray  # (N,) solar time at t = 0, s
 
 
 def _bad(mask, message):
@@ -471,7 +483,16 @@ def _prepare(params: ArrheniusSamples, limits, horizon, stop_temperature) -> _In
         _bad(~(np.isfinite(stop) & (stop <= T_CLIP)), f"stop_temperature must be finite and at most {T_CLIP:g} K")
         _bad(~(stop >= hi), "stop_temperature must be at or above every limit of its sample")
     _bad(~(stop <= T_CLIP), f"the stop temperature must be at most {T_CLIP:g} K")
-    return _Inputs(C, m, ua, Ta, T0, P0, Pd, ad, mua, mT, q, Tr, E, n, dh, X0, am, az, lim, H, stop)
+    f = params.forcing
+    if f is None:
+        fa, ftw, fs, fday, fs0 = np.zeros(N), np.zeros(N), np.zeros(N), np.full(N, 43200.0), np.zeros(N)
+    else:
+        fa, ftw, fs, fday, fs0 = (vec(_per_sample(k, getattr(f, k))) for k in
+                                  ("air", "warmest_time", "solar", "day_length", "start_time"))
+        _bad(~np.logical_and.reduce([np.isfinite(a) for a in (fa, ftw, fs, fday, fs0)]), "non-finite forcing")
+        _bad(~((fday > 0) & (fday <= 86400.0)), "forcing.day_length must be within (0, 86400] s")
+    return _Inputs(C, m, ua, Ta, T0, P0, Pd, ad, mua, mT, q, Tr, E, n, dh, X0, am, az, lim, H, stop,
+                   fa, ftw, fs, fday, fs0)
 
 
 # --------------------------------------------------------------------------- per-sample coefficients
@@ -480,7 +501,8 @@ def _prepare(params: ArrheniusSamples, limits, horizon, stop_temperature) -> _In
 class _Coef:
     """Per-sample coefficients of the right-hand side and event data; the sample axis is last."""
 
-    per_sample = ("iC", "mC", "g", "p0", "lncap", "H", "stop", "hmax", "peakT", "peakt", "monotone")
+    per_sample = ("iC", "mC", "g", "p0", "lncap", "H", "stop", "hmax", "peakT", "peakt", "monotone",
+                  "fa", "ftw", "fs", "fday", "fs0")
     per_item = ("pd", "nia", "lnq", "act", "er", "itr", "pw", "cu", "cw", "umode", "lim", "reached", "atol",
                 "dTad", "am", "az", "auto", "xu")
     shared = ("cols", "K", "J", "n", "all_tracked", "rel")
@@ -510,6 +532,7 @@ class _Coef:
     def flags(self):
         """Shortcuts valid for every sample of the set (they only skip work)."""
         self.all_active = bool(self.act.all())
+        self.any_cycle = bool((self.fa != 0.0).any() or (self.fs != 0.0).any())
         self.any_umode = bool(self.umode.any())
         self.pw_zero = not self.pw.any()
         self.pw_one = bool((self.pw == 1.0).all())
@@ -561,6 +584,10 @@ def _coefficients(inp: _Inputs, rows, cols, rtol) -> tuple[_Coef, np.ndarray]:
     P.H = inp.horizon[rows].copy()
     P.stop = inp.stop[rows].copy()
     P.hmax = MAX_STEP_FRACTION * P.H
+    P.fa, P.ftw, P.fs, P.fday, P.fs0 = (a[rows].copy() for a in (inp.fa, inp.ftw, inp.fs, inp.fday, inp.fs0))
+    cyc = (P.fa != 0.0) | (P.fs != 0.0)
+    P.hmax = np.where(cyc, np.minimum(P.hmax, CYCLE_MAX_STEP), P.hmax)  # follow the sun and the air
+    P.monotone = P.monotone & ~cyc  # the cycle may turn a cooling sample round
     P.lim = np.ascontiguousarray(inp.limits[rows].T)
     T0 = inp.T0[rows]
     P.reached = P.lim <= T0
@@ -607,6 +634,11 @@ def _flux(P: _Coef, Z, jac=False):
         net += e.sum(axis=0)
         if jac:
             dnet_dt = (e * P.nia).sum(axis=0)
+    if P.any_cycle:
+        forcing = CycleForcing(P.fa, P.ftw, P.fs, P.fday, P.fs0)
+        net = net + forcing.power(Z[-1])
+        if jac:
+            dnet_dt = forcing.power_rate(Z[-1]) + (dnet_dt if dnet_dt is not None else 0.0)
     J, K = P.J, P.K
     F = np.empty((n, M))
     F[-1] = 1.0
@@ -977,7 +1009,9 @@ def _advance(W: _Work, out: _Out):
     temperature is reached and the running peak is final.  The test is
     f < -margin, the margin covering a state error of 1000 local tolerances
     (for a reactant all but used up, the heat it can still release, which
-    must also leave T below the next limit).
+    must also leave T below the next limit).  Two kinds of sample never finish
+    early: one with an autocatalytic source (its rate can grow as the reactant
+    falls) and one with a daily cycle (the air and the sun may turn it round).
     """
     P, Z = W.P, W.Z
     G0, JG = _flux(P, Z, jac=True)
@@ -1514,7 +1548,18 @@ def samples_from_models(models: Sequence[ScreeningModel]):
         decaying_power=Pd, decay_time=ad, media_ua=mua, media_temperature=mT,
         specific_power=q, reference_temperature=Tr, activation_energy=E, order=n, heat_of_reaction=dh,
         initial_conversion=X0, autocatalytic_order=am if am.any() else None,
-        initiation=az if am.any() else None)
+        initiation=az if am.any() else None, forcing=_stacked_forcing(models))
     limits = np.array([[lim.temperature for lim in md.limits] for md in models]).reshape(N, -1)
     horizon = np.array([md.horizon for md in models])
     return params, limits, horizon
+
+
+def _stacked_forcing(models) -> CycleForcing | None:
+    """The daily-cycle forcing of each model as arrays (zero drive for a model without a cycle), or None."""
+    forcings = [cycle_forcing(md.daily_cycle, md.ua) for md in models]
+    if all(f is None for f in forcings):
+        return None
+    none = CycleForcing(0.0, 0.0, 0.0, 43200.0, 0.0)
+    forcings = [f if f is not None else none for f in forcings]
+    return CycleForcing(*(np.array([float(getattr(f, k)) for f in forcings]) for k in
+                          ("air", "warmest_time", "solar", "day_length", "start_time")))

@@ -37,10 +37,11 @@ sympy's inverse Laplace transform and ``scipy.integrate.solve_ivp`` in the tests
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
+from screening.core.daily_cycle import DAY, cycle_forcing, cycle_response, effective_ambient
 from screening.core.model import ScreeningModel
 from screening.core.terms import conductance_and_drive, constant_power, model_start_temperature
 
@@ -100,10 +101,12 @@ class LinearBalance:
         P_i, trailing axis one per source (may be empty).
     decay_rate : array like ``decaying_power``, [1/s]
         b_i = 1 / a_i >= 0 (0: the source does not decay).
+    forcing : CycleForcing or None, default None
+        The daily cycle's drive F(t) (:mod:`screening.core.daily_cycle`), fields shaped like ``conductance``.
 
     Notes
     -----
-    .. math:: C \frac{dT}{dt} = Q_0 - G T + \sum_i P_i e^{-b_i t}, \qquad T(0) = T_0
+    .. math:: C \frac{dT}{dt} = Q_0 - G T + \sum_i P_i e^{-b_i t} + F(t), \qquad T(0) = T_0
     """
 
     heat_capacity: np.ndarray
@@ -112,6 +115,7 @@ class LinearBalance:
     initial_temperature: np.ndarray
     decaying_power: np.ndarray
     decay_rate: np.ndarray
+    forcing: object = None
 
     @property
     def rate(self):
@@ -261,7 +265,18 @@ def temperature(balance: LinearBalance, t):
     out = T0_ * np.exp(-lam_ * t) + (Q0_ / C_) * t * relaxation(lam_ * t)
     for Pi, bi in sources:
         out = out + (Pi / C_) * np.exp(-np.minimum(bi, lam_) * t) * t * relaxation(np.abs(lam_ - bi) * t)
+    if balance.forcing is not None:
+        out = out + _cycle(balance, t, lam_, C_)[0]
     return out
+
+
+def _cycle(balance: LinearBalance, t, lam_, C_):
+    """The daily cycle's response and rate (:func:`screening.core.daily_cycle.cycle_response`), shaped like t."""
+    f = balance.forcing
+    shape = lam_.shape
+    fields = [np.reshape(np.broadcast_to(np.asarray(v, dtype=float), np.shape(balance.conductance)), shape)
+              for v in (f.air, f.warmest_time, f.solar, f.day_length, f.start_time)]
+    return cycle_response(lam_, C_, type(f)(*fields), t)
 
 
 def temperature_rate(balance: LinearBalance, t, temp=None):
@@ -318,6 +333,8 @@ def temperature_rate(balance: LinearBalance, t, temp=None):
     rate = Q0_ - G_ * temp
     for Pi, bi in sources:
         rate = rate + Pi * np.exp(-bi * t)
+    if balance.forcing is not None:
+        rate = rate + balance.forcing.power(t)
     return rate / C_
 
 
@@ -329,6 +346,8 @@ def _closed_form_rate(balance: LinearBalance, t):
         m = np.minimum(bi, lam_)
         d = np.abs(lam_ - bi)
         out = out + (Pi / C_) * np.exp(-m * t) * (np.exp(-d * t) - m * t * relaxation(d * t))
+    if balance.forcing is not None:
+        out = out + _cycle(balance, t, lam_, C_)[1]
     return out
 
 
@@ -349,7 +368,8 @@ def steady_temperature(balance: LinearBalance):
               T_\infty = T_0 + \frac{\sum_i P_i a_i}{C} \quad (G = 0,\ Q_0 = 0)
 
     With G > 0 it is the stable steady state Q0 / G (decaying sources have died
-    away).  With G = 0 (adiabatic) the contents settle only when there is no
+    away); with a daily cycle, the daily mean of the periodic state (the sun's mean drive
+    added to Q0).  With G = 0 (adiabatic) the contents settle only when there is no
     constant drive: at T0 + sum P_i a_i / C.
 
     References
@@ -377,6 +397,9 @@ def steady_temperature(balance: LinearBalance):
         energy = (np.where(b > 0, P / np.where(b > 0, b, 1.0), np.inf * (P > 0))).sum(axis=-1) if P.size else 0.0
         adiabatic = np.where((Q0 == 0) & np.isfinite(energy),
                              np.asarray(balance.initial_temperature) + energy / C, np.nan)
+        if balance.forcing is not None:  # the daily mean of the periodic state: the sun's mean drive added
+            Q0 = Q0 + np.asarray(balance.forcing.solar, dtype=float) * 2.0 * np.asarray(
+                balance.forcing.day_length, dtype=float) / (np.pi * DAY)
         out = np.where(G > 0, Q0 / np.where(G > 0, G, 1.0), adiabatic)
     return out if np.ndim(out) else float(out)
 
@@ -456,9 +479,13 @@ def balance_of(model: ScreeningModel, ua: float | None = None, initial_temperatu
     taus = [s.time_constant for s in model.decaying_sources]
     media_ua = [h.ua for h in model.heating_media] + [u for _, u in extra_media]
     media_t = [h.medium_temperature for h in model.heating_media] + [t for t, _ in extra_media]
-    return linear_balance(model.heat_capacity, model.ua if ua is None else ua, model.ambient_temperature,
-                          model_start_temperature(model) if initial_temperature is None else initial_temperature,
-                          p_const, powers, taus, media_ua, media_t)
+    balance = linear_balance(model.heat_capacity, model.ua if ua is None else ua, model.ambient_temperature,
+                             model_start_temperature(model) if initial_temperature is None else initial_temperature,
+                             p_const, powers, taus, media_ua, media_t)
+    forcing = cycle_forcing(model.daily_cycle, model.ua if ua is None else ua, time_shift)
+    if forcing is None:
+        return balance
+    return replace(balance, forcing=forcing)
 
 
 def heat_rates(model: ScreeningModel, t, temp, extra_media: tuple = (), time_shift: float = 0.0):
@@ -484,6 +511,9 @@ def heat_rates(model: ScreeningModel, t, temp, extra_media: tuple = (), time_shi
     -----
     .. math:: P_{in} = P_{const} + \sum_i P_i e^{-(t + t_{shift})/a_i} + \sum_k ua_k (T_{m,k} - T),
               \qquad P_{loss} = UA (T - T_a)
+
+    (with a daily cycle, :math:`T_a` is the effective ambient :math:`T_{eff}(t)` of
+    :func:`screening.core.daily_cycle.effective_ambient`).
 
     Heat input counts constant, decaying and fire sources and heating media
     (a medium colder than the contents counts as negative input).  Arrhenius sources
@@ -515,5 +545,10 @@ def heat_rates(model: ScreeningModel, t, temp, extra_media: tuple = (), time_shi
         gen = gen + h.ua * (h.medium_temperature - temp)
     for tm, u in extra_media:
         gen = gen + u * (tm - temp)
-    loss = model.ua * (temp - model.ambient_temperature)
+    ambient = model.ambient_temperature
+    if model.daily_cycle is not None:
+        cycle = model.daily_cycle
+        ambient = effective_ambient(ambient, replace(cycle, start_time=math.fmod(cycle.start_time + time_shift, DAY)),
+                                    t)
+    loss = model.ua * (temp - ambient)
     return gen, loss

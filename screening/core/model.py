@@ -335,6 +335,9 @@ class ScreeningModel:
     density : float or None, [kg/m^3], default None
     surface_coefficient : float or None, [W/(m^2 K)], default None
         h at the outer surface, for the Biot number h r / k.
+    daily_cycle : DailyCycle or None, default None
+        The daily cycle of the air and the sun (:class:`screening.core.daily_cycle.DailyCycle`); with it
+        ``ambient_temperature`` is the daily mean of the air and the loss term is UA (T - T_eff(t)).
 
     Notes
     -----
@@ -377,6 +380,7 @@ class ScreeningModel:
     surface_coefficient: float | None = None  # W/(m^2 K), for the Biot number
     released_at_start: tuple[StartRelease, ...] = ()  # syntheses without kinetics (see core.terms.start_temperature)
     scenario: str = "heat-up"  # "cooling-failure" | "storage" | "heat-up"
+    daily_cycle: object = None  # screening.core.daily_cycle.DailyCycle: ambient_temperature is then the daily mean
 
     @property
     def heat_capacity(self) -> float:

@@ -17,6 +17,7 @@ Brent, R. P., *Algorithms for Minimization without Derivatives*, Prentice-Hall
 """
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -26,6 +27,7 @@ from screening.core.closed_form_history import (
     temperature,
     temperature_rate,
 )
+from screening.core.daily_cycle import day_knots
 from screening.core.root_finding import brent_root
 
 
@@ -113,7 +115,9 @@ def sampling_grid(balance: LinearBalance, horizon: float) -> np.ndarray:
     -----
     Used to find the sign changes of dT/dt (turning points) in :func:`history_shape`;
     a sum of k + 1 exponentials has at most k of them, and each lies within a few time
-    scales of the others, which the grid resolves.
+    scales of the others, which the grid resolves. With a daily cycle (``balance.forcing``)
+    the grid adds every sunrise and sunset and a point every 10 minutes (:func:`cycle_grid`):
+    the cycle gives about two turning points a day, hours apart.
 
     Examples
     --------
@@ -130,8 +134,24 @@ def sampling_grid(balance: LinearBalance, horizon: float) -> np.ndarray:
     for s in scales:
         top = min(horizon, 60.0 * s)
         pieces.append(np.linspace(0.0, top, 241))
+    if balance.forcing is not None:
+        pieces.append(cycle_grid(balance.forcing, horizon))
     grid = np.unique(np.concatenate(pieces))
     return grid[(grid >= 0) & (grid <= horizon)]
+
+
+def cycle_grid(forcing, horizon: float) -> np.ndarray:
+    """Sunrises, sunsets and a point every 10 minutes (at most 200,001 points) on [0, horizon], s.
+
+    Examples
+    --------
+    >>> from screening.core.daily_cycle import CycleForcing
+    >>> g = cycle_grid(CycleForcing(1.0, 54000.0, 1.0, 46800.0, 0.0), 86400.0)
+    >>> len(g), float(g[-1]), 5.5 * 3600.0 in g
+    (145, 86400.0, True)
+    """
+    n = int(min(200_000, max(2, math.ceil(horizon / 600.0))))
+    return np.unique(np.concatenate([np.linspace(0.0, horizon, n + 1), day_knots(forcing, horizon)]))
 
 
 def history_shape(balance: LinearBalance, horizon: float) -> HistoryShape:

@@ -40,6 +40,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from screening.core.arrhenius import log_arrhenius_rate
+from screening.core.daily_cycle import effective_ambient
 from screening.core.model import GAS_CONSTANT, ArrheniusSource
 
 __all__ = ["ConductionBody", "ConductionHistory", "GEOMETRY_INDEX", "hot_spot_history", "hot_spot_with_mesh_check"]
@@ -89,6 +90,12 @@ class ConductionBody:
     -----
     A film h to the ambient and a medium h_m in parallel act as one film h + h_m to the weighted
     temperature (h T_a + h_m T_m) / (h + h_m).
+    daily_cycle : DailyCycle or None
+        The daily cycle of the air and the sun (:class:`screening.core.daily_cycle.DailyCycle`): the surface
+        then sees the effective (sol-air) ambient :math:`T_{eff}(t)` of
+        :func:`screening.core.daily_cycle.effective_ambient`, with ``ambient_temperature`` its daily mean.
+        The sun's share is spread over the whole surface (a 1-D body): the sunlit side of a real package runs
+        hotter than this model shows.
     """
 
     geometry: str
@@ -118,6 +125,7 @@ class ConductionBody:
             return self.ambient_temperature
         h, hm = self.surface_coefficient, self.medium_coefficient
         return (h * self.ambient_temperature + hm * self.medium_temperature) / (h + hm)
+    daily_cycle: object = None
 
     @property
     def biot_number(self) -> float:
@@ -238,6 +246,18 @@ class _System:
         b = self.body
         return b.uniform_power + sum(p * math.exp(-t / a) for p, a in b.decaying_power if t / a < 700.0)
 
+    def ambient(self, t):
+        """What the surface exchanges heat with at time t (float or array), K: the ambient (constant, or the
+        sol-air daily cycle) and any medium at the surface, weighted by their coefficients."""
+        b = self.body
+        if b.daily_cycle is None:
+            return self.t_inf
+        t_eff = effective_ambient(b.ambient_temperature, b.daily_cycle, t)
+        if b.medium_coefficient <= 0:
+            return t_eff
+        h, hm = b.surface_coefficient, b.medium_coefficient
+        return (h * t_eff + hm * b.medium_temperature) / (h + hm)
+
     def rhs(self, t: float, y: np.ndarray) -> np.ndarray:
         n = self.n
         T = y[:n]
@@ -246,7 +266,7 @@ class _System:
         d = self.g_inner * (T[1:] - T[:-1])
         flow[:-1] += d
         flow[1:] -= d
-        flow[-1] += self.g_out * (self.t_inf - T[-1])  # g_out is 0 for an insulated surface
+        flow[-1] += self.g_out * (self.ambient(t) - T[-1])  # g_out is 0 for an insulated surface
         flux_in = self.body.surface_flux * self.surface_area
         if flux_in:
             flow[-1] += flux_in
@@ -274,14 +294,14 @@ class _System:
                 S[off + a, off + a] = True
         return S.tocsr()
 
-    def surface_temperature(self, T_outer):
-        """Surface temperature from the outer cell: flux continuity through the half cell and the film."""
+    def surface_temperature(self, T_outer, t=0.0):
+        """Surface temperature from the outer cell at times t: flux continuity through the half cell and the film."""
         b = self.body
         if self.film <= 0:
             return T_outer
         half = (b.half_thickness / self.n) / (2.0 * b.conductivity)
         film = 1.0 / self.film
-        return (T_outer * film + (self.t_inf + b.surface_flux * film) * half) / (half + film)
+        return (T_outer * film + (self.ambient(t) + b.surface_flux * film) * half) / (half + film)
 
 
 def hot_spot_history(body: ConductionBody, limits, horizon: float, *, cells: int = DEFAULT_CELLS,
@@ -354,7 +374,7 @@ def hot_spot_history(body: ConductionBody, limits, horizon: float, *, cells: int
 
     def surface_crossing(level):
         def g(t, y):
-            return float(system.surface_temperature(y[n - 1])) - level
+            return float(system.surface_temperature(y[n - 1], t)) - level
         g.direction = 1.0
         return g
 
@@ -363,9 +383,11 @@ def hot_spot_history(body: ConductionBody, limits, horizon: float, *, cells: int
     stop_event.terminal = True
     events.append(stop_event)
     grid = np.linspace(0.0, horizon, points)
+    # with a daily cycle, steps of at most 30 min follow the air and the sun (sunrise and sunset are kinks)
+    max_step = 1800.0 if body.daily_cycle is not None else np.inf
     sol = solve_ivp(system.rhs, (0.0, horizon), y0, method="BDF", t_eval=grid, events=events, rtol=RTOL,
                     atol=np.concatenate([np.full(n, 1e-7), np.full(system.size - n, 1e-12)]),
-                    jac_sparsity=system.sparsity(), dense_output=True)
+                    jac_sparsity=system.sparsity(), dense_output=True, max_step=max_step)
     if sol.status < 0:
         raise RuntimeError(f"the conduction integration failed: {sol.message}")
     for k, i in enumerate(pending):
@@ -386,7 +408,7 @@ def hot_spot_history(body: ConductionBody, limits, horizon: float, *, cells: int
     T = Y[:n]
     hot = T.max(axis=0)
     k = int(np.argmax(hot))
-    return ConductionHistory(times, t_hist, hot, T[0], system.surface_temperature(T[-1]), float(hot[k]),
+    return ConductionHistory(times, t_hist, hot, T[0], system.surface_temperature(T[-1], t_hist), float(hot[k]),
                              float(t_hist[k]), stopped, n, surface_times)
 
 

@@ -209,7 +209,7 @@ def _validate_chunk(work: ChunkWork) -> ChunkTask:
         outcome.problems = list(problems) + _structural_problems(work, row_no, cells)
         if direct is not None and not outcome.problems:
             prepared_all[i] = (direct, _row_hash(work, cells))
-            if not direct.model.arrhenius_sources:
+            if not direct.model.arrhenius_sources and direct.model.daily_cycle is None:
                 closed.append(direct)
                 closed_idx.append(i)
         elif spec is not None and not outcome.problems:
@@ -224,7 +224,7 @@ def _validate_chunk(work: ChunkWork) -> ChunkTask:
                 if prep is None:
                     prep = prepare_case(spec, inputs=inputs)
                 prepared_all[i] = (prep, _row_hash(work, cells))
-                if not prep.model.arrhenius_sources:
+                if not prep.model.arrhenius_sources and prep.model.daily_cycle is None:
                     closed.append(prep)
                     closed_idx.append(i)
             except CaseError as exc:

@@ -120,7 +120,7 @@ def plan_group(rep, fast_cols) -> list[_Varying] | None:
             or (not tank and (spec.heat_loss.ua is None or spec.contents.mass is None))
             or model.arrhenius_sources or model.fire_sources or model.heating_media or model.boiling is not None
             or rep.recovery is not None or rep.detection_alarm is not None or rep.uncertainty_plan is not None
-            or model.wall_heat_capacity != 0.0):
+            or model.wall_heat_capacity != 0.0 or model.daily_cycle is not None):
         return None
     out = []
     for col, role, _parse, name, marker in fast_cols:

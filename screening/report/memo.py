@@ -438,6 +438,8 @@ class _Memo:
         out = [lay.heading(self.numbers["method"], "method")] + lay.prose(lay.T("method.text"))
         if self._conduction() is not None:
             out += lay.prose(lay.T("method.unstirred"))
+        if self.r.get("daily_cycle") is not None:
+            out += lay.prose(lay.T("method.daily_cycle"))
         return out
 
     def sec_results(self):
@@ -506,9 +508,15 @@ class _Memo:
                                  "small"))
             bound = self._adiabatic_is_bound()
             if bound is not None and ad_by_index:
-                out.append(lay.P(self.esc(self.L("adiabatic_bound_note" if bound else "adiabatic_not_bound_note",
-                                                 ambient=self.u.full(self.num("ambient_temperature_K")),
-                                                 start=self.u.full(self._start_temperature()))), "small"))
+                amb = self.u.full(readings.bound_ambient(self.r))
+                cycle = readings.daily_cycle(self.r) is not None
+                if bound:
+                    key = "adiabatic_bound_note"
+                    amb = self.L("adiabatic_cycle_ambient", temp=amb) if cycle else amb
+                else:
+                    key = "adiabatic_not_bound_note_cycle" if cycle else "adiabatic_not_bound_note"
+                out.append(lay.P(self.esc(self.L(key, ambient=amb, start=self.u.full(self._start_temperature()))),
+                                 "small"))
             if self.detection_basis() == "assumed":
                 out.append(lay.P(f"<b>{self.esc(self.L('detection_assumed_note'))}</b>", "small"))
             elif self.detection_basis() == "unmonitored":
@@ -528,11 +536,14 @@ class _Memo:
         steady = self.num("steady_temperature_K")
         mixing = _str(self.r.get("mixing"), "mixing")
         biot = self.num("biot_number")
+        cycle = _mapping(self.r.get("daily_cycle"), "daily_cycle")
+        ambient_label = self.L("ambient_daily_mean") if cycle is not None else self.L("ambient_temperature")
         pairs = [
             (self.L("initial_temperature"), self.temp(self.num("initial_temperature_K"))),
-            (self.L("ambient_temperature"), self.temp(self.num("ambient_temperature_K"))),
+            (ambient_label, self.temp(self.num("ambient_temperature_K"))),
+            *(self._cycle_pairs(cycle) if cycle is not None else []),
         ]
-        pairs += self._peak_and_steady_pairs(steady)
+        pairs += self._peak_and_steady_pairs(steady, cycle is not None)
         pairs.append((self.L("time_constant"), self.hrs(tau, self.L("adiabatic_no_loss"))))
         rise = self.num("temperature_rise_K", adiabatic, "adiabatic.temperature_rise_K")
         if rise is not None and rise > 0:  # only where decaying heat gives one (never a 0 K "rise")
@@ -553,6 +564,32 @@ class _Memo:
             out += self.allowable_values()
         return out
 
+    def _cycle_pairs(self, cycle: dict) -> list:
+        """Rows for the daily cycle of the air and the sun (only when the case has one)."""
+        def hours(key):
+            v = _num(cycle.get(key), f"daily_cycle.{key}")
+            return self.esc(f"{v / 3600.0:.4g} h") if v is not None else self.na()
+
+        rng = _num(cycle.get("daily_range_K"), "daily_cycle.daily_range_K")
+        pairs = [(self.L("cycle_air_range"), self.esc(self.u.rise(rng)) if rng is not None else self.na()),
+                 (self.L("cycle_warmest_time"), hours("warmest_time_of_day_s"))]
+        sun = _mapping(cycle.get("sun"), "daily_cycle.sun")
+        if sun is not None:
+            rise = _num(sun.get("sol_air_rise_K"), "daily_cycle.sun.sol_air_rise_K")
+            area = _num(sun.get("exposed_area_m2"), "daily_cycle.sun.exposed_area_m2")
+            share = _num(sun.get("exposed_share"), "daily_cycle.sun.exposed_share")
+            pairs.append((self.L("cycle_sun"), self.esc(
+                self.L("cycle_sun_value", rise=self.u.rise(rise) if rise is not None else "?",
+                       area=f"{area:.4g}" if area is not None else "?",
+                       share=f"{share * 100:.3g}" if share is not None else "?"))))
+        pairs.append((self.L("cycle_effective_max"), self.temp(_num(cycle.get("effective_ambient_max_K"),
+                                                                    "daily_cycle.effective_ambient_max_K"))))
+        basis = _str(cycle.get("start_time_basis"), "daily_cycle.start_time_basis") or ""
+        start = _num(cycle.get("start_time_of_day_s"), "daily_cycle.start_time_of_day_s")
+        pairs.append((self.L("cycle_start"), self.esc(f"{start / 3600.0:.4g} h ({basis})") if start is not None
+                      else self.na()))
+        return pairs
+
     def _start_temperature(self) -> float | None:
         return readings.start_temperature(self.r)
 
@@ -565,8 +602,11 @@ class _Memo:
     def _boiling_plateau(self) -> Mapping | None:
         return _mapping(readings.boiling_plateau(self.r), "boiling")
 
-    def _peak_and_steady_pairs(self, steady: float | None) -> list:
+    def _peak_and_steady_pairs(self, steady: float | None, daily_cycle: bool = False) -> list:
+        """Peak (or boiling plateau, or temperature at the horizon) and steady rows; with a daily cycle the steady
+        temperature is the daily mean of the periodic state."""
         peak, t_peak = self.num("peak_temperature_K"), self.num("peak_time_s")
+        steady_key = "steady_daily_mean" if daily_cycle else "steady_temperature"
         plateau = self._boiling_plateau()
         if plateau is not None:
             t_boil = _num(plateau.get("time_to_boil_s"), "boiling.time_to_boil_s")
@@ -575,15 +615,16 @@ class _Memo:
             pairs = [(self.L("boiling_plateau"), self.markup("boiling_plateau_value", temp=self.temp(peak),
                                                              start=self.hrs(t_boil), until=until))]
             if steady is not None and peak is not None and steady > peak:
-                pairs.append((self.L("steady_after_dry_out"), self.temp(steady)))
+                pairs.append((self.L("steady_after_dry_out_daily_mean" if daily_cycle else "steady_after_dry_out"),
+                              self.temp(steady)))
             else:
-                pairs.append((self.L("steady_temperature"), self.temp(steady, self.L("no_steady_state"))))
+                pairs.append((self.L(steady_key), self.temp(steady, self.L("no_steady_state"))))
             return pairs
         if readings.still_rising(self.r):  # no peak within the horizon: still rising, towards the steady state or without bound
             pairs = [(self.L("horizon_temperature"), self.temp(peak))]
         else:
             pairs = [(self.L("peak_temperature"), self.temp(peak)), (self.L("peak_time"), self.hrs(t_peak))]
-        pairs.append((self.L("steady_temperature"), self.temp(steady, self.L(
+        pairs.append((self.L(steady_key), self.temp(steady, self.L(
             "steady_unstirred" if self._conduction() is not None else "no_steady_state"))))
         return pairs
 
@@ -885,6 +926,10 @@ class _Memo:
             (self.L("critical_ambient"), ca_txt),
             (self.L("critical_ambient_margin"), self._rise("critical_ambient_margin_K")),
         ]
+        if self.r.get("daily_cycle") is not None:  # the criteria use the daily maximum of air and sun
+            pairs[0] = (self.L("ambient_daily_mean"), self.temp(self.num("ambient_temperature_K")))
+            pairs[2:2] = [(self.L("criteria_ambient"), self.temp(self.num("criteria_ambient_K")))]
+            pairs.append((self.L("margin_daily_mean"), self._rise("critical_ambient_margin_at_daily_mean_K")))
         if method == "semenov":
             pairs += [(self.L("critical_temperature"), self.temp(self.num("critical_temperature_K"))),
                       (self.L("no_return_temperature"), self.temp(self.num("no_return_temperature_K")))]

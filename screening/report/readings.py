@@ -5,11 +5,16 @@ answers one question a reviewer asks of the numbers:
 
 - :func:`start_temperature`: where the history starts (initial, or after heat released at t = 0);
 - :func:`adiabatic_is_bound`: whether the case without heat loss (UA = 0) bounds the temperature:
-  only when the contents never sit below the ambient (the surroundings never heat them);
+  only when the contents never sit below the ambient (the surroundings never heat them); with a
+  daily cycle the ambient compared is :func:`bound_ambient`, the daily maximum of the effective
+  ambient (the air and the sun's share), since the surroundings heat the contents whenever that
+  is above them;
 - :func:`boiling_plateau`: an open vessel that boils holds at its boiling point until dry-out,
   which is not its steady state;
 - :func:`still_rising`: no peak within the horizon (an asymptotic approach or a runaway), so a
-  "time of peak" would only be the end of the horizon;
+  "time of peak" would only be the end of the horizon; never with a daily cycle, where rising or
+  falling at the horizon is only the time of day (the screening warns instead when the daily peaks
+  still climb);
 - :func:`near_peak`: a limit reached within 2 % of the peak temperature rise, whose time moves a lot
   with the inputs.
 """
@@ -43,9 +48,25 @@ def history_of(r: Mapping) -> Mapping | None:
     return h if isinstance(h, Mapping) else None
 
 
+def daily_cycle(r: Mapping) -> Mapping | None:
+    """The result's daily-cycle block (the air's cycle and the sun), or None without one."""
+    c = r.get("daily_cycle")
+    return c if isinstance(c, Mapping) else None
+
+
+def bound_ambient(r: Mapping) -> float | None:
+    """The highest ambient the contents see: with a daily cycle the daily maximum of the effective ambient
+    (the air and the sun's share), else the ambient."""
+    cycle = daily_cycle(r)
+    if cycle is not None:
+        return _num(cycle, "effective_ambient_max_K")
+    return _num(r, "ambient_temperature_K")
+
+
 def adiabatic_is_bound(r: Mapping) -> bool | None:
-    """True when the contents never fall below the ambient, so heat loss only cools them; None if unknown."""
-    amb, low = _num(r, "ambient_temperature_K"), start_temperature(r)
+    """True when the contents never fall below the ambient (with a daily cycle: its effective daily maximum), so
+    heat loss only cools them; None if unknown."""
+    amb, low = bound_ambient(r), start_temperature(r)
     if amb is None or low is None:
         return None
     hist = history_of(r)
@@ -65,10 +86,11 @@ def boiling_plateau(r: Mapping) -> Mapping | None:
 
 
 def still_rising(r: Mapping) -> bool:
-    """No peak within the horizon: the highest temperature is the one at its end."""
+    """No peak within the horizon: the highest temperature is the one at its end (never with a daily cycle: there
+    the end of the horizon falls at a time of day, and a warning says when the daily peaks still climb)."""
     peak, t_peak, horizon = _num(r, "peak_temperature_K"), _num(r, "peak_time_s"), _num(r, "horizon_s")
     start = start_temperature(r)
-    if None in (peak, t_peak, horizon) or boiling_plateau(r) is not None:
+    if None in (peak, t_peak, horizon) or boiling_plateau(r) is not None or daily_cycle(r) is not None:
         return False
     return t_peak >= horizon * (1 - 1e-9) and (start is None or peak > start)
 

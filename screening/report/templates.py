@@ -121,6 +121,7 @@ def _check_values(tpl: dict, path: Path) -> None:
     for key, fields in (("not_reached", ("horizon",)), ("truncated", ("n",)), ("chart_y", ("unit",)),
                         ("chart_response_line", ("time",)), ("chart_recovery_start", ("time",)),
                         ("chart_caption", ("n",)), ("chart_dropped", ("n",)), ("critical_ambient_method", ("method",)),
+                        ("cycle_sun_value", ("rise", "area", "share")),
                         ("criticality_class_value", ("n",)), ("hb_x", ("unit",)), ("hb_y", ("unit",)),
                         ("hb_ambient", ("temp",)), ("hb_critical_ambient", ("temp",)),
                         ("hb_critical_ambient_lumped", ("temp",)), ("hb_caption", ("n",)),

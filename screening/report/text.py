@@ -71,9 +71,12 @@ def criteria_rows(r: dict, u: str) -> list[tuple[str, str]]:
         method = {"semenov": "Semenov", "frank-kamenetskii": "Frank-Kamenetskii"}.get(r.get("critical_ambient_method"),
                                                                                       "—")
         margin = r.get("critical_ambient_margin_K")
+        which = "the daily maximum of the effective ambient" if r.get("daily_cycle") else "the ambient"
         rows.append((f"Critical ambient ({method})", temp(crit, u) + (
-            f"; the ambient is {dtemp(margin, u)} below it" if margin is not None and margin > 0
-            else ("; the ambient is at or above it" if margin is not None else ""))))
+            f"; {which} is {dtemp(margin, u)} below it" if margin is not None and margin > 0
+            else (f"; {which} is at or above it" if margin is not None else ""))))
+        if r.get("critical_ambient_margin_at_daily_mean_K") is not None:
+            rows.append(("Margin at the daily mean", dtemp(r["critical_ambient_margin_at_daily_mean_K"], u)))
         if r.get("critical_ambient_method") == "semenov":
             rows.append(("Critical contents temperature", temp(r.get("critical_temperature_K"), u)))
             rows.append(("No-return temperature", temp(r.get("no_return_temperature_K"), u)))
@@ -190,8 +193,12 @@ def format_result(r: dict) -> str:
         lines.append(f"Verdict: {r['verdict'].upper()}  (rule set {r.get('rule_set', {}).get('name', '?')})")
         for reason in r.get("reasons", []):
             lines.append(_wrap(reason))
-    lines.append(f"Initial {temp(r['initial_temperature_K'], u)}; ambient {temp(r['ambient_temperature_K'], u)}; "
+    cycle = r.get("daily_cycle")
+    mean = " (daily mean)" if cycle else ""
+    lines.append(f"Initial {temp(r['initial_temperature_K'], u)}; ambient {temp(r['ambient_temperature_K'], u)}{mean}; "
                  f"horizon {duration(r['horizon_s'])}")
+    if cycle:
+        lines.extend(_cycle_lines(r, cycle, u))
     tc = r.get("time_constant_s")
     lines.append(f"Heat capacity {r['heat_capacity_J_per_K']:.4g} J/K; UA {r['ua_W_per_K']:.4g} W/K; "
                  f"time constant {duration(tc) if tc is not None else 'none (adiabatic)'}")
@@ -230,6 +237,7 @@ def format_result(r: dict) -> str:
         lines.append(_wrap(r["start_release"]["note"], ""))
     st = r.get("steady_temperature_K")
     cond = r.get("conduction") if isinstance(r.get("conduction"), dict) else None
+    steady_word = "Steady temperature (daily mean)" if r.get("daily_cycle") else "Steady temperature"
     plateau = readings.boiling_plateau(r)
     if cond:
         stop = " (the hot spot runs away: the conduction solution stops there)" if cond.get("runs_away") else ""
@@ -245,24 +253,30 @@ def format_result(r: dict) -> str:
                      f"{duration(plateau['time_to_boil_s'])} until "
                      f"{duration(dry) if dry is not None else 'the end of the horizon (not dry within it)'}")
         if st is not None and st > r["peak_temperature_K"]:
-            lines.append(f"Steady temperature after dry-out (only if heating continued once dry) {temp(st, u)}")
+            lines.append(f"{steady_word} after dry-out (only if heating continued once dry) {temp(st, u)}")
         else:
-            lines.append(f"Steady temperature {temp(st, u) if st is not None else 'none (no stable steady state)'}")
+            lines.append(f"{steady_word} {temp(st, u) if st is not None else 'none (no stable steady state)'}")
     else:
         if readings.still_rising(r):
             lines.append(f"Temperature at the end of the horizon {temp(r['peak_temperature_K'], u)} (still rising; "
                          f"no peak within it)")
         else:
             lines.append(f"Peak {temp(r['peak_temperature_K'], u)} at {duration(r['peak_time_s'])}")
-        lines.append(f"Steady temperature {temp(st, u) if st is not None else 'none (no stable steady state)'}")
+        lines.append(f"{steady_word} {temp(st, u) if st is not None else 'none (no stable steady state)'}")
     ad = r.get("adiabatic") or {}
     if ad:
         parts = [f"{a['name']}: {duration(a['time_s']) if a['time_s'] is not None else 'not reached'}"
                  for a in ad.get("limits", [])]
         bound = readings.adiabatic_is_bound(r)
-        head = ("No heat loss (UA = 0), a bound here (the contents never fall below the ambient)" if bound else
-                "No heat loss (UA = 0), not a bound here (the ambient is above the contents for part of the history)"
-                if bound is False else "No heat loss (UA = 0)")
+        if r.get("daily_cycle"):
+            head = ("No heat loss (UA = 0), a bound here (the contents never fall below the daily maximum of the "
+                    "effective ambient)" if bound else
+                    "No heat loss (UA = 0), not shown to be a bound here (the contents do not stay above the daily "
+                    "maximum of the effective ambient)" if bound is False else "No heat loss (UA = 0)")
+        else:
+            head = ("No heat loss (UA = 0), a bound here (the contents never fall below the ambient)" if bound else
+                    "No heat loss (UA = 0), not a bound here (the ambient is above the contents for part of the "
+                    "history)" if bound is False else "No heat loss (UA = 0)")
         rise = ad.get("temperature_rise_K")
         lines.append(f"{head}: {'; '.join(parts)}" + (f"; rise from decaying sources {dtemp(rise, u)}"
                                                        if rise is not None and rise > 0 else ""))
@@ -348,6 +362,26 @@ def format_result(r: dict) -> str:
     lines.append(_wrap("Screening estimate only: not a design or relief-sizing calculation. Defer to applicable "
                        "codes, test data and review by a licensed or otherwise qualified professional.", ""))
     return "\n".join(lines)
+
+
+def _cycle_lines(r: dict, cycle: dict, u: str) -> list[str]:
+    """The daily cycle: the air's range, the sun, the effective ambient's maximum and the start time of day."""
+    def hours(s):
+        return f"{s / 3600.0:.4g} h"
+
+    out = [f"Daily cycle: air range {dtemp(cycle['daily_range_K'], u)}, warmest at {hours(cycle['warmest_time_of_day_s'])} "
+           f"solar time; start at {hours(cycle['start_time_of_day_s'])} ({cycle['start_time_basis']})"]
+    sun = cycle.get("sun")
+    if sun:
+        out.append(f"Sun: {sun['peak_irradiance_W_per_m2']:.4g} W/m^2 at noon, absorptivity {sun['absorptivity']:.3g}, "
+                   f"exposed area {sun['exposed_area_m2']:.4g} m^2 ({sun['exposed_area_basis']}, "
+                   f"{sun['exposed_share'] * 100:.3g} % of the heat-loss area), h_o "
+                   f"{sun['outer_coefficient_W_per_m2K']:.3g} W/(m^2*K): sol-air rise {dtemp(sun['sol_air_rise_K'], u)} "
+                   f"at noon on the contents' share; day {hours(sun['day_length_s'])}")
+    out.append(f"Effective ambient (the air and the sun's share): daily maximum "
+               f"{temp(cycle['effective_ambient_max_K'], u)} at {hours(cycle['effective_ambient_max_time_of_day_s'])}; "
+               f"the critical-ambient criteria compare with {temp(r.get('criteria_ambient_K'), u)}")
+    return [_wrap(line, "") for line in out]
 
 
 def _probability_text(p: float, se, n) -> str:

@@ -117,6 +117,11 @@ def find_allowable_values(prepared: PreparedCase, path: str, low: float | None =
         lo = max(lo, 1e-12 * max(abs(hi), 1.0))
     elif marker.check == "nonnegative":
         lo = max(lo, 0.0)
+    elif marker.check in ("unit_fraction", "day_length"):  # (0, 1] and (0, 24 h]
+        top = 1.0 if marker.check == "unit_fraction" else 86400.0
+        lo, hi = max(lo, 1e-12 * top), min(hi, top)
+    elif marker.check == "time_of_day":  # [0, 24 h)
+        lo, hi = max(lo, 0.0), min(hi, 86400.0 * (1.0 - 1e-12))
     if not hi > lo:
         raise CaseError([FieldProblem("--low/--high", "the range is empty: high must be greater than low")])
     n = points or (ARRHENIUS_POINTS if prepared.model.arrhenius_sources else DEFAULT_POINTS)

@@ -12,12 +12,14 @@ import numpy as np
 
 from screening.case.prepare import PreparedCase
 from screening.core.closed_form_history import balance_of, heat_rates, temperature
+from screening.core.daily_cycle import mean_rise
 from screening.core.model import ScreeningModel
 from screening.core.root_finding import brent_root as brentq
 from screening.core.terms import constant_power, model_start_temperature, model_terms
 from screening.core.time_to_limit import first_crossing, history_shape
 from screening.result import HISTORY_POINTS
 from screening.run.recovery import detection_and_recovery
+from screening.run.daily_cycle import climbing_peaks_warning
 from screening.run.warnings import (
     ADIABATIC_WARNING,
     _fmt_temp,
@@ -121,7 +123,13 @@ def screen_closed_form(prepared: PreparedCase, values: ClosedFormValues | None =
 
     if tau is not None and H < tau:
         warnings.append(short_horizon_warning(H, tau))
-    if end_rate > 0 and any(not r["reached"] for r in limit_rows):
+    if model.daily_cycle is not None and G > 0:  # rising or falling at the horizon is the time of day
+        if any(not r["reached"] for r in limit_rows):
+            climbing = climbing_peaks_warning(model, balance if balance is not None else balance_of(model), peak_T,
+                                              unit)
+            if climbing:
+                warnings.append(climbing)
+    elif end_rate > 0 and any(not r["reached"] for r in limit_rows):
         warnings.append(still_rising_warning(values.end_temperature, end_rate, steady, unit))
     if G == 0:
         warnings.append(ADIABATIC_WARNING)
@@ -153,6 +161,8 @@ def _conductance_and_steady(model: ScreeningModel) -> tuple[float, float | None]
     """
     terms = model_terms(model)
     G, Q0 = terms.conductance, terms.drive
+    if model.daily_cycle is not None and G > 0:  # the daily mean of the periodic state (the sun's mean drive)
+        Q0 = Q0 + model.ua * mean_rise(model.daily_cycle)
     if G > 0:
         steady = Q0 / G
         return G, steady if math.isfinite(steady) else None

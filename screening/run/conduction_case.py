@@ -115,7 +115,8 @@ def conduction_body(model: ScreeningModel, *, sources=None, initial_temperature:
         geometry, R, rho, cp, k, float(h),
         float(model.ambient_temperature if ambient_temperature is None else ambient_temperature),
         float(initial_temperature),
-        tuple(model.arrhenius_sources if sources is None else sources), uniform, decaying, flux, hm, tm)
+        tuple(model.arrhenius_sources if sources is None else sources), uniform, decaying, flux, hm, tm,
+        daily_cycle=model.daily_cycle if other_heat else None)  # an SADT trial is at a constant ambient
 
 
 def geometry_approximation(prepared: PreparedCase) -> str | None:

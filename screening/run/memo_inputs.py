@@ -128,6 +128,7 @@ def derived_inputs(prepared: PreparedCase, result: dict) -> list[dict]:
                             ("liquid_height", "liquid_height_m", "m"), ("wetted_area", "wetted_area_m2", "m^2")):
         if geo.get(gkey) is not None:
             out.append(_d(key, geo[gkey], unit))
+    out += _cycle_inputs(spec, geo, result)
     for i, d in enumerate(model.decaying_sources):
         n = _source_index(spec, "decaying", i)
         half = n is not None and spec.heat_sources[n].half_life is not None
@@ -144,10 +145,35 @@ def derived_inputs(prepared: PreparedCase, result: dict) -> list[dict]:
             out.append(_d("biot", result["biot_number"], "1"))
     if model.arrhenius_sources or result.get("mtsr_K") is not None:
         out.append(_d("criteria_specific_heat", cp, "J/(kg*K)"))
-        out.append(_d("criteria_ambient", model.ambient_temperature, "K"))
+        if result.get("daily_cycle") is not None and result.get("criteria_ambient_K") is not None:
+            out.append(_d("criteria_ambient", result["criteria_ambient_K"], "K", "criteria_ambient_cycle"))
+        else:
+            out.append(_d("criteria_ambient", model.ambient_temperature, "K"))
         if result.get("storage_temperature_K") is not None:
             out.append(_d("storage_temperature", result["storage_temperature_K"], "K"))
     return [x for x in out if x["value_si"] is None or math.isfinite(x["value_si"])]
+
+
+def _cycle_inputs(spec, geo: dict, result: dict) -> list[dict]:
+    """The daily cycle's derived inputs: the exposed area and its share of UA, the outer coefficient, the sol-air
+    rise, the effective ambient's daily maximum and the start time of day (none without a cycle)."""
+    cycle = result.get("daily_cycle")
+    if not isinstance(cycle, dict):
+        return []
+    out = []
+    sun = cycle.get("sun")
+    if isinstance(sun, dict):
+        out.append(_d("exposed_area", sun.get("exposed_area_m2"), "m^2",
+                      "exposed_projected" if sun.get("exposed_area_basis") == "projected" else "exposed_given"))
+        out.append(_d("exposed_share", sun.get("exposed_share"), "1"))
+        given = spec.sun is not None and spec.sun.outer_coefficient is not None
+        out.append(_d("outer_coefficient", sun.get("outer_coefficient_W_per_m2K"), "W/(m^2*K)",
+                      "outer_given" if given else "outer_default"))
+        out.append(_d("sol_air_rise", sun.get("sol_air_rise_K"), "K"))
+    out.append(_d("effective_ambient_max", cycle.get("effective_ambient_max_K"), "K"))
+    out.append(_d("start_time_of_day", cycle.get("start_time_of_day_s"), "s",
+                  "start_given" if spec.start_time_of_day is not None else "start_worst"))
+    return out
 
 
 def _source_index(spec, kind: str, i: int) -> int | None:

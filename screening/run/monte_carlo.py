@@ -40,6 +40,7 @@ from screening.case.uncertainty_plan import (
     quantile,
 )
 from screening.case.units import DIMENSIONS
+from screening.core.daily_cycle import DAY, CycleForcing
 from screening.core.terms import (
     conductance_and_drive,
     fire_power,
@@ -84,6 +85,23 @@ class SampleArrays:
     delay: np.ndarray  # detection delay, NaN when an alarm or nothing
     alarm: np.ndarray  # alarm temperature, NaN when none
     e0: np.ndarray  # heat per kg released at t = 0 (syntheses without kinetics), J/kg
+    # the daily cycle (zeros without one): air range K, warmest time s, start s, irradiance W/m^2, absorptivity,
+    # outer coefficient W/(m^2 K), exposed share of UA, day length s
+    rng: np.ndarray = None
+    tw: np.ndarray = None
+    s0: np.ndarray = None
+    irr: np.ndarray = None
+    alpha: np.ndarray = None
+    ho: np.ndarray = None
+    share: np.ndarray = None
+    day: np.ndarray = None
+
+    def forcing(self):
+        """The daily cycle's forcing of every sample (W), or None when no sample has one."""
+        if not (np.any(self.rng != 0.0) or np.any(self.irr * self.alpha != 0.0)):
+            return None
+        rise = self.share * self.alpha * self.irr / self.ho
+        return CycleForcing(0.5 * self.ua * self.rng, self.tw, self.ua * rise, self.day, np.mod(self.s0, DAY))
 
     @property
     def n(self) -> int:
@@ -112,14 +130,35 @@ def base_arrays(prepared: PreparedCase, n: int) -> SampleArrays:
         delay=full(prepared.detection_delay if prepared.detection_delay is not None else np.nan),
         alarm=full(prepared.detection_alarm if prepared.detection_alarm is not None else np.nan),
         e0=full(released_specific_energy(model)),
+        **_cycle_arrays(prepared, full),
     )
+
+
+def _cycle_arrays(prepared: PreparedCase, full) -> dict:
+    """The daily cycle's columns of the sample arrays (the solar rise split into its factors, so that each may
+    be sampled)."""
+    cycle = prepared.model.daily_cycle
+    if cycle is None:
+        return dict(rng=full(0.0), tw=full(0.0), s0=full(0.0), irr=full(0.0), alpha=full(0.0), ho=full(1.0),
+                    share=full(0.0), day=full(43200.0))
+    sun = prepared.spec.sun
+    geo = prepared.geometry
+    if sun is None:
+        irr, alpha, ho, share = 0.0, 0.0, 1.0, 0.0
+    else:
+        irr, alpha = sun.peak_irradiance.si, sun.absorptivity.si
+        ho, share = geo["outer_coefficient_W_per_m2K"], geo["exposed_share"]
+    return dict(rng=full(cycle.daily_range), tw=full(cycle.warmest_time), s0=full(cycle.start_time), irr=full(irr),
+                alpha=full(alpha), ho=full(ho), share=full(share), day=full(cycle.day_length))
 
 
 #: Monte Carlo array of each model slot (see screening.case.paths); per-source slots are columns.
 _ARRAY_OF_SLOT = {"mass": "m", "cp": "cp", "T0": "T0", "Ta": "Ta", "ua": "ua", "H": "horizon", "response": "response",
                   "delay": "delay", "alarm": "alarm", "limit": "limits", "const": "Pc", "dpower": "Pd", "dtau": "ad",
                   "medium_ua": "mua", "medium_T": "mT", "q": "q", "Tr": "Tr", "E": "E", "dh": "dh", "af": "af",
-                  "kr": "kr", "ic": "af"}
+                  "kr": "kr", "ic": "af",
+                  "daily_range": "rng", "warmest": "tw", "start": "s0", "irradiance": "irr", "absorptivity": "alpha",
+                  "day_length": "day", "outer_coefficient": "ho"}
 
 
 def direct_setter(prepared: PreparedCase, parts: tuple):
@@ -260,6 +299,7 @@ def screen_samples(prepared: PreparedCase, arrays: SampleArrays) -> SampleTimes:
             reference_temperature=arrays.Tr, activation_energy=arrays.E,
             order=np.where(np.isnan(arrays.dh), 0.0, arrays.order), heat_of_reaction=arrays.dh,
             initial_conversion=np.where(np.isnan(arrays.dh), 0.0, np.clip(1.0 - arrays.af, 0.0, 1.0)),
+            forcing=arrays.forcing(),
             **({"autocatalytic_order": arrays.am, "initiation": arrays.az} if auto.any() else {}))
         times = first_crossing_times_arrhenius(params, L, arrays.horizon).times
     else:
@@ -268,7 +308,13 @@ def screen_samples(prepared: PreparedCase, arrays: SampleArrays) -> SampleTimes:
         G, Q0 = conductance_and_drive(arrays.ua, arrays.Ta, p_const, list(arrays.mua.T), list(arrays.mT.T))
         P = arrays.Pd if arrays.Pd.shape[1] else np.zeros((n, 1))
         b = 1.0 / arrays.ad if arrays.ad.shape[1] else np.zeros((n, 1))
-        times = first_crossing_times(C, G, Q0, T_start, P, b, L, arrays.horizon)
+        forcing = arrays.forcing()
+        if forcing is not None:  # the same closed form with the daily cycle, on arrays
+            from screening.core.daily_cycle_batch import first_crossing_times_cycle
+
+            times = first_crossing_times_cycle(C, G, Q0, T_start, P, b, forcing, L, arrays.horizon)
+        else:
+            times = first_crossing_times(C, G, Q0, T_start, P, b, L, arrays.horizon)
         times = np.asarray(times).reshape(n, -1)
     n_lim = arrays.limits.shape[1]
     if has_alarm:

@@ -14,6 +14,7 @@ import numpy as np
 from screening.case.display import temp
 from screening.case.prepare import PreparedCase
 from screening.core import runaway as rc
+from screening.core.daily_cycle import mean_rise
 from screening.core.model import HeatingMedium, Limit, ScreeningModel
 from screening.core.terms import constant_power, model_start_temperature, model_terms
 from screening.run.recovery import detection_and_recovery
@@ -76,7 +77,7 @@ def screen_with_arrhenius(prepared: PreparedCase) -> dict:
     X0 = _initial_conversions(model)
     P = constant_power(model)
     T0 = model_start_temperature(model)
-    Ta = model.ambient_temperature
+    Ta = model.ambient_temperature + mean_rise(model.daily_cycle)  # with a daily cycle: its daily mean
     scenario = model.scenario
 
     def add(ws):

@@ -31,6 +31,7 @@ from screening.core import runaway as rc
 from screening.core.model import ScreeningModel
 from screening.core.terms import constant_power, model_start_temperature
 from screening.run import autocatalytic_criteria as ac
+from screening.run.daily_cycle import criteria_ambient
 
 #: Every key :func:`scenario_criteria` writes (None / empty when it does not apply).
 SCENARIO_KEYS = (
@@ -276,8 +277,8 @@ def _storage(prepared, facts, out, decomposition, used) -> list[str]:
     model = prepared.model
     unit = prepared.display_temperature_unit
     warnings: list[str] = []
-    cp, m, T0, Ta = (model.contents_specific_heat, model.contents_mass, model.initial_temperature,
-                     model.ambient_temperature)
+    cp, m, T0 = model.contents_specific_heat, model.contents_mass, model.initial_temperature
+    Ta = criteria_ambient(model)[0]  # with a daily cycle: the daily maximum of the effective ambient
     storage_T = max(T0, Ta)
     out["storage_temperature_K"] = storage_T
     out["tmr_at_storage_temperature_s"] = _finite(ac.tmr(storage_T, cp, decomposition))
@@ -498,7 +499,7 @@ def _cooling_failure_summary(model, facts, out, unit) -> str:
 
 
 def _storage_summary(model, facts, out, unit) -> str:
-    Ta = model.ambient_temperature
+    Ta = criteria_ambient(model)[0]
     name = "Semenov" if out["critical_ambient_method"] == "semenov" else "Frank-Kamenetskii"
     crit = out["critical_ambient_temperature_K"]
     text = []
@@ -513,6 +514,17 @@ def _storage_summary(model, facts, out, unit) -> str:
         if model.heating_media:
             text.append(f"Storage with a heating medium on: the critical ambient ({temp(crit, unit)}, {name}) is the "
                         f"air temperature that is critical with the medium as stated; the medium temperature governs.")
+        elif model.daily_cycle is not None:
+            mean_margin = crit - model.ambient_temperature
+            if margin <= 0:
+                text.append(f"Storage: the contents CAN run away: the daily maximum of the effective ambient "
+                            f"({temp(Ta, unit)}, air and sun) is at or above the {name} critical ambient "
+                            f"({temp(crit, unit)}), which the store may cross every afternoon.")
+            else:
+                text.append(f"Storage: the daily maximum of the effective ambient ({temp(Ta, unit)}, air and sun) is "
+                            f"{dtemp(margin, unit)} below the {name} critical ambient ({temp(crit, unit)}).")
+            text.append(f"At the daily mean ({temp(model.ambient_temperature, unit)}) the margin is "
+                        f"{dtemp(mean_margin, unit)}; the criterion uses the daily maximum.")
         elif margin <= 0:
             text.append(f"Storage: the contents CAN run away at the stated ambient: the ambient ({temp(Ta, unit)}) is "
                         f"at or above the {name} critical ambient ({temp(crit, unit)}).")

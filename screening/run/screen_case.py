@@ -12,6 +12,7 @@ from screening.core.fire_exposure import FIRE_CAUTIONS
 from screening.case.display import temp
 from screening.core.terms import model_start_temperature
 from screening.run.closed_form_case import ClosedFormValues, screen_closed_form
+from screening.run.daily_cycle import add_cycle_keys, choose_start
 from screening.run.memo_inputs import case_fields, derived_inputs
 from screening.run.monte_carlo import analyse
 from screening.run.runaway_case import screen_with_arrhenius
@@ -27,6 +28,9 @@ def screen_prepared(prepared: PreparedCase, input_hash: str | None = None,
     ``values`` (closed-form cases only) are engine results computed elsewhere,
     e.g. by the vectorised engine for a register.
     """
+    if prepared.model.daily_cycle is not None:
+        values = None  # engine values from elsewhere do not know the start time of day chosen here
+    prepared, start_info = choose_start(prepared)  # a daily cycle without a stated start: the worst hourly start
     model = prepared.model
     if model.arrhenius_sources:
         core = screen_with_arrhenius(prepared)
@@ -59,6 +63,7 @@ def screen_prepared(prepared: PreparedCase, input_hash: str | None = None,
         result["maximum_technical_temperature_K"] = model.maximum_technical_temperature
     biot_and_validity(prepared, result)
     result["assumptions"].extend(case_assumptions(prepared))
+    add_cycle_keys(prepared, result, start_info)
     if model.fire_sources:
         result["fire"] = [{"power_W": f.power, "wetted_area_m2": f.wetted_area, "environment_factor": f.environment_factor,
                            "drainage_and_firefighting": f.drainage_and_firefighting} for f in model.fire_sources]

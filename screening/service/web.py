@@ -336,7 +336,7 @@ def conduction_history_html(r: dict, history: dict | None) -> str:
 def result_html(r: dict, view: dict | None = None) -> str:
     """The result of one run; ``view`` (the memo's view of it: history, every field, derived inputs) adds the
     chart, the inputs as written and the derived inputs."""
-    from screening.case.display import duration, temp
+    from screening.case.display import dtemp, duration, temp
     from screening.report.text import criteria_rows, format_result
     from screening.service import web_workbench as wb
 
@@ -415,6 +415,16 @@ def result_html(r: dict, view: dict | None = None) -> str:
            ("Response time", duration(r.get("response_time_s"))),
            ("Method", str(r.get("method") or "—")), ("Mixing", str(r.get("mixing") or "—")),
            ("Biot number", _fmt(r.get("biot_number"), 3))]
+    cycle = r.get("daily_cycle") if isinstance(r.get("daily_cycle"), dict) else None
+    if cycle is not None:  # the daily cycle of the air and the sun
+        key[1] = ("Ambient temperature (daily mean)", temp(r.get("ambient_temperature_K"), u))
+        sun = cycle.get("sun") if isinstance(cycle.get("sun"), dict) else None
+        key[2:2] = [("Daily range of the air", dtemp(cycle.get("daily_range_K"), u)),
+                    ("Sol-air rise at noon (contents' share)", dtemp(sun.get("sol_air_rise_K"), u) if sun else "no sun"),
+                    ("Effective ambient, daily maximum", temp(cycle.get("effective_ambient_max_K"), u)),
+                    ("Criteria ambient", temp(r.get("criteria_ambient_K"), u)),
+                    ("Start time of day", f'{_fmt((cycle.get("start_time_of_day_s") or 0.0) / 3600.0)} h '
+                                          f'({cycle.get("start_time_basis")})')]
     out.append("<h2>Key numbers</h2><table>" + "".join(f"<tr><th>{esc(k)}</th><td>{esc(v)}</td></tr>" for k, v in key)
                + "</table>")
     try:

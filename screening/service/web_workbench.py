@@ -121,7 +121,14 @@ def reading_notes(r: Mapping) -> str:
     unit = (r.get("units") or {}).get("temperature", "K")
     notes = []
     bound = readings.adiabatic_is_bound(r)
-    if bound is False:
+    if readings.daily_cycle(r) is not None and bound is False:
+        notes.append("The column with no heat loss (UA = 0) is not shown to be a bound here: the contents do not stay "
+                     "above the daily maximum of the effective ambient (air and sun), so the surroundings may heat "
+                     "them for part of the day and leaving heat loss out can give later times.")
+    elif readings.daily_cycle(r) is not None and bound:
+        notes.append("The column with no heat loss (UA = 0) bounds the times from below: the contents never fall "
+                     "below the daily maximum of the effective ambient (air and sun).")
+    elif bound is False:
         notes.append("The column with no heat loss (UA = 0) is not a bound here: the ambient is above the contents "
                      "for part of the history, so the surroundings heat them and leaving heat loss out can give "
                      "later times.")
@@ -154,9 +161,10 @@ def peak_text(r: Mapping) -> tuple[str, str]:
 
 def steady_label(r: Mapping) -> str:
     st, peak = _num(r.get("steady_temperature_K")), _num(r.get("peak_temperature_K"))
+    mean = " (daily mean)" if readings.daily_cycle(r) is not None else ""
     if readings.boiling_plateau(r) is not None and st is not None and peak is not None and st > peak:
-        return "Steady temperature after dry-out"
-    return "Steady temperature"
+        return f"Steady temperature{mean} after dry-out"
+    return f"Steady temperature{mean}"
 
 
 def inputs_section(r: Mapping, view: Mapping | None) -> str:

@@ -440,11 +440,21 @@ def _storage_gap(r):
 
 
 @_safe
+def _q_criteria_ambient(r):
+    """The ambient of the criteria: ``criteria_ambient_K`` (a daily cycle's daily maximum), else the ambient."""
+    v = _num(r, "criteria_ambient_K") if r.get("criteria_ambient_K") is not None else _num(r, "ambient_temperature_K")
+    if v is None:
+        return _Missing(UNKNOWN, "ambient temperature not in the result")
+    return v, None
+
+
+@_safe
 def _q_critical_ambient_gap(r):
     crit = _num(r, "critical_ambient_temperature_K")
     if crit is None:
         return _storage_gap(r)
-    amb = _num(r, "ambient_temperature_K")
+    # with a daily cycle the comparison is with the daily maximum of the effective ambient (criteria_ambient_K)
+    amb = _num(r, "criteria_ambient_K") if r.get("criteria_ambient_K") is not None else _num(r, "ambient_temperature_K")
     if amb is None:
         return _Missing(UNKNOWN, "ambient temperature not in the result")
     method = r.get("critical_ambient_method")
@@ -582,7 +592,8 @@ def _q_control_temperature_gap(r):
     control = _num(r, "control_temperature_K")
     if control is None:
         return _sadt_missing(r, "control temperature")
-    amb = _num(r, "ambient_temperature_K")
+    # with a daily cycle the control temperature is compared with the daily maximum of the effective ambient
+    amb = _num(r, "criteria_ambient_K") if r.get("criteria_ambient_K") is not None else _num(r, "ambient_temperature_K")
     if amb is None:
         return _Missing(UNKNOWN, "ambient temperature not in the result")
     return control - amb, None
@@ -836,8 +847,9 @@ def _quantity_table() -> dict[str, Quantity]:
                  _safe(_plain("initial_temperature_K", UNKNOWN, "initial temperature not in the result"))),
         Quantity("start_temperature", TEMPERATURE, "temperature the history starts at: the initial temperature, "
                  "plus the heat of a synthesis given without kinetics, released at t = 0", _q_start_temperature),
-        Quantity("ambient_temperature", TEMPERATURE, "ambient temperature",
-                 _safe(_plain("ambient_temperature_K", UNKNOWN, "ambient temperature not in the result"))),
+        Quantity("ambient_temperature", TEMPERATURE, "ambient temperature (with a daily cycle of the air and the "
+                 "sun: the daily maximum of the effective ambient, which the criteria compare with)",
+                 _q_criteria_ambient),
         Quantity("peak_temperature", TEMPERATURE, "highest temperature within the horizon",
                  _safe(_plain("peak_temperature_K", UNKNOWN, "peak temperature not in the result"))),
         Quantity("peak_time", TIME, "time of the highest temperature",

@@ -90,10 +90,20 @@ AUTOCATALYTIC = {
                       "specific_heat_of_reaction": "500 kJ/kg", "initial_conversion": "1 %"}],
     "limits": [{"name": "onset", "temperature": "60 degC"}],
 }
-CASES = (FULL, BOX, BY_VOLUME, AUTOCATALYTIC)
+SUNNY = {
+    "id": "NF-5",
+    "contents": {"mass": "200 kg", "specific_heat": "2 kJ/(kg*K)", "initial_temperature": "25 degC"},
+    "heat_loss": {"ambient_temperature": "28 degC", "ua": "20 W/K", "daily_range": "14 K",
+                  "warmest_time_of_day": "15 h"},
+    "sun": {"peak_irradiance": "850 W/m^2", "absorptivity": 0.7, "exposed_area": "0.5 m^2", "day_length": "13 h",
+            "outer_coefficient": "15 W/(m^2*K)"},
+    "start_time_of_day": "6 h",
+    "limits": [{"name": "onset", "temperature": "90 degC"}],
+}
+CASES = (FULL, BOX, BY_VOLUME, AUTOCATALYTIC, SUNNY)
 # Quantities the schema types as free values and validates itself: each needs its own entry here.
 CHECKED_OUTSIDE_THE_MODEL = [("heat_loss", "area"), ("heat_sources", 3, "tested_range", 0),
-                             ("heat_sources", 3, "tested_range", 1)]
+                             ("heat_sources", 3, "tested_range", 1), ("sun", "exposed_area")]
 
 
 def _model_of(annotation):
@@ -181,8 +191,8 @@ def targets():
     assert cs.HeatLossSpec.model_fields["area"].annotation is typing.Any
     assert cs.ArrheniusSpec.model_fields["tested_range"].annotation == (list[typing.Any] | None)
     for path in CHECKED_OUTSIDE_THE_MODEL:
-        case = next(c for c in CASES if c is FULL)
-        out.append((case, path, "area" if path[-1] == "area" else "temperature"))
+        case = SUNNY if path[0] == "sun" else FULL
+        out.append((case, path, "area" if path[-1] in ("area", "exposed_area") else "temperature"))
     return out
 
 

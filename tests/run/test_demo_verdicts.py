@@ -149,3 +149,20 @@ def test_example_case_shows_roles_class_1_and_review_for_its_steady_state():
     assert len(reasons) == 1 and "only 0.8 K below limit 'onset margin'" in reasons[0]
     [matrix] = [x for x in r["reasons"] if x.startswith("Runaway risk matrix")]
     assert "(low probability)" in matrix and "(medium severity)" in matrix
+
+
+def test_fw_d52_drum_in_the_sun_reaches_the_flash_point_the_shaded_drum_does_not():
+    # the same drum without the sun block (air cycle only) peaks at 32.6 degC; in the sun the sol-air rise of
+    # 10.68 K (by hand in tests/run/test_daily_cycle_run.py) takes it past the 38 degC flash point the first day
+    r = screen_demo("fw-d52-drum-yard.yaml")
+    assert r["verdict"] == "review"
+    flash = r["limits"][0]
+    assert flash["reached"] and flash["time_s"] < 24 * 3600.0
+    assert r["daily_cycle"]["start_time_basis"] == "the worst of 24 hourly starts"
+    text = (DEMO / "fw-d52-drum-yard.yaml").read_text(encoding="utf-8")
+    shaded_text = text[:text.index("sun:")] + text[text.index("limits:"):]
+    loaded = load_case_bytes(shaded_text.encode(), "yaml")
+    shaded = screen_prepared(prepare_case(loaded.spec), loaded.input_hash)
+    assert not shaded["limits"][0]["reached"]
+    assert r["peak_temperature_K"] - shaded["peak_temperature_K"] > 4.0
+    assert any("sunlit side" in w for w in r["warnings"])

@@ -314,3 +314,18 @@ def test_insulated_unstirred_package_is_adiabatic_in_the_trials():
     data["heat_loss"]["coefficient"] = "0 W/(m^2*K)"
     prepared = prepared_of(data)
     assert package_at(prepared.model, 300.0).surface_coefficient == 0.0
+
+
+def test_sadt_of_a_package_in_the_sun_is_that_of_the_package_in_a_constant_ambient():
+    # the SADT is defined at a constant ambient (UN test series H, from memory): a daily cycle and the sun of the
+    # storage case do not enter the 7-day trials (they once triggered every step through the sol-air boundary);
+    # the control temperature is then compared with the daily maximum of the effective ambient
+    plain = screen(demo("fw-s17-powder-drums.yaml"), rules=True)
+    data = demo("fw-s17-powder-drums.yaml")
+    data["heat_loss"]["daily_range"] = "12 K"
+    data["sun"] = {"peak_irradiance": "850 W/m^2", "absorptivity": 0.7, "exposed_area": "projected",
+                   "day_length": "13 h"}
+    sunny = screen(data, rules=True)
+    assert sunny["sadt_K"] == plain["sadt_K"] == pytest.approx(348.15)  # 75 degC, as above
+    gap = sunny["control_temperature_K"] - sunny["criteria_ambient_K"]
+    assert any(f"{gap:.1f} K below the package's control temperature" in x for x in sunny["reasons"])

@@ -27,7 +27,8 @@ pytest.importorskip("fastapi")
 SDE = "1767225600"  # 2026-01-01 00:00:00 UTC: fixed memo date
 YAML = {"Content-Type": "application/yaml"}
 DEMO_CASES = ["fw-t204-hold-tank.yaml", "fw-r301-reactor.yaml", "fw-s17-powder-drums.yaml",
-              "fw-t410-fire-water-tank.yaml", "fw-v110-solvent-receiver.yaml", "example_case.yaml"]
+              "fw-t410-fire-water-tank.yaml", "fw-v110-solvent-receiver.yaml", "example_case.yaml",
+              "fw-d52-drum-yard.yaml"]
 BAD_CASE = """id: BAD-1
 vessel: {shape: vertical-cylinder, diameter: 2 m}
 contents:

@@ -105,6 +105,30 @@ def test_temperature_history_chart_is_in_the_rendered_dom(server, browser, shots
     _full_page_shot(browser, shots / "workbench-result.png")
 
 
+def test_daily_cycle_history_is_drawn(server, browser, shots):
+    """FW-D52 (drums in the summer sun): the chart draws the whole history from the chosen start time of day, the
+    daily peaks show in its plotted points, and the key numbers say which temperatures are daily means."""
+    _screen_demo(browser, server, "fw-d52-drum-yard")
+    svg = _wait(browser, (By.CSS_SELECTOR, "svg#history-chart"))
+    assert svg.is_displayed()
+    points = browser.find_element(By.CSS_SELECTOR, "#history-chart polyline.series").get_attribute("points").split()
+    rows = browser.find_elements(By.CSS_SELECTOR, "#history-points tr")
+    assert len(rows) - 1 == len(points) >= 400
+    cells = [[c.get_attribute("textContent") for c in r.find_elements(By.TAG_NAME, "td")] for r in rows[1:]]
+    hours, temps = [float(c[0]) for c in cells], [float(c[1]) for c in cells]  # in a closed <details>: textContent
+    assert hours[0] == 0.0 and hours[-1] == pytest.approx(72.0)  # the 3 d horizon, from the start
+    # one afternoon peak a day over the 3 days (the air and the sun), the highest being the reported peak
+    peaks = [i for i in range(1, len(temps) - 1) if temps[i] > temps[i - 1] and temps[i] >= temps[i + 1]]
+    assert len(peaks) == 3
+    marks = [m.get_attribute("textContent") for m in browser.find_elements(By.CSS_SELECTOR, "#history-chart line.mark")]
+    assert any(m.startswith("flash point of the blend 38.0") for m in marks)
+    page = browser.find_element(By.TAG_NAME, "main").text
+    assert "Ambient temperature (daily mean)" in page and "Steady temperature (daily mean)" in page
+    assert "Effective ambient, daily maximum" in page
+    assert "not shown to be a bound" in page  # UA = 0 is no bound: the drum starts below the sunny afternoon
+    _full_page_shot(browser, shots / "workbench-daily-cycle.png")
+
+
 def test_edit_and_screen_again_then_compare(server, browser, shots):
     first = _screen_demo(browser, server, "fw-t204-hold-tank")
     first_id = first.rstrip("/").split("/")[-1].split("?")[0]
