@@ -433,15 +433,22 @@ def _arrhenius_source(s: ArrheniusSpec, index: int, assumptions: list[str]):
         q0 = s.initial_specific_power.si
     else:
         q0 = s.initial_specific_power.si / af ** s.order  # the rate at zero conversion
-    gas = s.gas_generating
-    if gas is None:
-        gas = role == "decomposition"
-        if gas:
-            assumptions.append(f"{name}: gas_generating is not stated, so the decomposition is taken to make "
-                               f"permanent gas (conservative: no credit for boiling, and the gas pressurises a "
-                               f"closed vessel or package).")
+    gas = _gas_generating(s, role, name, assumptions)
     return m.ArrheniusSource(q0, s.reference_temperature.si, s.activation_energy.si, float(s.order), dh, af, gas,
                              _tested_range(s), role, name)
+
+
+def _gas_generating(s, role: str, name: str, assumptions: list[str]) -> bool:
+    """Whether a temperature-dependent source makes permanent gas: as stated, else true for a decomposition
+    (conservative, said among the assumptions)."""
+    if s.gas_generating is not None:
+        return s.gas_generating
+    if role == "decomposition":
+        assumptions.append(f"{name}: gas_generating is not stated, so the decomposition is taken to make "
+                           f"permanent gas (conservative: no credit for boiling, and the gas pressurises a "
+                           f"closed vessel or package).")
+        return True
+    return False
 
 
 def _autocatalytic_source(s: AutocatalyticSpec, index: int, assumptions: list[str]) -> m.ArrheniusSource:
@@ -457,13 +464,7 @@ def _autocatalytic_source(s: AutocatalyticSpec, index: int, assumptions: list[st
     if role == "synthesis" and s.initial_conversion is None:
         assumptions.append(f"{name}: the whole heat of reaction (100 %) is taken as accumulated when cooling fails "
                            f"(conservative).")
-    gas = s.gas_generating
-    if gas is None:
-        gas = role == "decomposition"
-        if gas:
-            assumptions.append(f"{name}: gas_generating is not stated, so the decomposition is taken to make "
-                               f"permanent gas (conservative: no credit for boiling, and the gas pressurises a "
-                               f"closed vessel or package).")
+    gas = _gas_generating(s, role, name, assumptions)
     return m.ArrheniusSource(dh * s.rate_constant.si, s.reference_temperature.si, s.activation_energy.si,
                              float(s.order), dh, af, gas, _tested_range(s), role, name,
                              autocatalytic_order=float(s.autocatalytic_order), initiation=float(s.initiation))
