@@ -52,17 +52,8 @@ from screening.register.reading import Column
 from screening.register.rows import _NUMBER_ONLY, _cell_value
 from screening.register.validation import _is_absolute_temperature
 from screening.register.vectorised import run_engine
-from screening.run.closed_form_case import ClosedFormValues
-from screening.run.warnings import (
-    ADIABATIC_WARNING,
-    MARGIN_NOTE_ASSUMED,
-    biot_and_validity,
-    case_assumptions,
-    limit_at_start_warning,
-    response_beyond_horizon_warning,
-    short_horizon_warning,
-    still_rising_warning,
-)
+from screening.run.closed_form_group import ClosedFormGroup, ClosedFormWriter, GroupValues
+from screening.run.warnings import biot_and_validity, case_assumptions
 
 #: Quantity paths a uniform group may vary per row (list indices are filled in by the plan).
 VARYING_PATHS = ("contents.mass", "contents.specific_heat", "contents.initial_temperature",
@@ -77,9 +68,6 @@ VARYING_KEYS = frozenset({
     "horizon_s", "heat_capacity_J_per_K", "ua_W_per_K", "limit_exceeded_at_start", "assumptions", "inputs", "units",
     "input_hash", "geometry"})
 
-#: Raise instead of falling back when a group's self-check fails (the tests set this).
-STRICT_SELF_CHECK = False
-
 #: Quantity paths a group of tanks given by geometry may also vary (path -> kind).
 GEOMETRY_PATHS = {("vessel", "diameter"): "diameter", ("vessel", "length"): "length", ("vessel", "width"): "width",
                   ("vessel", "height"): "height", ("vessel", "crown_radius"): "crown_radius",
@@ -90,10 +78,6 @@ GEOMETRY_PATHS = {("vessel", "diameter"): "diameter", ("vessel", "length"): "len
 #: Model slots (screening.case.paths) a uniform group may vary, column by column.
 _SCALAR_KINDS = ("mass", "cp", "T0", "Ta", "ua", "H", "response")
 _COLUMN_KINDS = frozenset(_SCALAR_KINDS + ("limit", "const", "dpower", "dtau", "dhalf"))
-
-
-class SelfCheckError(AssertionError):
-    """The columnar result of a representative differs from its general-path result."""
 
 
 @dataclass
@@ -229,12 +213,15 @@ def screen_group(rep, rep_index: int, rows: list[list[str]], members: list[int],
                  row_hash, rep_result_of) -> GroupResults:
     """Screen ``members`` (row indices into ``rows``) of a uniform group at once.
 
-    ``rep`` is the representative's PreparedCase (row ``rep_index``); ``row_hash(cells)`` gives a row's
-    input hash and ``rep_result_of(values)`` the representative's public result from the general path
-    for the given ClosedFormValues (the self-check).
+    ``rep`` is the representative's PreparedCase (row ``rep_index``, screened on its own); ``row_hash(cells)``
+    gives a row's input hash and ``rep_result_of(None)`` the representative's public result (the template of
+    the keys no row varies). Each row's closed-form keys are written by
+    :class:`screening.run.closed_form_group.ClosedFormWriter`, the writer of the one-case path.
     """
-    idx = [rep_index] + list(members)  # the representative first: it is rebuilt for the self-check
+    idx = list(members)
     n = len(idx)
+    if n == 0:
+        return GroupResults({}, [])
     ok = np.ones(n, dtype=bool)
     parsed = {}
     for v in plan:
@@ -246,15 +233,11 @@ def screen_group(rep, rep_index: int, rows: list[list[str]], members: list[int],
             si, texts, sources, good = _parse_column(v, cells)
             parsed[id(v)] = (si, texts, sources)
         ok &= np.asarray(good, dtype=bool)
-    if not ok[0]:
-        return GroupResults({}, list(members))
     cols = _model_columns(rep, plan, parsed, n)
     tank = None
     if rep.spec.vessel is not None:
         tank = _TankColumns(rep, plan, parsed, cols, n)
         ok &= tank.ok
-        if not ok[0]:
-            return GroupResults({}, list(members))
 
     m = rep.model
     nl = len(m.limits)
@@ -274,75 +257,42 @@ def screen_group(rep, rep_index: int, rows: list[list[str]], members: list[int],
     G_ad, Q0_ad = conductance_and_drive(np.zeros(n), cols["Ta"], p0)
     engine_ok, times, summary, ad_times = run_engine(C, G, Q0, G_ad, Q0_ad, cols["T0"], P, b, L, cols["H"], nl)
     ok &= engine_ok
-    if not ok[0]:
+    if not ok.any():
         return GroupResults({}, list(members))
-    numbers = _GroupNumbers(rep, cols, C, G, Q0, times[:, :nl], summary, ad_times)
-    reference = rep_result_of(numbers.values_of(0))
-    builder = _RowBuilder(rep, plan, parsed, numbers, dict(reference), tank)
-    mine = builder.result(0, row_hash(rows[rep_index]))
-    reference["input_hash"] = mine["input_hash"]
-    if mine != reference:
-        if STRICT_SELF_CHECK:
-            diff = sorted(k for k in set(mine) | set(reference) if mine.get(k) != reference.get(k))
-            raise SelfCheckError(f"columnar and general results of the representative differ in {diff}")
-        return GroupResults({}, list(members))
+    group = ClosedFormGroup(C, G, Q0, Q0, cols["T0"], cols["T0"], cols["Ta"], cols["ua"], cols["H"],
+                            cols["dpower"], cols["dtau"], cols["limit"], cols["response"])
+    values = GroupValues(times[:, :nl], ad_times, summary.peak_temperature, summary.peak_time,
+                         summary.end_temperature, summary.end_rate)
+    template = rep_result_of(None)
+    rows_out = _RowInputs(rep, plan, parsed, n)
+    writer = ClosedFormWriter(rep, group, values, rows_out.units)
+    extra = {"warnings": []}
+    biot_and_validity(rep, extra)  # depends on nothing a row varies here
+    tail_warnings = extra["warnings"]
+    assumptions = extra["assumptions"] + case_assumptions(rep)
+    texts = [(kind, parsed[id(v)][0]) for kind in ("id", "title") for v in plan
+             if v.marker is None and v.kind == kind]
     results, left = {}, []
     for r, good in enumerate(ok.tolist()):
-        if r == 0:
-            continue
         i = idx[r]
-        if good:
-            results[i] = builder.result(r, row_hash(rows[i]))
-        else:
+        if not good:
             left.append(i)
-    return GroupResults(results, left, builder.template)
-
-
-def _nullable(a: np.ndarray) -> list:
-    """Python floats, None where NaN (not reached / not defined)."""
-    out = a.astype(object)
-    out[np.isnan(a)] = None
-    return out.tolist()
-
-
-class _GroupNumbers:
-    """Per-row numbers of a group as Python lists, computed as screen_closed_form computes them."""
-
-    def __init__(self, rep, cols: dict, C, G, Q0, times, summary, ad_times):
-        m = rep.model
-        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-            tau = C / G
-            steady_lossy = Q0 / G
-            pa = np.zeros(len(C))
-            for j in range(len(m.decaying_sources)):
-                pa = pa + cols["dpower"][j] * cols["dtau"][j]
-            steady_adiabatic = cols["T0"] + pa / C
-            rise = pa / C
-        tau = np.where((G > 0) & np.isfinite(tau), tau, np.nan)
-        steady = np.where(G > 0, np.where(np.isfinite(steady_lossy), steady_lossy, np.nan),
-                          np.where(Q0 == 0, steady_adiabatic, np.nan))
-        self.tau, self.steady = _nullable(tau), _nullable(steady)
-        self.C, self.rise = C.tolist(), rise.tolist()
-        self.T0, self.Ta, self.ua, self.H = (cols[k].tolist() for k in ("T0", "Ta", "ua", "H"))
-        self.peak_T, self.peak_t = summary.peak_temperature.tolist(), summary.peak_time.tolist()
-        self.end_T, self.end_rate = summary.end_temperature.tolist(), summary.end_rate.tolist()
-        self.times, self.ad_times = _nullable(times), _nullable(ad_times)
-        self.limit_T = np.stack(cols["limit"], axis=1).tolist() if cols["limit"] else [[]] * len(C)
-        self.response = cols["response"].tolist() if cols["response"] is not None else [None] * len(C)
-        detection = rep.detection_delay if rep.detection_delay is not None else 0.0
-        self.detection = detection
-        # rows that need a warning text (the same conditions as screen_closed_form / detection_and_recovery)
-        with np.errstate(invalid="ignore"):
-            flags = (np.isnan(tau) | ~(cols["H"] < tau)) & ~(summary.end_rate > 0) & ~(G == 0) \
-                & ~(times == 0.0).any(axis=1)
-            if cols["response"] is not None:
-                flags &= ~(cols["H"] < cols["response"] + (detection or 0.0))
-        self.plain = flags.tolist()  # True: no closed-form warning for this row (the rising check needs a
-        #                               limit not reached, so end_rate > 0 alone sends a row to the full test)
-
-    def values_of(self, r: int):
-        return ClosedFormValues(self.times[r], None, None, (self.peak_T[r], self.peak_t[r]), self.end_T[r],
-                                self.end_rate[r], self.ad_times[r])
+            continue
+        out = dict(template)
+        for kind, values_ in texts:
+            out[kind] = values_[r]
+        writer.write(r, out)
+        out.update(writer.case_keys(r, out["limits"]))
+        out["warnings"] = (list(rep.warnings) if tank is None else tank.warnings(r)) + out["warnings"] \
+            + tail_warnings
+        out["assumptions"] = list(assumptions)
+        out["inputs"] = rows_out.inputs(r)
+        out["units"] = {"temperature": rows_out.units[r]}
+        out["input_hash"] = row_hash(rows[i])
+        if tank is not None:
+            out["geometry"] = tank.geometry(r)
+        results[i] = out
+    return GroupResults(results, left, template)
 
 
 def _model_columns(rep, plan: list[_Varying], parsed: dict, n: int) -> dict:
@@ -438,20 +388,11 @@ class _TankColumns:
         return out
 
 
-class _RowBuilder:
-    """Writes one row's numbers into a copy of the representative's result object."""
+class _RowInputs:
+    """The register-specific part of each row's result: its inputs list entries and its display unit."""
 
-    def __init__(self, rep, plan: list[_Varying], parsed: dict, numbers: _GroupNumbers, template: dict,
-                 tank: _TankColumns | None = None):
+    def __init__(self, rep, plan: list[_Varying], parsed: dict, n: int):
         self.rep = rep
-        self.tank = tank
-        self.numbers = numbers
-        self.names = [lim.name for lim in rep.model.limits]
-        extra = {"warnings": []}
-        biot_and_validity(rep, extra)  # depends on nothing a row varies here
-        self.tail_warnings = extra["warnings"]
-        self.assumptions = extra["assumptions"] + case_assumptions(rep)
-        self.margin_note = MARGIN_NOTE_ASSUMED if rep.detection_delay is None else None  # no alarm in a group
         positions = {item["field"]: p for p, item in enumerate(rep.inputs)}
         self.input_slots = []  # (position, field, SI unit, SI values, texts, sources) of each varying input
         for v in plan:
@@ -463,66 +404,20 @@ class _RowBuilder:
                          if item["unit_si"] == "K" and _is_absolute_temperature(item["field"])]
         varying_texts = {pos: texts for pos, _, _, _, texts, _ in self.input_slots}
         # the display unit: from the unit words of the absolute temperatures (fixed unless a cell gives its own)
-        self.unit_words = [(varying_texts.get(p), rep.inputs[p]["text"].split(None, 1)[-1]) for p in abs_positions]
-        self.display_unit = display_unit_from_texts
-        self.unit_cache: dict = {}
-        self.texts = [(kind, parsed[id(v)][0]) for kind in ("id", "title") for v in plan
-                      if v.marker is None and v.kind == kind]
-        self.template = template
+        unit_words = [(varying_texts.get(p), rep.inputs[p]["text"].split(None, 1)[-1]) for p in abs_positions]
+        cache: dict = {}
+        self.units = []
+        for r in range(n):
+            key = tuple(fixed if texts is None or not texts[r] else texts[r].split(None, 1)[-1]  # "": a refused
+                        for texts, fixed in unit_words)                                             # cell
+            unit = cache.get(key)
+            if unit is None:
+                unit = cache[key] = display_unit_from_texts(["0 " + t for t in key])
+            self.units.append(unit)
 
-    def _unit(self, r: int) -> str:
-        key = tuple(fixed if texts is None else texts[r].split(None, 1)[-1] for texts, fixed in self.unit_words)
-        unit = self.unit_cache.get(key)
-        if unit is None:
-            unit = self.unit_cache[key] = self.display_unit(["0 " + t for t in key])
-        return unit
-
-    def result(self, r: int, input_hash: str) -> dict:
-        rep, g = self.rep, self.numbers
-        inputs = list(rep.inputs)
+    def inputs(self, r: int) -> list[dict]:
+        inputs = list(self.rep.inputs)
         for pos, field, unit_si, si, texts, sources in self.input_slots:
             inputs[pos] = {"field": field, "text": texts[r], "value_si": si[r], "unit_si": unit_si,
                            "source": sources[r] if sources is not None else None}
-        unit = self._unit(r)
-        response, detection = g.response[r], g.detection
-        times = g.times[r]
-        note = self.margin_note
-        limit_rows = [{"name": name, "temperature_K": lt, "time_s": t, "reached": t is not None,
-                       "margin_s": t - (detection + response) if t is not None and response is not None else None,
-                       "margin_note": note if t is not None and response is not None else None}
-                      for name, lt, t in zip(self.names, g.limit_T[r], times)]
-        warnings = list(rep.warnings) if self.tank is None else self.tank.warnings(r)
-        if not g.plain[r]:
-            warnings += self._warnings(r, limit_rows, unit)
-        warnings += self.tail_warnings
-        out = dict(self.template)
-        for kind, values in self.texts:
-            out[kind] = values[r]
-        out.update(time_constant_s=g.tau[r], peak_temperature_K=g.peak_T[r], peak_time_s=g.peak_t[r],
-                   steady_temperature_K=g.steady[r], limits=limit_rows,
-                   adiabatic={"limits": [{"name": name, "time_s": t} for name, t in zip(self.names, g.ad_times[r])],
-                              "temperature_rise_K": g.rise[r]},
-                   warnings=warnings, detection_time_s=detection, response_time_s=response,
-                   initial_temperature_K=g.T0[r], ambient_temperature_K=g.Ta[r], horizon_s=g.H[r],
-                   heat_capacity_J_per_K=g.C[r], ua_W_per_K=g.ua[r], limit_exceeded_at_start=0.0 in times,
-                   assumptions=list(self.assumptions), inputs=inputs, units={"temperature": unit},
-                   input_hash=input_hash)
-        if self.tank is not None:
-            out["geometry"] = self.tank.geometry(r)
-        return out
-
-    def _warnings(self, r: int, limit_rows: list, unit: str) -> list[str]:
-        """The closed-form warnings of one row, in screen_closed_form's order and with its texts."""
-        g = self.numbers
-        H, tau, response = g.H[r], g.tau[r], g.response[r]
-        out = [limit_at_start_warning(row["name"], row["temperature_K"], g.T0[r], unit)
-               for row in limit_rows if row["time_s"] == 0.0]
-        if tau is not None and H < tau:
-            out.append(short_horizon_warning(H, tau))
-        if g.end_rate[r] > 0 and any(not row["reached"] for row in limit_rows):
-            out.append(still_rising_warning(g.end_T[r], g.end_rate[r], g.steady[r], unit))
-        if g.ua[r] + 0.0 == 0:
-            out.append(ADIABATIC_WARNING)
-        if response is not None and H < response + (g.detection or 0.0):
-            out.append(response_beyond_horizon_warning(H))
-        return out
+        return inputs

@@ -12,22 +12,14 @@ import numpy as np
 
 from screening.case.prepare import PreparedCase
 from screening.core.closed_form_history import balance_of, heat_rates, temperature
-from screening.core.daily_cycle import mean_rise
-from screening.core.model import ScreeningModel
 from screening.core.root_finding import brent_root as brentq
-from screening.core.terms import constant_power, model_start_temperature, model_terms
+from screening.core.terms import constant_power
 from screening.core.time_to_limit import first_crossing, history_shape
 from screening.result import HISTORY_POINTS
-from screening.run.recovery import detection_and_recovery
+from screening.run.closed_form_group import ClosedFormGroup, ClosedFormWriter, GroupValues
 from screening.run.daily_cycle import climbing_peaks_warning
-from screening.run.warnings import (
-    ADIABATIC_WARNING,
-    _fmt_temp,
-    _hours,
-    limit_at_start_warning,
-    short_horizon_warning,
-    still_rising_warning,
-)
+from screening.run.recovery import recovery_path
+from screening.run.warnings import _hours
 
 
 @dataclass
@@ -73,103 +65,34 @@ def screen_closed_form(prepared: PreparedCase, values: ClosedFormValues | None =
     """Result for a case whose sources are constant, decaying, fire or heating media.
 
     ``values`` may come from the vectorised engine (registers); by default the
-    scalar engine computes them.
+    scalar engine computes them. The keys are written by
+    :class:`screening.run.closed_form_group.ClosedFormWriter` for a group of one, the writer a
+    register group of rows uses.
     """
     model = prepared.model
     unit = prepared.display_temperature_unit
-    warnings: list[str] = []
     H = model.horizon
     needs_balance = values is None or with_history or model.boiling is not None or prepared.recovery is not None
     balance = balance_of(model) if needs_balance else None
     if values is None:
         values = closed_form_values(prepared)
-    G, steady = _conductance_and_steady(model)
-    C = model.heat_capacity
-    tau = C / G if G > 0 and math.isfinite(C / G) else None
-
-    boiling_result = None
-    boil = model.boiling
-    boil_credit = boil is not None and boil.venting == "open"
-    t_boil = values.boil_time
-    limit_rows = []
-    for lim, t in zip(model.limits, values.limit_times):
-        if boil_credit and t_boil is not None and lim.temperature > boil.boiling_point:
-            t = None  # held at the boiling point while liquid remains
-        limit_rows.append({"name": lim.name, "temperature_K": lim.temperature, "time_s": t, "reached": t is not None})
-        if t == 0.0:
-            warnings.append(limit_at_start_warning(lim.name, lim.temperature, model_start_temperature(model), unit))
-    peak_T, peak_t = values.peak
-    end_rate = values.end_rate
-    if boil is not None:
-        boiling_result, boil_warnings, boil_peak = boiling_closed_form(model, balance, t_boil, boil_credit, unit)
-        warnings.extend(boil_warnings)
-        if boil_peak is not None:
-            peak_T, peak_t = boil_peak
-            end_rate = 0.0 if boiling_result.get("_boiling_at_end") else end_rate
-        boiling_result.pop("_boiling_at_end", None)
-        if boil_credit and t_boil is not None:
-            for lim in model.limits:
-                if lim.temperature > boil.boiling_point:
-                    warnings.append(f"Limit '{lim.name}' ({_fmt_temp(lim.temperature, unit)}) lies above the boiling "
-                                    f"point ({_fmt_temp(boil.boiling_point, unit)}): it is not reached while liquid "
-                                    f"remains, on credit for boiling in an open vessel. That credit is not "
-                                    f"conservative if the vent is undersized or blocked.")
-
-    # adiabatic bound (UA = 0; heating media stay on)
-    adiabatic = {
-        "limits": [{"name": lim.name, "time_s": t} for lim, t in zip(model.limits, values.adiabatic_limit_times)],
-        "temperature_rise_K": sum(s.power * s.time_constant for s in model.decaying_sources) / C,
-    }
-
-    if tau is not None and H < tau:
-        warnings.append(short_horizon_warning(H, tau))
-    if model.daily_cycle is not None and G > 0:  # rising or falling at the horizon is the time of day
-        if any(not r["reached"] for r in limit_rows):
-            climbing = climbing_peaks_warning(model, balance if balance is not None else balance_of(model), peak_T,
-                                              unit)
-            if climbing:
-                warnings.append(climbing)
-    elif end_rate > 0 and any(not r["reached"] for r in limit_rows):
-        warnings.append(still_rising_warning(values.end_temperature, end_rate, steady, unit))
-    if G == 0:
-        warnings.append(ADIABATIC_WARNING)
-
-    result = {
-        "time_constant_s": tau,
-        "peak_temperature_K": peak_T,
-        "peak_time_s": peak_t,
-        "steady_temperature_K": steady,
-        "limits": limit_rows,
-        "adiabatic": adiabatic,
-        "boiling": boiling_result,
-        "warnings": warnings,
-        "method": "closed-form",
-    }
-    detection_and_recovery(prepared, result, balance=balance, alarm_time=values.alarm_time)
+    boiling = cycle_peaks = None
+    if model.boiling is not None:
+        def boiling(r, t_boil, credit, unit_):
+            return boiling_closed_form(model, balance, t_boil, credit, unit_)
+    if model.daily_cycle is not None:
+        def cycle_peaks(r, peak, unit_):
+            return climbing_peaks_warning(model, balance if balance is not None else balance_of(model), peak, unit_)
+    writer = ClosedFormWriter(prepared, ClosedFormGroup.of_case(prepared), GroupValues.of_one(values), unit,
+                              boiling=boiling, cycle_peaks=cycle_peaks)
+    result = writer.write(0, {})
+    recovery_path(prepared, result, balance, result["detection_time_s"])
     if with_history:
         shape = history_shape(balance, H)
-        result["_history"] = closed_form_history_arrays(model, balance, H, shape, limit_rows,
-                                                        t_boil if boil_credit else None)
+        boil_credit = model.boiling is not None and model.boiling.venting == "open"
+        result["_history"] = closed_form_history_arrays(model, balance, H, shape, result["limits"],
+                                                        values.boil_time if boil_credit else None)
     return result
-
-
-def _conductance_and_steady(model: ScreeningModel) -> tuple[float, float | None]:
-    """G = UA + sum of media ua (W/K) and the settling temperature (K, or None), in plain floats.
-
-    Same formulas as :func:`screening.core.closed_form_history.steady_temperature`: Q0 / G with heat loss;
-    T0 + sum P_i a_i / C when adiabatic with no constant drive; None otherwise.
-    """
-    terms = model_terms(model)
-    G, Q0 = terms.conductance, terms.drive
-    if model.daily_cycle is not None and G > 0:  # the daily mean of the periodic state (the sun's mean drive)
-        Q0 = Q0 + model.ua * mean_rise(model.daily_cycle)
-    if G > 0:
-        steady = Q0 / G
-        return G, steady if math.isfinite(steady) else None
-    if Q0 == 0:
-        return G, model_start_temperature(model) + sum(s.power * s.time_constant for s in model.decaying_sources) / \
-            model.heat_capacity
-    return G, None
 
 
 def closed_form_history_arrays(model, balance, H, shape, limit_rows, t_boil=None) -> dict:

@@ -1,0 +1,256 @@
+"""The result of closed-form cases, written from arrays: one case is a group of one.
+
+A group is n closed-form cases of one structure (the same limits by name, the same kinds of
+sources, the same detection basis): its SI parameters are arrays (:class:`ClosedFormGroup`),
+an engine gives the turning points, peaks and first crossings as arrays
+(:class:`GroupValues`: the scalar engine for one case, the vectorised one for a register
+group), and :class:`ClosedFormWriter` computes the per-row numbers on the arrays (time
+constant, steady temperature, adiabatic rise) and writes each row's keys: the limit rows with
+their margins, the adiabatic bound, the warnings in their order (texts from
+:mod:`screening.run.warnings`), the detection keys and the case keys of
+:func:`case_keys`.
+
+:func:`screening.run.closed_form_case.screen_closed_form` calls it with a group of one, the
+register's uniform groups (:mod:`screening.register.columns`) with their column arrays, so the
+two cannot differ. Pieces that stay scalar per row (the boiling phase, the daily cycle's
+climbing peaks) are callables the one-case path passes in; a register group does not take
+rows that need them.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Callable
+
+import numpy as np
+
+from screening.case.prepare import PreparedCase
+from screening.core.daily_cycle import mean_rise
+from screening.core.terms import model_start_temperature, model_terms
+from screening.run.recovery import detection_time, write_detection
+from screening.run.warnings import (
+    ADIABATIC_WARNING,
+    above_boiling_point_warning,
+    detection_basis,
+    limit_at_start_warning,
+    short_horizon_warning,
+    still_rising_warning,
+)
+
+
+@dataclass
+class ClosedFormGroup:
+    """SI parameters of n closed-form cases of one structure (float arrays of length n).
+
+    heat_capacity : C = m c_p + C_wall, J/K
+    conductance, drive : G = UA + sum ua_k (W/K) and Q0 = UA Ta + sum ua_k Tm_k + P_const (W)
+    steady_drive : the drive the steady temperature is taken from (Q0 plus the sun's daily mean with a
+        daily cycle), W
+    start_temperature : where the history starts (the initial temperature plus heat released at t = 0), K
+    initial_temperature, ambient_temperature, ua, horizon : K, K, W/K, s (the case keys)
+    decaying_power, decaying_time : one array per decaying source, W and s
+    limit_temperature : one array per limit, K
+    response_time : s, or None when the cases give none
+    boiling_point : K, or None without boiling data
+    """
+
+    heat_capacity: np.ndarray
+    conductance: np.ndarray
+    drive: np.ndarray
+    steady_drive: np.ndarray
+    start_temperature: np.ndarray
+    initial_temperature: np.ndarray
+    ambient_temperature: np.ndarray
+    ua: np.ndarray
+    horizon: np.ndarray
+    decaying_power: list
+    decaying_time: list
+    limit_temperature: list
+    response_time: np.ndarray | None = None
+    boiling_point: np.ndarray | None = None
+
+    @classmethod
+    def of_case(cls, prepared: PreparedCase) -> "ClosedFormGroup":
+        """A group of one: the case's model as arrays of length one."""
+        m = prepared.model
+        terms = model_terms(m)
+        one = lambda x: np.array([x], dtype=float)  # noqa: E731
+        steady_drive = terms.drive
+        if m.daily_cycle is not None and terms.conductance > 0:  # the daily mean of the periodic state
+            steady_drive = terms.drive + m.ua * mean_rise(m.daily_cycle)
+        return cls(one(terms.heat_capacity), one(terms.conductance), one(terms.drive), one(steady_drive),
+                   one(model_start_temperature(m)), one(m.initial_temperature), one(m.ambient_temperature),
+                   one(m.ua), one(m.horizon), [one(s.power) for s in m.decaying_sources],
+                   [one(s.time_constant) for s in m.decaying_sources], [one(lim.temperature) for lim in m.limits],
+                   None if prepared.response_time is None else one(prepared.response_time),
+                   None if m.boiling is None else one(m.boiling.boiling_point))
+
+
+@dataclass
+class GroupValues:
+    """What a time-to-limit engine gives for a group (NaN: not reached, or no such limit).
+
+    limit_times, adiabatic_limit_times : (n, limits) first crossings with heat loss and without (UA = 0), s
+    boil_time, alarm_time : (n,) first crossings of the boiling point and the alarm temperature, s
+    peak_temperature, peak_time : (n,) within the horizon, K and s
+    end_temperature, end_rate : (n,) at the horizon, K and K/s
+    """
+
+    limit_times: np.ndarray
+    adiabatic_limit_times: np.ndarray
+    peak_temperature: np.ndarray
+    peak_time: np.ndarray
+    end_temperature: np.ndarray
+    end_rate: np.ndarray
+    boil_time: np.ndarray | None = None
+    alarm_time: np.ndarray | None = None
+
+    @classmethod
+    def of_one(cls, values) -> "GroupValues":
+        """A group of one from a :class:`screening.run.closed_form_case.ClosedFormValues`."""
+        row = lambda ts: np.array([[np.nan if t is None else t for t in ts]], dtype=float).reshape(1, len(ts))  # noqa
+        one = lambda x: np.array([np.nan if x is None else x], dtype=float)  # noqa: E731
+        return cls(row(values.limit_times), row(values.adiabatic_limit_times), one(values.peak[0]),
+                   one(values.peak[1]), one(values.end_temperature), one(values.end_rate), one(values.boil_time),
+                   one(values.alarm_time))
+
+
+def _nullable(a: np.ndarray) -> list:
+    """Python floats, None where NaN (not reached / not defined)."""
+    out = a.astype(object)
+    out[np.isnan(a)] = None
+    return out.tolist()
+
+
+def case_keys(initial_temperature: float, ambient_temperature: float, horizon: float, heat_capacity: float,
+              ua: float, limit_rows: list) -> dict:
+    """The case keys of a result, after its limit rows (every kind of case: the Arrhenius path too)."""
+    return {"initial_temperature_K": initial_temperature, "ambient_temperature_K": ambient_temperature,
+            "horizon_s": horizon, "heat_capacity_J_per_K": heat_capacity, "ua_W_per_K": ua,
+            "limit_exceeded_at_start": any(row["time_s"] == 0.0 for row in limit_rows)}
+
+
+#: The boiling phase of row r: (r, time to boil or None, credit, unit) -> (boiling keys, warnings, peak or None).
+BoilingPhase = Callable[[int, "float | None", bool, str], tuple]
+#: The climbing-peaks warning of row r with a daily cycle: (r, peak K, unit) -> text or None.
+CyclePeaks = Callable[[int, float, str], "str | None"]
+
+
+class ClosedFormWriter:
+    """Per-row numbers of a group on arrays, and each row's result keys written from them.
+
+    ``rep`` is a case of the group (its limit names, detection basis and delay, venting); ``units`` the
+    display temperature unit of each row (or one for all). ``boiling`` and ``cycle_peaks`` are the scalar
+    pieces of rows with boiling data or a daily cycle (the one-case path passes them).
+    """
+
+    def __init__(self, rep: PreparedCase, group: ClosedFormGroup, values: GroupValues, units,
+                 boiling: BoilingPhase | None = None, cycle_peaks: CyclePeaks | None = None):
+        model = rep.model
+        C, G, H = group.heat_capacity, group.conductance, group.horizon
+        n = len(C)
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            tau = C / G
+            steady_lossy = group.steady_drive / G
+            pa = np.zeros(n)
+            for P, a in zip(group.decaying_power, group.decaying_time):
+                pa = pa + P * a
+            rise = pa / C
+            steady_adiabatic = group.start_temperature + rise
+        tau = np.where((G > 0) & np.isfinite(tau), tau, np.nan)
+        steady = np.where(G > 0, np.where(np.isfinite(steady_lossy), steady_lossy, np.nan),
+                          np.where(group.drive == 0, steady_adiabatic, np.nan))
+        times = values.limit_times
+        self.tau, self.steady, self.rise = _nullable(tau), _nullable(steady), rise.tolist()
+        self.times, self.ad_times = _nullable(times), _nullable(values.adiabatic_limit_times)
+        self.peak_T, self.peak_t = values.peak_temperature.tolist(), values.peak_time.tolist()
+        self.end_T, self.end_rate = values.end_temperature.tolist(), values.end_rate.tolist()
+        self.G, self.H = G.tolist(), H.tolist()
+        self.start = group.start_temperature.tolist()
+        self.case = [a.tolist() for a in (group.initial_temperature, group.ambient_temperature, H, C, group.ua)]
+        self.limit_T = (np.stack(group.limit_temperature, axis=1).tolist() if group.limit_temperature
+                        else [[]] * n)
+        self.names = [lim.name for lim in model.limits]
+        self.units = [units] * n if isinstance(units, str) else list(units)
+        self.response = group.response_time.tolist() if group.response_time is not None else [None] * n
+        self.basis, self.note = detection_basis(rep)
+        self.delay = rep.detection_delay
+        alarm = values.alarm_time if self.basis == "alarm" and values.alarm_time is not None else None
+        self.alarm = _nullable(alarm) if alarm is not None else [None] * n
+        self.boiling, self.cycle_peaks = boiling, cycle_peaks
+        self.venting_open = model.boiling is not None and model.boiling.venting == "open"
+        boil_time = values.boil_time if (boiling is not None and values.boil_time is not None) else None
+        self.boil_time = _nullable(boil_time) if boil_time is not None else [None] * n
+        self.boiling_point = group.boiling_point.tolist() if group.boiling_point is not None else [None] * n
+        # rows that need no closed-form warning before the detection ones (the conditions of _warnings, on
+        # arrays; the rising check needs a limit not reached as well, so end_rate > 0 alone sends a row to it)
+        with np.errstate(invalid="ignore"):
+            plain = (np.isnan(tau) | ~(H < tau)) & ~(values.end_rate > 0) & ~(G == 0) & ~(times == 0.0).any(axis=1)
+        if boiling is not None or cycle_peaks is not None:
+            plain[:] = False
+        self.plain = plain.tolist()
+
+    def write(self, r: int, out: dict) -> dict:
+        """Row r's closed-form keys into ``out`` (in the order of the one-case result), then returned."""
+        names, times, unit = self.names, self.times[r], self.units[r]
+        warnings: list[str] = []
+        t_boil = self.boil_time[r]
+        credit = self.venting_open and t_boil is not None
+        if credit:  # held at the boiling point while liquid remains
+            Tb = self.boiling_point[r]
+            times = [None if lt > Tb else t for lt, t in zip(self.limit_T[r], times)]
+        limit_rows = [{"name": name, "temperature_K": lt, "time_s": t, "reached": t is not None}
+                      for name, lt, t in zip(names, self.limit_T[r], times)]
+        peak_T, peak_t, end_rate = self.peak_T[r], self.peak_t[r], self.end_rate[r]
+        boiling_keys = None
+        if not self.plain[r]:
+            warnings.extend(limit_at_start_warning(row["name"], row["temperature_K"], self.start[r], unit)
+                            for row in limit_rows if row["time_s"] == 0.0)
+            if self.boiling is not None:
+                boiling_keys, boil_warnings, boil_peak = self.boiling(r, t_boil, self.venting_open, unit)
+                warnings.extend(boil_warnings)
+                if boil_peak is not None:
+                    peak_T, peak_t = boil_peak
+                    end_rate = 0.0 if boiling_keys.get("_boiling_at_end") else end_rate
+                boiling_keys.pop("_boiling_at_end", None)
+                if credit:
+                    warnings.extend(above_boiling_point_warning(row["name"], row["temperature_K"], Tb, unit)
+                                    for row in limit_rows if row["temperature_K"] > Tb)
+            warnings.extend(self._warnings(r, limit_rows, peak_T, end_rate, unit))
+        out["time_constant_s"] = self.tau[r]
+        out["peak_temperature_K"] = peak_T
+        out["peak_time_s"] = peak_t
+        out["steady_temperature_K"] = self.steady[r]
+        out["limits"] = limit_rows
+        out["adiabatic"] = {"limits": [{"name": name, "time_s": t} for name, t in zip(names, self.ad_times[r])],
+                            "temperature_rise_K": self.rise[r]}
+        out["boiling"] = boiling_keys
+        out["warnings"] = warnings
+        out["method"] = "closed-form"
+        basis = self.basis
+        detection = self.alarm[r] if basis == "alarm" else detection_time(basis, self.delay, None)
+        write_detection(out, basis, self.note, detection, self.response[r], self.H[r])
+        out["recovery"] = None
+        return out
+
+    def _warnings(self, r: int, limit_rows: list, peak_T: float, end_rate: float, unit: str) -> list[str]:
+        """The short-horizon, still-rising (or climbing daily peaks) and adiabatic warnings of row r."""
+        out = []
+        H, tau, G = self.H[r], self.tau[r], self.G[r]
+        if tau is not None and H < tau:
+            out.append(short_horizon_warning(H, tau))
+        if self.cycle_peaks is not None and G > 0:  # rising or falling at the horizon is the time of day
+            if any(not row["reached"] for row in limit_rows):
+                climbing = self.cycle_peaks(r, peak_T, unit)
+                if climbing:
+                    out.append(climbing)
+        elif end_rate > 0 and any(not row["reached"] for row in limit_rows):
+            out.append(still_rising_warning(self.end_T[r], end_rate, self.steady[r], unit))
+        if G == 0:
+            out.append(ADIABATIC_WARNING)
+        return out
+
+    def case_keys(self, r: int, limit_rows: list) -> dict:
+        """Row r's :func:`case_keys`."""
+        T0, Ta, H, C, ua = (values[r] for values in self.case)
+        return case_keys(T0, Ta, H, C, ua, limit_rows)
+

@@ -1,0 +1,156 @@
+"""A row of a uniform register group equals ``heatscreen check --json`` of the same case written as a file.
+
+Rows of one shape are screened as a group on arrays (``register/columns.py``) and written by the
+closed-form writer of ``run/closed_form_group.py``, the same writer ``check`` uses for a group of one.
+Here each screened row is compared, every key, with ``check --json`` of the equivalent case file
+(the base case with the row's cells written in), on random registers of the simple shape (mass, UA
+and sources given) and of tanks given by geometry (every shape and head). The physics behind both
+is checked against outside references elsewhere: the closed form against scipy's ``solve_ivp`` and
+sympy (tests/run/test_closed_form.py, tests/core/test_time_to_limit_batch.py), the geometry against
+mpmath quadrature and ``fluids`` (tests/core). What this file pins down is that the register's array
+path and the one-case path write the same object.
+
+The register screens every closed-form row with the vectorised time-to-limit engine, ``check`` with the
+one-case engine, so their numbers agree to the engines' stated tolerance, not bit for bit: every float
+is compared at 1e-9 relative (tests/core/test_time_to_limit_batch.py: TIME_RTOL, the accuracy asked of
+the vectorised engine against the one-case engine; times also within 1e-12 of the horizon), the time of
+the peak at 1e-6 (a maximum is flat: the temperature is quadratic in time there, so its time is known
+only to about the square root of the rounding of the temperature); every other value (texts, flags,
+names, None) exactly.
+
+Keys that differ by design and are left out: ``input_hash`` (a register row hashes the base case and
+its cells, ``check`` the file), ``register_row`` and ``backend`` (register only), ``allowable_values``
+(``check`` only: the pipeline adds it for uncertain inputs; None here, the cases have none).
+"""
+from __future__ import annotations
+
+import copy
+import json
+import math
+import warnings
+from pathlib import Path
+
+import yaml
+from hypothesis import HealthCheck, given, settings
+from typer.testing import CliRunner
+
+import screening.register.chunks as chunks
+from screening.cli import app
+from test_register_columns import BASE, _run, _tank_base, registers, tank_registers
+
+REGISTER_ONLY = ("input_hash", "register_row", "backend", "allowable_values")
+
+
+def _same(a, b, key: str, horizon: float) -> bool:
+    """Equal values: floats within the engines' tolerance (module docstring), everything else exactly."""
+    if isinstance(a, float) and isinstance(b, float):
+        rel = 1e-6 if key == "peak_time_s" else 1e-9
+        return math.isclose(a, b, rel_tol=rel, abs_tol=1e-12 * horizon)
+    if isinstance(a, dict) and isinstance(b, dict):
+        return list(a) == list(b) and all(_same(a[k], b[k], k, horizon) for k in a)
+    if isinstance(a, list) and isinstance(b, list):
+        return len(a) == len(b) and all(_same(x, y, key, horizon) for x, y in zip(a, b))
+    return type(a) is type(b) and a == b
+
+
+def _is_number(cell: str) -> bool:
+    try:
+        float(cell)
+    except ValueError:
+        return False
+    return True
+
+
+def _row_case(base: dict, header: list[str], row: list[str]) -> dict:
+    """The case file equivalent of a register row: the base case with each filled cell written in (a plain
+    number with the header's unit, any other cell as written, as the register reads cells)."""
+    data = copy.deepcopy(base)
+    for head, cell in zip(header, row):
+        if cell == "":
+            continue
+        path, _, unit = head.partition(" [")
+        unit = unit.rstrip("]")
+        value = f"{cell.strip()} {unit}" if unit and _is_number(cell) else cell  # a cell's own unit wins
+        node = data
+        parts = [int(p) if p.isdigit() else p for p in path.split(".")]
+        for p in parts[:-1]:
+            node = node[p]
+        node[parts[-1]] = value
+    return data
+
+
+def _check_json(tmp: Path, case: dict) -> tuple[int, dict | None]:
+    path = tmp / "case.yaml"
+    path.write_text(yaml.safe_dump(case, sort_keys=False), encoding="utf-8")
+    out = CliRunner().invoke(app, ["check", "--json", str(path)])
+    if out.exit_code == 2:
+        return 2, out.output
+    return out.exit_code, json.loads(out.stdout)
+
+
+def _compare(tmp: Path, base: dict, header, rows, monkeypatch) -> tuple[int, int]:
+    """Run the register (counting the rows its groups take) and compare each row with check --json."""
+    tmp.mkdir(parents=True, exist_ok=True)
+    taken, calls = [], []
+    real = chunks.screen_group
+
+    def spy(*args, **kwargs):
+        got = real(*args, **kwargs)
+        taken.extend(got.results)
+        calls.append(1)
+        return got
+
+    with monkeypatch.context() as m:
+        m.setattr(chunks, "screen_group", spy)
+        summary, results, errors, _ = _run(tmp, header, rows, base, False, monkeypatch)
+    by_row = {r["register_row"]: r for r in results}
+    error_rows = {int(line.split(",", 1)[0]) for line in errors.splitlines()[1:] if line[:1].isdigit()}
+    for n, row in enumerate(rows, start=2):
+        code, single = _check_json(tmp, _row_case(base, header, row))
+        if code == 2:  # a case file check refuses: the register refuses the row too
+            assert n not in by_row and n in error_rows, (n, row, single)
+            continue
+        batch = by_row[n]
+        assert single["allowable_values"] is None
+        assert set(batch) - set(REGISTER_ONLY) == set(single) - set(REGISTER_ONLY)
+        for key in single:
+            if key not in REGISTER_ONLY:
+                assert _same(batch[key], single[key], key, single["horizon_s"]), (n, key, batch[key], single[key])
+        assert list(k for k in batch if k not in REGISTER_ONLY) == list(k for k in single if k not in REGISTER_ONLY)
+    return len(taken), len(calls)
+
+
+@settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(case=registers())
+def test_simple_register_rows_equal_check_json(tmp_path_factory, monkeypatch, case):
+    header, rows, with_detection = case
+    base = dict(BASE, detection={"delay": "15 min"}) if with_detection else BASE
+    _compare(tmp_path_factory.mktemp("simple"), base, header, rows, monkeypatch)
+
+
+@settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(case=tank_registers())
+def test_tank_register_rows_equal_check_json(tmp_path_factory, monkeypatch, case):
+    shape, heads, header, rows, area, amount = case
+    if amount != "fill" and "contents.fill" in header:  # the amount is given another way: no fill column
+        k = header.index("contents.fill")
+        header = header[:k] + header[k + 1:]
+        rows = [r[:k] + r[k + 1:] for r in rows]
+    base = _tank_base(shape, heads, area, amount)
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")  # no library warning on either path
+        _compare(tmp_path_factory.mktemp("tanks"), base, header, rows, monkeypatch)
+
+
+def test_group_rows_are_taken_and_equal_check(tmp_path, monkeypatch):
+    """A clean register of each shape goes the array path (all rows but each group's representative), and each row
+    still equals check --json."""
+    header = ["id", "contents.mass [t]", "heat_loss.ua [W/K]", "limits.0.temperature [degC]", "response_time [min]"]
+    rows = [[f"T-{i}", f"{1 + i}", f"{10 * i}", f"{30 + 3 * i}", f"{20 * i}"] for i in range(12)]
+    taken, groups = _compare(tmp_path / "simple", BASE, header, rows, monkeypatch)
+    assert groups >= 1 and taken == len(rows) - groups  # each group's representative is screened on its own
+    tank_header = ["id", "vessel.diameter [m]", "vessel.length [m]", "contents.fill"]
+    tank_rows = [[f"V-{i}", f"{1 + 0.2 * i:.3g}", f"{2 + 0.5 * i:.3g}", f"{0.05 + 0.09 * i:.3g}"] for i in range(12)]
+    base = _tank_base("horizontal-cylinder", "torispherical", "wetted", "fill")
+    taken, groups = _compare(tmp_path / "tanks", base, tank_header, tank_rows, monkeypatch)
+    assert groups >= 1 and taken == len(tank_rows) - groups
