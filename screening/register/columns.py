@@ -66,7 +66,7 @@ VARYING_KEYS = frozenset({
     "id", "title", "time_constant_s", "peak_temperature_K", "peak_time_s", "steady_temperature_K", "limits",
     "adiabatic", "warnings", "detection_time_s", "response_time_s", "initial_temperature_K", "ambient_temperature_K",
     "horizon_s", "heat_capacity_J_per_K", "ua_W_per_K", "limit_exceeded_at_start", "assumptions", "inputs", "units",
-    "input_hash", "geometry"})
+    "input_hash", "geometry", "boiling"})
 
 #: Quantity paths a group of tanks given by geometry may also vary (path -> kind).
 GEOMETRY_PATHS = {("vessel", "diameter"): "diameter", ("vessel", "length"): "length", ("vessel", "width"): "width",
@@ -76,8 +76,8 @@ GEOMETRY_PATHS = {("vessel", "diameter"): "diameter", ("vessel", "length"): "len
                   ("heat_loss", "coefficient"): "coefficient"}
 
 #: Model slots (screening.case.paths) a uniform group may vary, column by column.
-_SCALAR_KINDS = ("mass", "cp", "T0", "Ta", "ua", "H", "response")
-_COLUMN_KINDS = frozenset(_SCALAR_KINDS + ("limit", "const", "dpower", "dtau", "dhalf"))
+_SCALAR_KINDS = ("mass", "cp", "T0", "Ta", "ua", "H", "response", "alarm")
+_COLUMN_KINDS = frozenset(_SCALAR_KINDS + ("limit", "const", "dpower", "dtau", "dhalf", "medium_ua", "medium_T"))
 
 
 @dataclass
@@ -102,8 +102,9 @@ def plan_group(rep, fast_cols) -> list[_Varying] | None:
         return None
     if (model.scenario != "heat-up" or model.released_at_start
             or (not tank and (spec.heat_loss.ua is None or spec.contents.mass is None))
-            or model.arrhenius_sources or model.fire_sources or model.heating_media or model.boiling is not None
-            or rep.recovery is not None or rep.detection_alarm is not None or rep.uncertainty_plan is not None
+            or model.arrhenius_sources or model.fire_sources
+            or (model.boiling is not None and model.boiling.boiling_point < model.initial_temperature)
+            or rep.recovery is not None or rep.uncertainty_plan is not None
             or model.wall_heat_capacity != 0.0 or model.daily_cycle is not None):
         return None
     out = []
@@ -126,11 +127,13 @@ def plan_group(rep, fast_cols) -> list[_Varying] | None:
 
 def _is_tank_group(rep) -> bool | None:
     """True for a vessel given by its geometry that a group can take (stirred contents, heat loss as a given UA
-    or a coefficient on the wetted, total or a given area), False without a vessel block, None otherwise."""
+    or a coefficient on the wetted, total or a given area), False without a vessel shape, None otherwise."""
     spec = rep.spec
     if spec.vessel is None:
         return False
-    if spec.vessel.shape is None or rep.model.mixing != "stirred":
+    if spec.vessel.shape is None:  # a vessel block for its venting (or wall: refused by the caller) only
+        return False if rep.model.mixing == "stirred" else None
+    if rep.model.mixing != "stirred":
         return None
     if spec.heat_loss.ua is None and "heat_loss_area_m2" not in rep.geometry:
         return None
@@ -235,11 +238,14 @@ def screen_group(rep, rep_index: int, rows: list[list[str]], members: list[int],
         ok &= np.asarray(good, dtype=bool)
     cols = _model_columns(rep, plan, parsed, n)
     tank = None
-    if rep.spec.vessel is not None:
+    if rep.spec.vessel is not None and rep.spec.vessel.shape is not None:
         tank = _TankColumns(rep, plan, parsed, cols, n)
         ok &= tank.ok
 
     m = rep.model
+    if m.boiling is not None:  # prepare refuses (open vessel) or warns (closed) where the contents start above it:
+        with np.errstate(invalid="ignore"):  # those rows go the general way
+            ok &= ~(m.boiling.boiling_point < cols["T0"])
     nl = len(m.limits)
     k = max(len(m.decaying_sources), 1)
     P = np.zeros((n, k))
@@ -248,21 +254,29 @@ def screen_group(rep, rep_index: int, rows: list[list[str]], members: list[int],
         for j in range(len(m.decaying_sources)):
             P[:, j] = cols["dpower"][j]
             b[:, j] = 1.0 / cols["dtau"][j]
-    L = np.full((n, nl + 2), np.nan)  # + boiling point + alarm, unused here (as in vectorised_values)
+    L = np.full((n, nl + 2), np.nan)  # + boiling point + alarm (as in vectorised_values)
     for j in range(nl):
         L[:, j] = cols["limit"][j]
+    if m.boiling is not None:
+        L[:, nl] = m.boiling.boiling_point
+    if cols["alarm"] is not None:
+        L[:, nl + 1] = cols["alarm"]
     C = heat_capacity(cols["mass"], cols["cp"], m.wall_heat_capacity)
     p0 = sum(cols["const"]) + np.zeros(n)
-    G, Q0 = conductance_and_drive(cols["ua"], cols["Ta"], p0)
-    G_ad, Q0_ad = conductance_and_drive(np.zeros(n), cols["Ta"], p0)
+    G, Q0 = conductance_and_drive(cols["ua"], cols["Ta"], p0, cols["medium_ua"], cols["medium_T"])
+    G_ad, Q0_ad = conductance_and_drive(np.zeros(n), cols["Ta"], p0, cols["medium_ua"], cols["medium_T"])
     engine_ok, times, summary, ad_times = run_engine(C, G, Q0, G_ad, Q0_ad, cols["T0"], P, b, L, cols["H"], nl)
     ok &= engine_ok
     if not ok.any():
         return GroupResults({}, list(members))
+    boiling = m.boiling
     group = ClosedFormGroup(C, G, Q0, Q0, cols["T0"], cols["T0"], cols["Ta"], cols["ua"], cols["H"],
-                            cols["dpower"], cols["dtau"], cols["limit"], cols["response"])
+                            cols["dpower"], cols["dtau"], cols["limit"], cols["response"],
+                            None if boiling is None else np.full(n, boiling.boiling_point),
+                            None if boiling is None else np.full(n, boiling.latent_heat), cols["mass"], p0,
+                            cols["medium_ua"], cols["medium_T"])
     values = GroupValues(times[:, :nl], ad_times, summary.peak_temperature, summary.peak_time,
-                         summary.end_temperature, summary.end_rate)
+                         summary.end_temperature, summary.end_rate, times[:, nl], times[:, nl + 1])
     template = rep_result_of(None)
     rows_out = _RowInputs(rep, plan, parsed, n)
     writer = ClosedFormWriter(rep, group, values, rows_out.units)
@@ -305,7 +319,10 @@ def _model_columns(rep, plan: list[_Varying], parsed: dict, n: int) -> dict:
             "limit": [full(lim.temperature) for lim in m.limits],
             "const": [full(s.power) for s in m.constant_sources],
             "dpower": [full(s.power) for s in m.decaying_sources],
-            "dtau": [full(s.time_constant) for s in m.decaying_sources]}
+            "dtau": [full(s.time_constant) for s in m.decaying_sources],
+            "medium_ua": [full(h.ua) for h in m.heating_media],
+            "medium_T": [full(h.medium_temperature) for h in m.heating_media],
+            "alarm": None if rep.detection_alarm is None else full(rep.detection_alarm)}
     for v in plan:
         if v.marker is None:
             continue
@@ -314,7 +331,7 @@ def _model_columns(rep, plan: list[_Varying], parsed: dict, n: int) -> dict:
             cols[v.kind] = si
         elif v.kind == "limit":
             cols["limit"][v.slot] = si
-        elif v.kind in ("const", "dpower", "dtau"):
+        elif v.kind in ("const", "dpower", "dtau", "medium_ua", "medium_T"):
             cols[v.kind][v.slot] = si
         elif v.kind == "dhalf":
             cols["dtau"][v.slot] = si / math.log(2.0)

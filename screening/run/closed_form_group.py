@@ -12,12 +12,13 @@ their margins, the adiabatic bound, the warnings in their order (texts from
 
 :func:`screening.run.closed_form_case.screen_closed_form` calls it with a group of one, the
 register's uniform groups (:mod:`screening.register.columns`) with their column arrays, so the
-two cannot differ. Pieces that stay scalar per row (the boiling phase, the daily cycle's
-climbing peaks) are callables the one-case path passes in; a register group does not take
-rows that need them.
+two cannot differ. Pieces that stay scalar per row are a loop inside the writer (the boiling
+phase, from the row's numbers) or a callable the one-case path passes in (the daily cycle's
+climbing peaks: a register group does not take rows with a cycle).
 """
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from typing import Callable
 
@@ -25,11 +26,16 @@ import numpy as np
 
 from screening.case.prepare import PreparedCase
 from screening.core.daily_cycle import mean_rise
+from screening.core.root_finding import brent_root as brentq
 from screening.core.terms import model_start_temperature, model_terms
 from screening.run.recovery import detection_time, write_detection
 from screening.run.warnings import (
     ADIABATIC_WARNING,
+    BOILING_CLOSED_VESSEL,
+    BOILING_CREDIT,
+    BOILING_OUT_OF_SCOPE,
     above_boiling_point_warning,
+    boil_dry_warning,
     detection_basis,
     limit_at_start_warning,
     short_horizon_warning,
@@ -50,7 +56,9 @@ class ClosedFormGroup:
     decaying_power, decaying_time : one array per decaying source, W and s
     limit_temperature : one array per limit, K
     response_time : s, or None when the cases give none
-    boiling_point : K, or None without boiling data
+    boiling_point, latent_heat : K and J/kg, or None without boiling data
+    mass, constant_power : contents mass (kg) and P_const (W), for the boiling phase
+    media_ua, media_temperature : one array per heating medium, W/K and K, for the boiling phase
     """
 
     heat_capacity: np.ndarray
@@ -67,6 +75,11 @@ class ClosedFormGroup:
     limit_temperature: list
     response_time: np.ndarray | None = None
     boiling_point: np.ndarray | None = None
+    latent_heat: np.ndarray | None = None
+    mass: np.ndarray | None = None
+    constant_power: np.ndarray | None = None
+    media_ua: list | None = None
+    media_temperature: list | None = None
 
     @classmethod
     def of_case(cls, prepared: PreparedCase) -> "ClosedFormGroup":
@@ -82,7 +95,10 @@ class ClosedFormGroup:
                    one(m.ua), one(m.horizon), [one(s.power) for s in m.decaying_sources],
                    [one(s.time_constant) for s in m.decaying_sources], [one(lim.temperature) for lim in m.limits],
                    None if prepared.response_time is None else one(prepared.response_time),
-                   None if m.boiling is None else one(m.boiling.boiling_point))
+                   None if m.boiling is None else one(m.boiling.boiling_point),
+                   None if m.boiling is None else one(m.boiling.latent_heat), one(m.contents_mass),
+                   one(terms.constant_power), [one(h.ua) for h in m.heating_media],
+                   [one(h.medium_temperature) for h in m.heating_media])
 
 
 @dataclass
@@ -129,8 +145,6 @@ def case_keys(initial_temperature: float, ambient_temperature: float, horizon: f
             "limit_exceeded_at_start": any(row["time_s"] == 0.0 for row in limit_rows)}
 
 
-#: The boiling phase of row r: (r, time to boil or None, credit, unit) -> (boiling keys, warnings, peak or None).
-BoilingPhase = Callable[[int, "float | None", bool, str], tuple]
 #: The climbing-peaks warning of row r with a daily cycle: (r, peak K, unit) -> text or None.
 CyclePeaks = Callable[[int, float, str], "str | None"]
 
@@ -140,11 +154,12 @@ class ClosedFormWriter:
 
     ``rep`` is a case of the group (its limit names, detection basis and delay, venting); ``units`` the
     display temperature unit of each row (or one for all). ``boiling`` and ``cycle_peaks`` are the scalar
-    pieces of rows with boiling data or a daily cycle (the one-case path passes them).
+    piece of rows with a daily cycle (the one-case path passes it); the boiling phase of rows with boiling
+    data is a loop over rows here (:func:`boiling_phase`).
     """
 
     def __init__(self, rep: PreparedCase, group: ClosedFormGroup, values: GroupValues, units,
-                 boiling: BoilingPhase | None = None, cycle_peaks: CyclePeaks | None = None):
+                 cycle_peaks: CyclePeaks | None = None):
         model = rep.model
         C, G, H = group.heat_capacity, group.conductance, group.horizon
         n = len(C)
@@ -176,16 +191,22 @@ class ClosedFormWriter:
         self.delay = rep.detection_delay
         alarm = values.alarm_time if self.basis == "alarm" and values.alarm_time is not None else None
         self.alarm = _nullable(alarm) if alarm is not None else [None] * n
-        self.boiling, self.cycle_peaks = boiling, cycle_peaks
-        self.venting_open = model.boiling is not None and model.boiling.venting == "open"
-        boil_time = values.boil_time if (boiling is not None and values.boil_time is not None) else None
-        self.boil_time = _nullable(boil_time) if boil_time is not None else [None] * n
-        self.boiling_point = group.boiling_point.tolist() if group.boiling_point is not None else [None] * n
+        self.cycle_peaks = cycle_peaks
+        self.boiling = model.boiling is not None
+        self.venting_open = self.boiling and model.boiling.venting == "open"
+        self.boil_time = _nullable(values.boil_time) if self.boiling else [None] * n
+        if self.boiling:
+            self.boiling_point = group.boiling_point.tolist()
+            self.latent_heat = group.latent_heat.tolist()
+            self.mass, self.p_const = group.mass.tolist(), group.constant_power.tolist()
+            self.ua, self.Ta = group.ua.tolist(), group.ambient_temperature.tolist()
+            self.media = [(u.tolist(), t.tolist()) for u, t in zip(group.media_ua, group.media_temperature)]
+            self.decaying = [(P.tolist(), a.tolist()) for P, a in zip(group.decaying_power, group.decaying_time)]
         # rows that need no closed-form warning before the detection ones (the conditions of _warnings, on
         # arrays; the rising check needs a limit not reached as well, so end_rate > 0 alone sends a row to it)
         with np.errstate(invalid="ignore"):
             plain = (np.isnan(tau) | ~(H < tau)) & ~(values.end_rate > 0) & ~(G == 0) & ~(times == 0.0).any(axis=1)
-        if boiling is not None or cycle_peaks is not None:
+        if self.boiling or cycle_peaks is not None:
             plain[:] = False
         self.plain = plain.tolist()
 
@@ -205,8 +226,8 @@ class ClosedFormWriter:
         if not self.plain[r]:
             warnings.extend(limit_at_start_warning(row["name"], row["temperature_K"], self.start[r], unit)
                             for row in limit_rows if row["time_s"] == 0.0)
-            if self.boiling is not None:
-                boiling_keys, boil_warnings, boil_peak = self.boiling(r, t_boil, self.venting_open, unit)
+            if self.boiling:
+                boiling_keys, boil_warnings, boil_peak = self._boiling(r, t_boil, unit)
                 warnings.extend(boil_warnings)
                 if boil_peak is not None:
                     peak_T, peak_t = boil_peak
@@ -232,6 +253,16 @@ class ClosedFormWriter:
         out["recovery"] = None
         return out
 
+    def _boiling(self, r: int, t_boil: float | None, unit: str) -> tuple:
+        """Row r's boiling phase (:func:`boiling_phase`)."""
+        Tb = self.boiling_point[r]
+        # N = P_const + sum ua_k (Tm_k - Tb) - UA (Tb - Ta), the net heat input at the boiling point without the
+        # decaying sources
+        steady_net = self.p_const[r] + sum(u[r] * (t[r] - Tb) for u, t in self.media) - self.ua[r] * (Tb - self.Ta[r])
+        decaying = [(P[r], a[r]) for P, a in self.decaying]
+        return boiling_phase(Tb, self.latent_heat[r], self.H[r], steady_net, decaying, self.mass[r], t_boil,
+                             self.venting_open)
+
     def _warnings(self, r: int, limit_rows: list, peak_T: float, end_rate: float, unit: str) -> list[str]:
         """The short-horizon, still-rising (or climbing daily peaks) and adiabatic warnings of row r."""
         out = []
@@ -254,3 +285,52 @@ class ClosedFormWriter:
         T0, Ta, H, C, ua = (values[r] for values in self.case)
         return case_keys(T0, Ta, H, C, ua, limit_rows)
 
+
+
+def boiling_phase(boiling_point: float, latent_heat: float, horizon: float, steady_net: float, decaying: list,
+                  mass: float, t_boil: float | None, credit: bool) -> tuple:
+    """Boiling phase of one closed-form case: (boiling keys, warnings, (peak K, s) or None).
+
+    With credit (open vessel) the contents hold at the boiling point while the
+    net heat input N(t) = P0 + sum P_i exp(-t/a_i) + sum ua_k (Tm_k - Tb) - UA (Tb - Ta)
+    is positive; N falls with time, so boiling runs from t_boil until N = 0
+    or the contents are dry.  Vapour rate N / latent heat.  ``steady_net`` is N without the decaying
+    terms, ``decaying`` the (P_i, a_i) pairs.  The keys hold ``_boiling_at_end`` (boiling at the horizon),
+    which the writer takes out.
+    """
+    warnings = [BOILING_OUT_OF_SCOPE]
+    H = horizon
+    res = {"time_to_boil_s": t_boil, "peak_boil_off_kg_per_s": None, "boiled_off_kg": None, "time_to_dry_s": None,
+           "_boiling_at_end": False}
+    if not credit:
+        if t_boil is not None:
+            warnings.append(BOILING_CLOSED_VESSEL)
+        return res, warnings, None
+    warnings.append(BOILING_CREDIT)
+    if t_boil is None:
+        res["boiled_off_kg"] = 0.0
+        return res, warnings, None
+    Tb, L = boiling_point, latent_heat
+
+    def net(t):
+        return steady_net + sum(p * math.exp(-t / a) for p, a in decaying)
+
+    def boiled(t1, t2):
+        e = steady_net * (t2 - t1) + sum(p * a * (math.exp(-t1 / a) - math.exp(-t2 / a)) for p, a in decaying)
+        return e / L
+
+    n0 = net(t_boil)
+    if n0 <= 0:
+        res.update(peak_boil_off_kg_per_s=0.0, boiled_off_kg=0.0)
+        return res, warnings, (Tb, t_boil)
+    t_stop = H
+    if net(H) < 0:
+        t_stop = brentq(net, t_boil, H, xtol=1e-12 * H, rtol=1e-15)
+    t_dry = None
+    if boiled(t_boil, t_stop) >= mass:
+        t_dry = brentq(lambda t: boiled(t_boil, t) - mass, t_boil, t_stop, xtol=1e-12 * H, rtol=1e-15)
+        t_stop = t_dry
+        warnings.append(boil_dry_warning(t_dry))
+    res.update(peak_boil_off_kg_per_s=n0 / L, boiled_off_kg=boiled(t_boil, t_stop), time_to_dry_s=t_dry)
+    res["_boiling_at_end"] = t_stop >= H
+    return res, warnings, (Tb, t_boil)

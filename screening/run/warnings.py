@@ -44,6 +44,20 @@ def still_rising_warning(end_temperature: float, end_rate: float, steady: float 
             f"{end_rate * 3600:.3g} K/h){where}. A limit not reached within the horizon may be reached later.")
 
 
+BOILING_OUT_OF_SCOPE = ("Vent and relief sizing are out of scope: the boil-off figures are not a vent or relief-sizing "
+                        "calculation; use the applicable standard.")
+BOILING_CLOSED_VESSEL = ("The vessel is closed (vessel.venting: closed): no credit is taken for boiling; the "
+                         "temperature and pressure keep rising past the boiling point. The tool does not model "
+                         "pressure.")
+BOILING_CREDIT = ("Boiling credit assumes an open or adequately vented vessel whose vapour leaves at a known "
+                  "pressure; for a mixture the boiling point climbs as the light component leaves, so the "
+                  "credit is not conservative for mixtures.")
+
+
+def boil_dry_warning(t_dry: float) -> str:
+    return f"The contents boil dry at {_hours(t_dry)}; the tool does not follow the temperature after that."
+
+
 def above_boiling_point_warning(name: str, temperature: float, boiling_point: float, unit: str) -> str:
     return (f"Limit '{name}' ({_fmt_temp(temperature, unit)}) lies above the boiling point "
             f"({_fmt_temp(boiling_point, unit)}): it is not reached while liquid remains, on credit for boiling in "

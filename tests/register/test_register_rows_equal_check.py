@@ -6,7 +6,7 @@ Here each screened row is compared, every key, with ``check --json`` of the equi
 (the base case with the row's cells written in), on random registers of the simple shape (mass, UA
 and sources given) and of tanks given by geometry (every shape and head). The physics behind both
 is checked against outside references elsewhere: the closed form against scipy's ``solve_ivp`` and
-sympy (tests/run/test_closed_form.py, tests/core/test_time_to_limit_batch.py), the geometry against
+sympy (tests/core/test_closed_form.py, tests/core/test_time_to_limit_batch.py), the geometry against
 mpmath quadrature and ``fluids`` (tests/core). What this file pins down is that the register's array
 path and the one-case path write the same object.
 
@@ -32,6 +32,7 @@ from pathlib import Path
 
 import yaml
 from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 from typer.testing import CliRunner
 
 import screening.register.chunks as chunks
@@ -117,6 +118,7 @@ def _compare(tmp: Path, base: dict, header, rows, monkeypatch) -> tuple[int, int
             if key not in REGISTER_ONLY:
                 assert _same(batch[key], single[key], key, single["horizon_s"]), (n, key, batch[key], single[key])
         assert list(k for k in batch if k not in REGISTER_ONLY) == list(k for k in single if k not in REGISTER_ONLY)
+    _compare.results = results  # the last register's result objects, for a test to look at
     return len(taken), len(calls)
 
 
@@ -154,3 +156,90 @@ def test_group_rows_are_taken_and_equal_check(tmp_path, monkeypatch):
     base = _tank_base("horizontal-cylinder", "torispherical", "wetted", "fill")
     taken, groups = _compare(tmp_path / "tanks", base, tank_header, tank_rows, monkeypatch)
     assert groups >= 1 and taken == len(tank_rows) - groups
+
+
+# ------------------------------------------------------------------ heating media, boiling and an alarm
+
+MEDIA_BASE = {
+    "id": "BASE",
+    "contents": {"mass": "4 t", "specific_heat": "2.5 kJ/(kg*K)", "initial_temperature": "30 degC",
+                 "boiling_point": "95 degC", "latent_heat": "900 kJ/kg"},
+    "heat_loss": {"ambient_temperature": "20 degC", "ua": "60 W/K"},
+    "heat_sources": [{"kind": "constant", "power": "2 kW"},
+                     {"kind": "heating-medium", "medium_temperature": "140 degC", "ua": "150 W/K"},
+                     {"kind": "decaying", "power": "20 kW", "time_constant": "2 h"}],
+    "limits": [{"name": "onset", "temperature": "70 degC"}, {"name": "high", "temperature": "120 degC"}],
+    "response_time": "30 min",
+}
+
+MEDIA_COLUMNS = {
+    "contents.mass [t]": st.sampled_from(["0.05", "0.4", "4", "30"]),
+    "contents.initial_temperature [degC]": st.sampled_from(["10", "30", "94", "99"]),  # 99: above the boiling point
+    "heat_loss.ua [W/K]": st.sampled_from(["0", "20", "400"]),
+    "heat_sources.1.ua [W/K]": st.sampled_from(["0", "50", "300", "2000"]),
+    "heat_sources.1.medium_temperature [degC]": st.sampled_from(["60", "90", "140", "180"]),
+    "heat_sources.2.power [kW]": st.sampled_from(["0", "5", "80"]),
+    "horizon [h]": st.sampled_from(["1", "12", "200"]),
+    "limits.0.temperature [degC]": st.sampled_from(["25", "50", "90"]),
+    "limits.1.temperature [degC]": st.sampled_from(["96", "120", "200"]),
+    "response_time [min]": st.sampled_from(["0", "45", "5000"]),
+}
+
+
+@st.composite
+def media_registers(draw):
+    chosen = draw(st.lists(st.sampled_from(sorted(MEDIA_COLUMNS)), min_size=1, max_size=6, unique=True))
+    venting = draw(st.sampled_from([None, "open", "closed"]))  # None: no vessel block (a closed vessel)
+    boiling = draw(st.booleans())
+    detection = draw(st.sampled_from([None, "delay", "alarm"]))
+    header = ["id"] + chosen
+    if detection == "alarm" and draw(st.booleans()):
+        header.append("detection.alarm_temperature [degC]")
+    n = draw(st.integers(2, 8))
+    rows = []
+    for i in range(n):
+        row = [f"M-{i}"] + [draw(MEDIA_COLUMNS[c]) for c in chosen]
+        if len(header) > len(chosen) + 1:
+            row.append(draw(st.sampled_from(["35", "60", "110"])))
+        rows.append(row)
+    return header, rows, venting, boiling, detection
+
+
+def _media_base(venting, boiling, detection) -> dict:
+    base = copy.deepcopy(MEDIA_BASE)
+    if venting is not None:
+        base["vessel"] = {"venting": venting}
+    if not boiling:
+        base["contents"].pop("boiling_point")
+        base["contents"].pop("latent_heat")
+    if detection == "delay":
+        base["detection"] = {"delay": "10 min"}
+    elif detection == "alarm":
+        base["detection"] = {"alarm_temperature": "45 degC"}
+    return base
+
+
+@settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(case=media_registers())
+def test_media_boiling_alarm_register_rows_equal_check_json(tmp_path_factory, monkeypatch, case):
+    """Rows with a heating medium left on, boiling data (open or closed vessel) and an alarm, varying the
+    medium's ua and temperature, the alarm and the start (some above the boiling point, which the general
+    path refuses or warns about), equal check --json of the same case file, every key."""
+    header, rows, venting, boiling, detection = case
+    _compare(tmp_path_factory.mktemp("media"), _media_base(venting, boiling, detection), header, rows, monkeypatch)
+
+
+def test_media_boiling_alarm_rows_go_the_array_path(tmp_path, monkeypatch):
+    """A clean register of such rows is screened as a group (all rows but each group's representative),
+    including rows that boil (open vessel: held at the boiling point, boil-off and drying) and rows whose
+    alarm never sounds."""
+    header = ["id", "contents.mass [t]", "heat_sources.1.ua [W/K]", "detection.alarm_temperature [degC]",
+              "horizon [h]"]
+    rows = [[f"B-{i}", f"{0.05 + 0.6 * i:.3g}", f"{100 * i}", f"{40 + 15 * i}", f"{2 + 20 * i}"] for i in range(12)]
+    base = _media_base("open", True, "alarm")
+    taken, groups = _compare(tmp_path / "media", base, header, rows, monkeypatch)
+    assert groups >= 1 and taken == len(rows) - groups
+    results = _compare.results
+    assert any(r["boiling"]["time_to_boil_s"] is not None for r in results)
+    assert any(r["boiling"]["time_to_dry_s"] is not None for r in results)
+    assert any(r["detection_basis"] == "alarm" and r["detection_time_s"] is None for r in results)
