@@ -295,8 +295,7 @@ def screen_group(rep, rep_index: int, rows: list[list[str]], members: list[int],
         out = dict(template)
         for kind, values_ in texts:
             out[kind] = values_[r]
-        writer.write(r, out)
-        out.update(writer.case_keys(r, out["limits"]))
+        writer.write(r, out, case_keys=True)
         out["warnings"] = (list(rep.warnings) if tank is None else tank.warnings(r)) + out["warnings"] \
             + tail_warnings
         out["assumptions"] = list(assumptions)

@@ -8,7 +8,7 @@ group), and :class:`ClosedFormWriter` computes the per-row numbers on the arrays
 constant, steady temperature, adiabatic rise) and writes each row's keys: the limit rows with
 their margins, the adiabatic bound, the warnings in their order (texts from
 :mod:`screening.run.warnings`), the detection keys and the case keys of
-:func:`case_keys`.
+:func:`write_case_keys`.
 
 :func:`screening.run.closed_form_case.screen_closed_form` calls it with a group of one, the
 register's uniform groups (:mod:`screening.register.columns`) with their column arrays, so the
@@ -29,6 +29,7 @@ from screening.core.daily_cycle import mean_rise
 from screening.core.root_finding import brent_root as brentq
 from screening.core.terms import model_start_temperature, model_terms
 from screening.run.recovery import detection_time, write_detection
+from screening.run.recovery import limit_rows as make_limit_rows
 from screening.run.warnings import (
     ADIABATIC_WARNING,
     BOILING_CLOSED_VESSEL,
@@ -137,12 +138,20 @@ def _nullable(a: np.ndarray) -> list:
     return out.tolist()
 
 
-def case_keys(initial_temperature: float, ambient_temperature: float, horizon: float, heat_capacity: float,
-              ua: float, limit_rows: list) -> dict:
+def write_case_keys(out: dict, initial_temperature: float, ambient_temperature: float, horizon: float,
+                    heat_capacity: float, ua: float, limit_rows: list) -> None:
     """The case keys of a result, after its limit rows (every kind of case: the Arrhenius path too)."""
-    return {"initial_temperature_K": initial_temperature, "ambient_temperature_K": ambient_temperature,
-            "horizon_s": horizon, "heat_capacity_J_per_K": heat_capacity, "ua_W_per_K": ua,
-            "limit_exceeded_at_start": any(row["time_s"] == 0.0 for row in limit_rows)}
+    out["initial_temperature_K"] = initial_temperature
+    out["ambient_temperature_K"] = ambient_temperature
+    out["horizon_s"] = horizon
+    out["heat_capacity_J_per_K"] = heat_capacity
+    out["ua_W_per_K"] = ua
+    exceeded = False
+    for row in limit_rows:
+        if row["time_s"] == 0.0:
+            exceeded = True
+            break
+    out["limit_exceeded_at_start"] = exceeded
 
 
 #: The climbing-peaks warning of row r with a daily cycle: (r, peak K, unit) -> text or None.
@@ -181,14 +190,15 @@ class ClosedFormWriter:
         self.end_T, self.end_rate = values.end_temperature.tolist(), values.end_rate.tolist()
         self.G, self.H = G.tolist(), H.tolist()
         self.start = group.start_temperature.tolist()
-        self.case = [a.tolist() for a in (group.initial_temperature, group.ambient_temperature, H, C, group.ua)]
+        self.T0, self.Ta, self.C = group.initial_temperature.tolist(), group.ambient_temperature.tolist(), C.tolist()
+        self.ua_case = group.ua.tolist()
         self.limit_T = (np.stack(group.limit_temperature, axis=1).tolist() if group.limit_temperature
                         else [[]] * n)
         self.names = [lim.name for lim in model.limits]
         self.units = [units] * n if isinstance(units, str) else list(units)
         self.response = group.response_time.tolist() if group.response_time is not None else [None] * n
         self.basis, self.note = detection_basis(rep)
-        self.delay = rep.detection_delay
+        self.detection = detection_time(self.basis, rep.detection_delay, None)  # but the alarm's: per row
         alarm = values.alarm_time if self.basis == "alarm" and values.alarm_time is not None else None
         self.alarm = _nullable(alarm) if alarm is not None else [None] * n
         self.cycle_peaks = cycle_peaks
@@ -199,7 +209,6 @@ class ClosedFormWriter:
             self.boiling_point = group.boiling_point.tolist()
             self.latent_heat = group.latent_heat.tolist()
             self.mass, self.p_const = group.mass.tolist(), group.constant_power.tolist()
-            self.ua, self.Ta = group.ua.tolist(), group.ambient_temperature.tolist()
             self.media = [(u.tolist(), t.tolist()) for u, t in zip(group.media_ua, group.media_temperature)]
             self.decaying = [(P.tolist(), a.tolist()) for P, a in zip(group.decaying_power, group.decaying_time)]
         # rows that need no closed-form warning before the detection ones (the conditions of _warnings, on
@@ -209,21 +218,26 @@ class ClosedFormWriter:
         if self.boiling or cycle_peaks is not None:
             plain[:] = False
         self.plain = plain.tolist()
+        # what write() reads of each row, in one tuple
+        self.rows = list(zip(self.times, self.limit_T, self.units, self.boil_time, self.alarm, self.response,
+                             self.peak_T, self.peak_t, self.end_rate, self.tau, self.steady, self.ad_times, self.rise,
+                             self.H, self.plain))
 
-    def write(self, r: int, out: dict) -> dict:
-        """Row r's closed-form keys into ``out`` (in the order of the one-case result), then returned."""
-        names, times, unit = self.names, self.times[r], self.units[r]
+    def write(self, r: int, out: dict, case_keys: bool = False) -> dict:
+        """Row r's closed-form keys into ``out`` (in the order of the one-case result), then returned; with
+        ``case_keys`` also its :func:`write_case_keys` (a register row: ``out`` is a copy of a whole result)."""
+        names, basis = self.names, self.basis
+        (times, limit_T, unit, t_boil, alarm, response, peak_T, peak_t, end_rate, tau, steady, ad_times, rise, H,
+         plain) = self.rows[r]
         warnings: list[str] = []
-        t_boil = self.boil_time[r]
         credit = self.venting_open and t_boil is not None
         if credit:  # held at the boiling point while liquid remains
             Tb = self.boiling_point[r]
-            times = [None if lt > Tb else t for lt, t in zip(self.limit_T[r], times)]
-        limit_rows = [{"name": name, "temperature_K": lt, "time_s": t, "reached": t is not None}
-                      for name, lt, t in zip(names, self.limit_T[r], times)]
-        peak_T, peak_t, end_rate = self.peak_T[r], self.peak_t[r], self.end_rate[r]
+            times = [None if lt > Tb else t for lt, t in zip(limit_T, times)]
+        detection = alarm if basis == "alarm" else self.detection
+        limit_rows = make_limit_rows(names, limit_T, times, basis, detection, response)
         boiling_keys = None
-        if not self.plain[r]:
+        if not plain:
             warnings.extend(limit_at_start_warning(row["name"], row["temperature_K"], self.start[r], unit)
                             for row in limit_rows if row["time_s"] == 0.0)
             if self.boiling:
@@ -237,20 +251,20 @@ class ClosedFormWriter:
                     warnings.extend(above_boiling_point_warning(row["name"], row["temperature_K"], Tb, unit)
                                     for row in limit_rows if row["temperature_K"] > Tb)
             warnings.extend(self._warnings(r, limit_rows, peak_T, end_rate, unit))
-        out["time_constant_s"] = self.tau[r]
+        out["time_constant_s"] = tau
         out["peak_temperature_K"] = peak_T
         out["peak_time_s"] = peak_t
-        out["steady_temperature_K"] = self.steady[r]
+        out["steady_temperature_K"] = steady
         out["limits"] = limit_rows
-        out["adiabatic"] = {"limits": [{"name": name, "time_s": t} for name, t in zip(names, self.ad_times[r])],
-                            "temperature_rise_K": self.rise[r]}
+        out["adiabatic"] = {"limits": [{"name": name, "time_s": t} for name, t in zip(names, ad_times)],
+                            "temperature_rise_K": rise}
         out["boiling"] = boiling_keys
         out["warnings"] = warnings
         out["method"] = "closed-form"
-        basis = self.basis
-        detection = self.alarm[r] if basis == "alarm" else detection_time(basis, self.delay, None)
-        write_detection(out, basis, self.note, detection, self.response[r], self.H[r])
+        write_detection(out, basis, self.note, detection, response, H, margins=False)
         out["recovery"] = None
+        if case_keys:
+            write_case_keys(out, self.T0[r], self.Ta[r], H, self.C[r], self.ua_case[r], limit_rows)
         return out
 
     def _boiling(self, r: int, t_boil: float | None, unit: str) -> tuple:
@@ -258,7 +272,7 @@ class ClosedFormWriter:
         Tb = self.boiling_point[r]
         # N = P_const + sum ua_k (Tm_k - Tb) - UA (Tb - Ta), the net heat input at the boiling point without the
         # decaying sources
-        steady_net = self.p_const[r] + sum(u[r] * (t[r] - Tb) for u, t in self.media) - self.ua[r] * (Tb - self.Ta[r])
+        steady_net = self.p_const[r] + sum(u[r] * (t[r] - Tb) for u, t in self.media) - self.ua_case[r] * (Tb - self.Ta[r])
         decaying = [(P[r], a[r]) for P, a in self.decaying]
         return boiling_phase(Tb, self.latent_heat[r], self.H[r], steady_net, decaying, self.mass[r], t_boil,
                              self.venting_open)
@@ -279,12 +293,6 @@ class ClosedFormWriter:
         if G == 0:
             out.append(ADIABATIC_WARNING)
         return out
-
-    def case_keys(self, r: int, limit_rows: list) -> dict:
-        """Row r's :func:`case_keys`."""
-        T0, Ta, H, C, ua = (values[r] for values in self.case)
-        return case_keys(T0, Ta, H, C, ua, limit_rows)
-
 
 
 def boiling_phase(boiling_point: float, latent_heat: float, horizon: float, steady_net: float, decaying: list,

@@ -40,26 +40,36 @@ def detection_time(basis: str, delay: float | None, alarm_time: float | None) ->
     return 0.0
 
 
+def limit_rows(names, temperatures, times, basis: str, detection: float | None, response: float | None) -> list:
+    """Limit rows with their margins: margin = time to the limit - (detection + response), when all three are
+    known; the note says when detection is only assumed at t = 0."""
+    if response is None or detection is None:
+        return [{"name": name, "temperature_K": lt, "time_s": t, "reached": t is not None, "margin_s": None,
+                 "margin_note": None} for name, lt, t in zip(names, temperatures, times)]
+    total = detection + response
+    note = MARGIN_NOTE_ASSUMED if basis == "assumed" else None
+    return [{"name": name, "temperature_K": lt, "time_s": t, "reached": t is not None,
+             "margin_s": None if t is None else t - total, "margin_note": None if t is None else note}
+            for name, lt, t in zip(names, temperatures, times)]
+
+
 def write_detection(result: dict, basis: str, note: str | None, detection: float | None,
-                    response: float | None, horizon: float) -> None:
-    """The detection keys of one result and the margin of each of its limit rows (one case, or one row
-    of a group: :mod:`screening.run.closed_form_group` calls it per row)."""
+                    response: float | None, horizon: float, margins: bool = True) -> None:
+    """The detection keys of one result and (unless ``margins`` is False: the rows came from
+    :func:`limit_rows`) the margin of each of its limit rows, as :func:`limit_rows` gives them."""
     if basis == "alarm" and detection is None:
         result["warnings"].append(ALARM_NOT_REACHED)
     result["detection_time_s"] = detection
     result["detection_basis"] = basis
     result["detection_note"] = note
     result["response_time_s"] = response
-    timed = response is not None and detection is not None
-    margin_note = MARGIN_NOTE_ASSUMED if basis == "assumed" else None
-    for row in result["limits"]:
-        t = row["time_s"]
-        if timed and t is not None:
-            row["margin_s"] = t - (detection + response)
-            row["margin_note"] = margin_note
-        else:
-            row["margin_s"] = None
-            row["margin_note"] = None
+    if margins:
+        rows = result["limits"]
+        with_margins = limit_rows([r["name"] for r in rows], [r["temperature_K"] for r in rows],
+                                  [r["time_s"] for r in rows], basis, detection, response)
+        for row, done in zip(rows, with_margins):
+            row["margin_s"] = done["margin_s"]
+            row["margin_note"] = done["margin_note"]
     if response is not None and horizon < response + (detection or 0.0):
         result["warnings"].append(response_beyond_horizon_warning(horizon))
 
