@@ -2,11 +2,11 @@
 
 Most registers are many rows of one shape: the same filled columns over the
 same base case, differing only in numbers.  When such a group's representative
-row (validated and screened in full) is a simple closed-form case, namely
+row (validated and screened in full) is a closed-form heat-up case without fire,
+recovery, wall, daily cycle or uncertainty block (heating media, boiling data and a
+detection alarm or delay are taken), and either
 
-* a heat-up scenario (no synthesis or decomposition source), no fire, heating medium, boiling data,
-  cooling recovery, alarm or uncertainty block, and either
-* no vessel block and heat loss as a given UA, or
+* no vessel shape and heat loss as a given UA with the mass given, or
 * a vessel given by geometry with stirred contents and heat loss as a given UA or a coefficient on
   the wetted, total or a given area (a group of tanks: its volumes, areas, mass and UA come from
   :mod:`screening.case.geometry_columns`, the functions prepare_case calls with a group of one),
@@ -15,17 +15,16 @@ and every column that varies in the group is one of the quantities listed in
 :data:`VARYING_PATHS` (or :data:`GEOMETRY_PATHS` for tanks, or the id or title), the other rows need not be built
 one by one.  Their cells are parsed a column at a time with the column's unit
 looked up once, the SI model numbers are assembled as arrays, the vectorised
-engine runs once for the group, and each row's result object is the
-representative's with the row's numbers written in.
+engine runs once for the group, and each row's closed-form keys are written by
+:class:`screening.run.closed_form_group.ClosedFormWriter`, the writer the one-case
+path uses for a group of one, into a copy of the representative's result (the keys
+no row varies).
 
-The result is the same object ``check --json`` prints for the equivalent case:
-the same formulas (in the same floating-point order) and the same warning texts
-(:mod:`screening.run.warnings` provides them).  Each group checks itself: the
-representative is also rebuilt this way and compared with its result from the
-general path; on any difference the group goes the general way, row by row.
+This module keeps what is register-specific: reading cells into SI arrays and texts,
+which rows form a group, each row's inputs list entries and display unit.
 A row whose cells the column parser does not accept (a unit in a cell where the
-header gives one, a value out of range, an empty id) also goes the general
-way, where it gets exactly the errors a case file would.
+header gives one, a value out of range, an empty id), or that starts above its boiling
+point, goes the general way, where it gets exactly the errors and warnings a case file would.
 """
 from __future__ import annotations
 
@@ -59,7 +58,8 @@ from screening.run.warnings import biot_and_validity, case_assumptions
 VARYING_PATHS = ("contents.mass", "contents.specific_heat", "contents.initial_temperature",
                  "heat_loss.ambient_temperature", "heat_loss.ua", "horizon", "response_time",
                  "limits.N.temperature", "heat_sources.N.power", "heat_sources.N.time_constant",
-                 "heat_sources.N.half_life")
+                 "heat_sources.N.half_life", "heat_sources.N.ua", "heat_sources.N.medium_temperature",
+                 "detection.alarm_temperature")
 
 #: The keys of a result object a row of a uniform group may hold differently from its representative.
 VARYING_KEYS = frozenset({
