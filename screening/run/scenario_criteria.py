@@ -307,7 +307,7 @@ def _storage(prepared, facts, out, decomposition, used) -> list[str]:
     gas = [s for s in decomposition if s.gas_generating]
     out["gas_in_closed_package"] = bool(gas) and closed
     if gas and prepared.spec.vessel is None:
-        warnings.append("No vessel is described, so the package is taken as closed (conservative): the gas of the "
+        warnings.append("No vessel is described, so the vessel or package is taken as closed (conservative): the gas of the "
                         "decomposition pressurises it.")
     hot = model.mixing == "unstirred" and T0 > Ta
     out["unstirred_hot_start"] = hot
@@ -537,7 +537,7 @@ def _storage_summary(model, facts, out, unit) -> str:
         text.append(f"Decomposition temperature rise {dtemp(out['decomposition_temperature_rise_K'], unit)}.")
     if out["gas_generating_sources"]:
         text.append("Gas generation: " + ", ".join(out["gas_generating_sources"])
-                    + (" in a closed package." if out["gas_in_closed_package"] else "."))
+                    + (" in a closed vessel or package." if out["gas_in_closed_package"] else "."))
     if out["unstirred_hot_start"]:
         text.append("The unstirred contents start above the ambient: the steady criterion does not cover the hot "
                     "start; the transient conduction solution does, within the horizon.")
