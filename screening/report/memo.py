@@ -440,6 +440,11 @@ class _Memo:
             out += lay.prose(lay.T("method.unstirred"))
         if self.r.get("daily_cycle") is not None:
             out += lay.prose(lay.T("method.daily_cycle"))
+            if self._conduction() is not None:
+                how = "daily_cycle_unstirred"
+            else:
+                how = "daily_cycle_numeric" if self.r.get("method") == "numeric" else "daily_cycle_closed_form"
+            out += lay.prose(lay.T("method." + how))
         return out
 
     def sec_results(self):

@@ -69,3 +69,18 @@ def test_a_history_that_peaks_keeps_its_peak_rows(monkeypatch):
     r = _result((DEMO / "fw-t204-hold-tank.yaml").read_bytes())
     assert not stops_in_runaway(r)
     assert "Time of peak" in _memo_text(r, monkeypatch) or "still rising" in _memo_text(r, monkeypatch)
+
+
+def test_the_daily_cycle_method_text_follows_how_the_case_is_solved(monkeypatch):
+    # unstirred powder drums in the sun (the FW-S17 demo with a daily cycle): the surface of the conduction body
+    # sees the cycle; the method must not say the contents are one lumped mass solved exactly in closed form
+    data = yaml.safe_load((DEMO / "fw-s17-powder-drums.yaml").read_text(encoding="utf-8"))
+    data["heat_loss"]["daily_range"] = "12 K"
+    data["horizon"] = "10 d"
+    data["sun"] = {"peak_irradiance": "800 W/m^2", "absorptivity": 0.6, "exposed_area": "projected",
+                   "day_length": "14 h", "outer_coefficient": "15 W/(m^2*K)"}
+    memo = _memo_text(_result(yaml.safe_dump(data).encode()), monkeypatch)
+    assert "the surface of the conduction body sees the same effective ambient" in memo
+    assert "solved exactly, piece by piece" not in memo and "taken as one lumped mass" not in memo
+    drums = _memo_text(_result((DEMO / "fw-d52-drum-yard.yaml").read_bytes()), monkeypatch)  # closed form, stirred
+    assert "solved exactly, piece by piece" in drums and "taken as one lumped mass" in drums
