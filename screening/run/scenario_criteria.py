@@ -288,7 +288,8 @@ def _storage(prepared, facts, out, decomposition, used) -> list[str]:
         sem, ws = rc.semenov_critical_ambient(m, decomposition, P, model.ua, model.heating_media, full_output=True)
         warnings += ws
         steady, ws = rc.steady_states(m, decomposition, P, model.ua, Ta, model.heating_media, full_output=True)
-        warnings += ws
+        transient = bool(model.decaying_sources or model.fire_sources or T0 > Ta)  # what could push it past no-return
+        warnings += [w for w in ws if w != rc.WARNING_TRANSIENT_SOURCES or transient]
         out.update(critical_ambient_temperature_K=sem.ambient, critical_temperature_K=sem.temperature,
                    critical_ambient_method="semenov", no_return_temperature_K=steady.unstable)
         out["semenov"] = {"critical_ambient_K": sem.ambient, "critical_temperature_K": sem.temperature,
