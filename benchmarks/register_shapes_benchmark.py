@@ -58,6 +58,10 @@ today (judged only with --baseline-tree: this tree's best time at most 5 % above
 same run, the 5 % allowing for the noise of a shared machine); peak memory under 2 GB for every shape; a
 stated figure (no target) for the unstirred drums. A size target is judged only at the size it names.
 
+With --check, each baseline sample is also screened by heatscreen (not timed) and the baseline's figures are
+compared row by row with heatscreen's (the first limit's time, time to boil and to dry, the critical ambient,
+the SADT, the centre temperature at the horizon): evidence that the loop computes the same physics.
+
 This is a script, not a test: it measures; it asserts nothing.
 """
 from __future__ import annotations
@@ -91,6 +95,8 @@ SADT_RISE = 6.0
 FIRE_ZONE = 7.6  # m, API 521 wetted area up to 25 ft above the fire base (from memory)
 FIRE_C = 43_200.0  # W / m^1.64, API 521 with adequate drainage and fire-fighting, SI form (from memory)
 
+DEFAULT_HORIZON = 72 * HOUR  # the tool's horizon when a case gives none
+
 SHAPES = ("simple", "geometry", "drums", "mixed", "unstirred")
 TARGET_ROWS = {"geometry": 100_000, "drums": 10_000}
 TARGET_SECONDS = {"geometry": 10.0, "drums": 30.0}
@@ -123,10 +129,24 @@ def write_csv(path: Path, header: list[str], rows: list[list]) -> None:
 # ----------------------------------------------------------------------------- (a) simple rows
 
 
-def simple_baseline(rows: list[dict]) -> float:
-    """Seconds per row: solve_ivp of the lumped balance with a constant and a decaying source."""
+def _two_source_run(C, ua, Ta, T0, p0, p1, tau, lim, horizon=DEFAULT_HORIZON):
+    """solve_ivp of C dT/dt = p0 + p1 exp(-t/tau) - UA (T - Ta), terminal at the limit: its time or None."""
     from scipy.integrate import solve_ivp
 
+    def rhs(t, T):
+        return [(p0 + p1 * math.exp(-t / tau) - ua * (T[0] - Ta)) / C]
+
+    def hit(t, T):
+        return T[0] - lim
+
+    hit.terminal = True
+    sol = solve_ivp(rhs, (0.0, horizon), [T0], method="LSODA", events=hit, rtol=1e-10, atol=1e-12)
+    return float(sol.t_events[0][0]) if len(sol.t_events[0]) else None
+
+
+def simple_baseline(rows: list[dict]):
+    """Seconds per row, None, per-row outcomes: solve_ivp of the lumped balance, constant + decaying source."""
+    outcomes = {}
     t0 = time.perf_counter()
     for row in rows:
         C = num(row, "contents.mass") * num(row, "contents.specific_heat") * 1000.0
@@ -134,25 +154,28 @@ def simple_baseline(rows: list[dict]) -> float:
         p0, p1 = num(row, "heat_sources.0.power") * 1e3, num(row, "heat_sources.1.power") * 1e3
         tau, lim = num(row, "heat_sources.1.time_constant") * HOUR, num(row, "limits.0.temperature") + ZERO_C
         T0 = num(row, "contents.initial_temperature") + ZERO_C
-
-        def rhs(t, T):
-            return [(p0 + p1 * math.exp(-t / tau) - ua * (T[0] - Ta)) / C]
-
-        def hit(t, T):
-            return T[0] - lim
-
-        hit.terminal = True
-        solve_ivp(rhs, (0.0, 24 * HOUR), [T0], method="LSODA", events=hit, rtol=1e-10, atol=1e-12)
-    return (time.perf_counter() - t0) / len(rows)
+        outcomes[row["id"]] = {"limit_s": _two_source_run(C, ua, Ta, T0, p0, p1, tau, lim)}
+    return (time.perf_counter() - t0) / len(rows), None, outcomes
 
 
 # ----------------------------------------------------------------------------- (b) geometry
 
 
-def geometry_baseline(rows: list[dict]) -> float:
-    """Seconds per row: geometry_register_benchmark's loop (fluids geometry + solve_ivp) on these rows."""
+def geometry_baseline(rows: list[dict]):
+    """Seconds per row, None, per-row outcomes: geometry_register_benchmark's loop (fluids geometry, then
+    solve_ivp of the balance with its base case's constant 1 kW and 3 h decaying source) on these rows."""
     order = [h.split(" [")[0] for h in gb.HEADER]
-    return gb.per_row_loop([[row.get(k, "") for k in order] for row in rows])
+    outcomes = {}
+    t0 = time.perf_counter()
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")  # fluids' adaptive quadratures warn on some horizontal heads
+        for row in rows:
+            V, A = gb._fluids_geometry([row.get(k, "") for k in order])
+            C = V * num(row, "contents.density") * 2200.0
+            outcomes[row["id"]] = {"limit_s": _two_source_run(
+                C, num(row, "heat_loss.coefficient") * A, 303.15, 298.15, 1000.0,
+                num(row, "heat_sources.1.power") * 1e3, 3 * HOUR, num(row, "limits.0.temperature") + ZERO_C)}
+    return (time.perf_counter() - t0) / len(rows), None, outcomes
 
 
 def write_geometry(path: Path, n: int, seed: int) -> None:
@@ -252,33 +275,36 @@ def semenov_ambient(m, ua, q_ref, E, Tref):
 
 
 def sadt_search(trial, estimate):
-    """The tool's search on the 5 degC grid (orchestration only); returns the number of trials run."""
+    """The tool's search on the 5 degC grid (orchestration only): its SadtSearch (the SADT and the trials run)."""
     from screening.core import sadt as cs
 
     grid = cs.sadt_grid(cs.SADT_LOWEST, cs.search_bound([DRUM_TESTED_TOP]))
-    return len(cs.search_sadt(trial, grid, cs.start_index(grid, estimate)).trials)
+    return cs.search_sadt(trial, grid, cs.start_index(grid, estimate))
 
 
-def drums_baseline(rows: list[dict]) -> tuple[float, float]:
-    """Seconds per row and mean SADT trials per row: main run, Semenov estimate, 7-day trials."""
+def drums_baseline(rows: list[dict]):
+    """Seconds per row, mean SADT trials per row, per-row outcomes: main run, Semenov estimate, 7-day trials."""
     from screening.core import sadt as cs
 
-    n_trials = 0
+    n_trials, outcomes = 0, {}
     t0 = time.perf_counter()
     for row in rows:
         m, ua = num(row, "contents.mass"), num(row, "heat_loss.ua")
         Ta, T0 = num(row, "heat_loss.ambient_temperature") + ZERO_C, num(row, "contents.initial_temperature") + ZERO_C
         q, E = num(row, "heat_sources.0.specific_power"), num(row, "heat_sources.0.activation_energy") * 1e3
         C = m * DRUM_CP
-        _lumped_arrhenius(m, C, ua, Ta, T0, q, E, DRUM_HORIZON, DRUM_LIMIT, DRUM_LIMIT + 100.0)
+        sol = _lumped_arrhenius(m, C, ua, Ta, T0, q, E, DRUM_HORIZON, DRUM_LIMIT, DRUM_LIMIT + 100.0)
         estimate = semenov_ambient(m, ua, q, E, DRUM_TREF)
 
         def trial(amb, m=m, C=C, ua=ua, q=q, E=E):
             sol = _lumped_arrhenius(m, C, ua, amb, amb, q, E, SADT_WINDOW, amb + SADT_RISE, amb + 100.0)
             return cs.SadtTrial(amb, len(sol.t_events[0]) > 0, None, None, float(sol.y[0].max()))
 
-        n_trials += sadt_search(trial, estimate)
-    return (time.perf_counter() - t0) / len(rows), n_trials / len(rows)
+        search = sadt_search(trial, estimate)
+        n_trials += len(search.trials)
+        outcomes[row["id"]] = {"limit_s": float(sol.t_events[0][0]) if len(sol.t_events[0]) else None,
+                               "critical_ambient_K": estimate, "sadt_K": search.sadt}
+    return (time.perf_counter() - t0) / len(rows), n_trials / len(rows), outcomes
 
 
 # ----------------------------------------------------------------------------- (d) mixed closed-form rows
@@ -382,10 +408,11 @@ def _tank(row):
     return tank, tank.h_from_V(V, method="brenth"), V
 
 
-def mixed_baseline(rows: list[dict]) -> float:
-    """Seconds per row: fluids geometry where given, then solve_ivp of the row's lumped balance."""
+def mixed_baseline(rows: list[dict]):
+    """Seconds per row, None, per-row outcomes: fluids geometry where given, solve_ivp of the lumped balance."""
     from scipy.integrate import solve_ivp
 
+    outcomes = {}
     t0 = time.perf_counter()
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")  # fluids' adaptive quadratures warn on some horizontal heads
@@ -432,6 +459,9 @@ def mixed_baseline(rows: list[dict]) -> float:
                 boil.terminal = True  # open venting: held at the boiling point from here on
                 events.append(boil)
             sol = solve_ivp(rhs, (0.0, MIXED_HORIZON), [T0], method="LSODA", events=events, rtol=1e-10, atol=1e-12)
+            first = [float(e[0]) if len(e) else None for e in sol.t_events]
+            got = outcomes[row["id"]] = {"limit_s": first[0], "time_to_boil_s": first[1] if Tb else None,
+                                         "time_to_dry_s": None}
             if Tb is not None and len(sol.t_events[1]):  # boiling: held at Tb, boil-off at the net power / L
                 L = num(row, "contents.latent_heat") * 1e3
 
@@ -442,9 +472,10 @@ def mixed_baseline(rows: list[dict]) -> float:
                     return y[0]
 
                 dry.terminal = True
-                solve_ivp(boil_off, (float(sol.t_events[1][0]), MIXED_HORIZON), [m], method="LSODA", events=dry,
-                          rtol=1e-10, atol=1e-9)
-    return (time.perf_counter() - t0) / len(rows)
+                off = solve_ivp(boil_off, (float(sol.t_events[1][0]), MIXED_HORIZON), [m], method="LSODA",
+                                events=dry, rtol=1e-10, atol=1e-9)
+                got["time_to_dry_s"] = float(off.t_events[0][0]) if len(off.t_events[0]) else None
+    return (time.perf_counter() - t0) / len(rows), None, outcomes
 
 
 # ----------------------------------------------------------------------------- (e) unstirred drums
@@ -561,27 +592,32 @@ def fk_ambient(j, R, rho, k, q_ref):
         return None
 
 
-def unstirred_baseline(rows: list[dict]) -> tuple[float, float]:
-    """Seconds per row and mean SADT trials per row: 64- and 128-cell main runs, FK estimate, 7-day trials."""
+def unstirred_baseline(rows: list[dict]):
+    """Seconds per row, mean SADT trials per row, per-row outcomes: 64- and 128-cell main runs, FK estimate,
+    7-day trials."""
     from screening.core import sadt as cs
 
-    n_trials = 0
+    n_trials, outcomes = 0, {}
     t0 = time.perf_counter()
     for row in rows:
         j, R = _body(row)
         rho, k = num(row, "contents.density"), num(row, "contents.thermal_conductivity")
         q = num(row, "heat_sources.0.specific_power")
         Ta, T0 = num(row, "heat_loss.ambient_temperature") + ZERO_C, num(row, "contents.initial_temperature") + ZERO_C
-        for cells in (64, 128):
-            conduction_run(j, R, rho, k, q, Ta, T0, U_HORIZON, U_LIMIT, U_LIMIT + 100.0, cells)
+        runs = [conduction_run(j, R, rho, k, q, Ta, T0, U_HORIZON, U_LIMIT, U_LIMIT + 100.0, cells)
+                for cells in (64, 128)]
 
         def trial(amb, j=j, R=R, rho=rho, k=k, q=q):
             sol = conduction_run(j, R, rho, k, q, amb, amb, SADT_WINDOW, amb + SADT_RISE, amb + 100.0, 64)
             return cs.SadtTrial(amb, len(sol.t_events[0]) > 0, None, None, float(sol.y[0].max()))
 
         grid = cs.sadt_grid(cs.SADT_LOWEST, cs.search_bound([U_TESTED_TOP]))
-        n_trials += len(cs.search_sadt(trial, grid, cs.start_index(grid, fk_ambient(j, R, rho, k, q))).trials)
-    return (time.perf_counter() - t0) / len(rows), n_trials / len(rows)
+        search = cs.search_sadt(trial, grid, cs.start_index(grid, fk_ambient(j, R, rho, k, q)))
+        n_trials += len(search.trials)
+        ev = runs[0].t_events[0]
+        outcomes[row["id"]] = {"limit_s": float(ev[0]) if len(ev) else None, "sadt_K": search.sadt,
+                               "centre_at_horizon_K": None if runs[0].status == 1 else float(runs[0].y[0][-1])}
+    return (time.perf_counter() - t0) / len(rows), n_trials / len(rows), outcomes
 
 
 # ----------------------------------------------------------------------------- the runs
@@ -636,7 +672,50 @@ def verdict(ok: bool) -> str:
     return "met" if ok else "NOT met"
 
 
-def run_shape(shape: str, n: int, sample: int, repeat: int, tmp: Path, baseline_tree: Path | None) -> None:
+#: outcome of the baseline -> how to read it from a result of results.json, and whether it is a time
+TOOL_KEYS = {
+    "limit_s": (lambda r: r["limits"][0]["time_s"], True),
+    "time_to_boil_s": (lambda r: (r.get("boiling") or {}).get("time_to_boil_s"), True),
+    "time_to_dry_s": (lambda r: (r.get("boiling") or {}).get("time_to_dry_s"), True),
+    "critical_ambient_K": (lambda r: r.get("critical_ambient_temperature_K"), False),
+    "sadt_K": (lambda r: r.get("sadt_K"), False),
+    "centre_at_horizon_K": (lambda r: (r.get("conduction") or {}).get("centre_temperature_at_horizon_K"), False),
+}
+
+
+def check_against_tool(shape: str, samp: Path, base: Path, outcomes: dict, tmp: Path) -> None:
+    """Screen the baseline's sample with heatscreen (not timed) and compare the figures row by row."""
+    import json
+
+    out = tmp / f"{shape}-check"
+    gb.run_batch(samp, base, out)
+    try:
+        results = {r["id"]: r for r in json.loads((out / "results.json").read_text(encoding="utf-8"))}
+    except (OSError, ValueError) as exc:
+        print(f"  check: no results to compare ({exc})")
+        return
+    parts = []
+    for key, (read, is_time) in TOOL_KEYS.items():
+        pairs = [(got[key], read(results[i])) for i, got in outcomes.items() if key in got and i in results]
+        if not pairs:
+            continue
+        both = [(a, b) for a, b in pairs if a is not None and b is not None]
+        one = sum((a is None) != (b is None) for a, b in pairs)
+        if is_time:
+            worst = max((abs(a - b) / max(abs(b), 1e-300) for a, b in both), default=0.0)
+            parts.append(f"{key} {len(both)} rows, largest relative difference {worst:.1e}")
+        else:
+            worst = max((abs(a - b) for a, b in both), default=0.0)
+            parts.append(f"{key} {len(both)} rows, largest difference {worst:.2g} K")
+        if one:
+            parts[-1] += f", {one} rows given by only one of the two"
+    missing = len(set(outcomes) - set(results))
+    print(f"  check, baseline against heatscreen on the {len(outcomes)} sample rows: " + "; ".join(parts)
+          + (f"; {missing} rows not screened" if missing else ""))
+
+
+def run_shape(shape: str, n: int, sample: int, repeat: int, tmp: Path, baseline_tree: Path | None,
+              check: bool = False) -> None:
     base_text, writer, baseline, _, what = SPEC[shape]
     print(f"\n[{shape}] {n:,} rows: {what}")
     base = tmp / f"{shape}-base.yaml"
@@ -645,8 +724,9 @@ def run_shape(shape: str, n: int, sample: int, repeat: int, tmp: Path, baseline_
     writer(reg, n, 1)
     samp = tmp / f"{shape}-sample.csv"
     writer(samp, sample, 2)
-    res = baseline(read_rows(samp))
-    per_row, trials = res if isinstance(res, tuple) else (res, None)
+    rows = read_rows(samp)
+    baseline(rows[:1])  # warm-up: imports and first calls outside the timing
+    per_row, trials, outcomes = baseline(rows)
     extra = f", {trials:.1f} SADT trials a row on average" if trials is not None else ""
     print(f"  baseline, per-row loop: {per_row * 1000:,.1f} ms/row (sample of {sample}{extra}), "
           f"so {per_row * n:,.1f} s for {n:,} rows")
@@ -667,6 +747,8 @@ def run_shape(shape: str, n: int, sample: int, repeat: int, tmp: Path, baseline_
               f"[memory target 2 GB: {verdict(mb < MEMORY_TARGET_MB)}] (exit {code}; {seen})")
     if shape in ("drums", "unstirred"):
         print(f"  heatscreen's results: {sadt_summary(tmp / f'{shape}-out-this-tree-0')}")
+    if check:
+        check_against_tool(shape, samp, base, outcomes, tmp)
     wall = best["this tree"]
     if shape in TARGET_SECONDS:
         size, limit = TARGET_ROWS[shape], TARGET_SECONDS[shape]
@@ -700,6 +782,9 @@ def main(argv=None) -> int:
                          "unstirred 6; never more than the register's rows)")
     ap.add_argument("--scale", type=float, default=1.0, help="multiplies every row count (e.g. 0.01 for a quick run)")
     ap.add_argument("--repeat", type=int, default=1, help="run each batch this many times: best and median")
+    ap.add_argument("--check", action="store_true",
+                    help="also screen each baseline sample with heatscreen (not timed) and print how far the "
+                         "baseline's figures (limit times, boiling, critical ambient, SADT) are from heatscreen's")
     ap.add_argument("--baseline-tree", type=Path, default=None,
                     help="another checkout (e.g. main before the change) to run the simple register through too")
     args = ap.parse_args(argv)
@@ -719,7 +804,7 @@ def main(argv=None) -> int:
             n = max(1, int(round(getattr(args, f"rows_{shape}") * args.scale)))
             sample = min(n, args.sample if args.sample is not None else SPEC[shape][3])
             run_shape(shape, n, max(1, sample), args.repeat, Path(tmpd),
-                      args.baseline_tree.resolve() if args.baseline_tree else None)
+                      args.baseline_tree.resolve() if args.baseline_tree else None, args.check)
     print(f"\nmachine speed after: {rb.python_loop_seconds():.2f} s for the same loop")
     return 0
 
