@@ -27,12 +27,15 @@ For each shape it times ``heatscreen batch`` end to end in its own process (``py
 batch REG.csv --base BASE.yaml --out DIR``: reading, validation, screening, every output file; wall time,
 rows/s and the peak resident memory of the batch process and its workers), and a per-row baseline loop
 of the same physics on a sample of rows drawn the same way (another seed), extrapolated to the register's
-size. The ratio printed is baseline / heatscreen (above 1: heatscreen is faster). Each baseline:
+size. The ratio printed is baseline / heatscreen (above 1: heatscreen is faster); one warm-up call of the
+baseline on one row comes first, outside the timing. Each baseline:
 
   simple     per row, ``scipy.integrate.solve_ivp`` (LSODA, rtol 1e-10, atol 1e-12) of C dT/dt =
-             P0 + P1 exp(-t/tau) - UA (T - Ta) with a terminal event at the limit;
+             P0 + P1 exp(-t/tau) - UA (T - Ta) over the tool's default 72 h horizon with a terminal event at
+             the limit;
   geometry   per row, ``fluids.geometry`` (TANK volume, its exact inverse for the liquid height, the wetted
-             area; the sphere's height by brentq) and then the same solve_ivp as simple;
+             area; the sphere's height by brentq; geometry_register_benchmark.py's function) and then the same
+             solve_ivp as simple;
   drums      per row, the main run: solve_ivp (LSODA, rtol 1e-10) of temperature and conversion over the
              horizon with an event at the limit, stopped 100 K above it; the Semenov critical ambient by
              brentq on the tangency condition (the start of the search); and the SADT trials the tool runs:
@@ -42,15 +45,17 @@ size. The ratio printed is baseline / heatscreen (above 1: heatscreen is faster)
              ambient). TMRad, T_D24 and the other closed-form criteria are not in the baseline (cheap);
   mixed      per row, ``fluids.geometry`` where the row has geometry (the fire's wetted area up to 7.6 m
              above the fire base) and solve_ivp (LSODA, rtol 1e-10) of the lumped balance with the row's
-             sources (API 521 fire input 43.2 kW F A^0.82, a medium's UA (Tm - T), constant, decaying) over the
-             24 h horizon with an event at the limit and a terminal event at the boiling point of an open vessel, and from there the
-             boil-off (net power / latent heat) until the contents are boiled off or the horizon;
+             sources (API 521 fire input 43.2 kW F A^0.82, no loss credited with a fire; a medium's
+             UA (Tm - T); constant; decaying) over the 24 h horizon, with an event at the limit and a
+             terminal event at the boiling point of an open vessel, and from there the boil-off (net power
+             over the latent heat) until the contents are boiled off or the horizon ends;
   unstirred  per row, a method-of-lines finite-volume solution of the 1-D heat equation with the Arrhenius
              source and its conversion in every cell (slab, infinite cylinder or sphere as the tool takes the
              shape; solve_ivp BDF with the Jacobian's sparsity, rtol 1e-8) on 64 cells and again on 128 (the
              tool's mesh check), over the horizon with an event at the limit; then the SADT search as for the
-             drums with 7-day trials on 64 cells, started at the Frank-Kamenetskii critical ambient (infinite
-             Biot number).
+             drums with 7-day trials on 64 cells, started at the Frank-Kamenetskii critical ambient for an
+             infinite Biot number (the tool starts at the one for the actual Biot number, a little lower, so
+             the two may try a different number of steps: both averages are printed).
 
 Targets from issue 17 are printed beside the figures they concern (met / not met): 100,000 geometry rows
 under 10 s; 10,000 stirred Arrhenius drums (storage, SADT included) under 30 s; simple rows no slower than
