@@ -2,9 +2,9 @@
 
 Most registers are many rows of one shape: the same filled columns over the
 same base case, differing only in numbers.  When such a group's representative
-row (validated and screened in full) is a closed-form heat-up case without fire,
-recovery, wall, daily cycle or uncertainty block (heating media, boiling data and a
-detection alarm or delay are taken), and either
+row (validated and screened in full) is a closed-form heat-up case without recovery,
+wall, daily cycle or uncertainty block (heating media, boiling data, a detection alarm
+or delay, and fire exposure on a given wetted area without tank geometry are taken), and either
 
 * no vessel shape and heat loss as a given UA with the mass given, or
 * a vessel given by geometry with stirred contents and heat loss as a given UA or a coefficient on
@@ -45,7 +45,8 @@ from screening.case.geometry_columns import (
 from screening.case.paths import model_slot
 from screening.case.prepare import display_unit_from_texts
 from screening.case.units import UnitError, unit_factor
-from screening.core.terms import conductance_and_drive, heat_capacity
+from screening.core.fire_exposure import FIRE_CAUTIONS
+from screening.core.terms import conductance_and_drive, fire_power, heat_capacity
 from screening.core.vessel_geometry_arrays import VesselArrays
 from screening.register.reading import Column
 from screening.register.rows import _NUMBER_ONLY, _cell_value
@@ -102,7 +103,7 @@ def plan_group(rep, fast_cols) -> list[_Varying] | None:
         return None
     if (model.scenario != "heat-up" or model.released_at_start
             or (not tank and (spec.heat_loss.ua is None or spec.contents.mass is None))
-            or model.arrhenius_sources or model.fire_sources
+            or model.arrhenius_sources or (model.fire_sources and tank)
             or (model.boiling is not None and model.boiling.boiling_point < model.initial_temperature)
             or rep.recovery is not None or rep.uncertainty_plan is not None
             or model.wall_heat_capacity != 0.0 or model.daily_cycle is not None):
@@ -121,6 +122,8 @@ def plan_group(rep, fast_cols) -> list[_Varying] | None:
         slot = model_slot(spec, path, rep.source_positions)
         if slot is None or slot.kind not in _COLUMN_KINDS or marker is None:
             return None
+        if slot.kind == "ua" and model.fire_sources:
+            return None  # prepare sets UA to 0 under fire, with a warning when the row's UA is not 0
         out.append(_Varying(col, slot.kind, slot.index, marker, ".".join(str(p) for p in path)))
     return out
 
@@ -262,7 +265,7 @@ def screen_group(rep, rep_index: int, rows: list[list[str]], members: list[int],
     if cols["alarm"] is not None:
         L[:, nl + 1] = cols["alarm"]
     C = heat_capacity(cols["mass"], cols["cp"], m.wall_heat_capacity)
-    p0 = sum(cols["const"]) + np.zeros(n)
+    p0 = sum(cols["const"]) + np.zeros(n) + fire_power(m)  # constant_power: the constant sources, then fire
     G, Q0 = conductance_and_drive(cols["ua"], cols["Ta"], p0, cols["medium_ua"], cols["medium_T"])
     G_ad, Q0_ad = conductance_and_drive(np.zeros(n), cols["Ta"], p0, cols["medium_ua"], cols["medium_T"])
     engine_ok, times, summary, ad_times = run_engine(C, G, Q0, G_ad, Q0_ad, cols["T0"], P, b, L, cols["H"], nl)
@@ -296,8 +299,10 @@ def screen_group(rep, rep_index: int, rows: list[list[str]], members: list[int],
         for kind, values_ in texts:
             out[kind] = values_[r]
         writer.write(r, out, case_keys=True)
-        out["warnings"] = (list(rep.warnings) if tank is None else tank.warnings(r)) + out["warnings"] \
-            + tail_warnings
+        warnings = (list(rep.warnings) if tank is None else tank.warnings(r)) + out["warnings"] + tail_warnings
+        if m.fire_sources:  # as screen_prepared: the fire cautions after the others, once each
+            warnings.extend(c for c in FIRE_CAUTIONS if c not in warnings)
+        out["warnings"] = warnings
         out["assumptions"] = list(assumptions)
         out["inputs"] = rows_out.inputs(r)
         out["units"] = {"temperature": rows_out.units[r]}
