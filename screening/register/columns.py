@@ -220,14 +220,15 @@ def screen_group(rep, rep_index: int, rows: list[list[str]], members: list[int],
     """Screen ``members`` (row indices into ``rows``) of a uniform group at once.
 
     ``rep`` is the representative's PreparedCase (row ``rep_index``, screened on its own); ``row_hash(cells)``
-    gives a row's input hash and ``rep_result_of(None)`` the representative's public result (the template of
-    the keys no row varies). Each row's closed-form keys are written by
+    gives a row's input hash and ``rep_result_of(values)`` the representative's public result for the given
+    ClosedFormValues (its own from the group's engine run, or None: the scalar engine), the template of the
+    keys no row varies. Each row's closed-form keys are written by
     :class:`screening.run.closed_form_group.ClosedFormWriter`, the writer of the one-case path.
     """
-    idx = list(members)
-    n = len(idx)
-    if n == 0:
+    if not members:
         return GroupResults({}, [])
+    idx = [rep_index] + list(members)  # the representative first: its engine values serve its own result
+    n = len(idx)
     ok = np.ones(n, dtype=bool)
     parsed = {}
     for v in plan:
@@ -270,7 +271,7 @@ def screen_group(rep, rep_index: int, rows: list[list[str]], members: list[int],
     G_ad, Q0_ad = conductance_and_drive(np.zeros(n), cols["Ta"], p0, cols["medium_ua"], cols["medium_T"])
     engine_ok, times, summary, ad_times = run_engine(C, G, Q0, G_ad, Q0_ad, cols["T0"], P, b, L, cols["H"], nl)
     ok &= engine_ok
-    if not ok.any():
+    if not ok[1:].any():
         return GroupResults({}, list(members))
     boiling = m.boiling
     group = ClosedFormGroup(C, G, Q0, Q0, cols["T0"], cols["T0"], cols["Ta"], cols["ua"], cols["H"],
@@ -280,7 +281,7 @@ def screen_group(rep, rep_index: int, rows: list[list[str]], members: list[int],
                             cols["medium_ua"], cols["medium_T"])
     values = GroupValues(times[:, :nl], ad_times, summary.peak_temperature, summary.peak_time,
                          summary.end_temperature, summary.end_rate, times[:, nl], times[:, nl + 1])
-    template = rep_result_of(None)
+    template = rep_result_of(values.values_of(0) if ok[0] else None)
     rows_out = _RowInputs(rep, plan, parsed, n)
     writer = ClosedFormWriter(rep, group, values, rows_out.units)
     extra = {"warnings": []}
@@ -291,6 +292,8 @@ def screen_group(rep, rep_index: int, rows: list[list[str]], members: list[int],
              if v.marker is None and v.kind == kind]
     results, left = {}, []
     for r, good in enumerate(ok.tolist()):
+        if r == 0:
+            continue  # the representative: screened on its own
         i = idx[r]
         if not good:
             left.append(i)

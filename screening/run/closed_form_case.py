@@ -5,7 +5,6 @@ in T and has an exact solution (:mod:`screening.core.closed_form_history`).
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
 
 import numpy as np
 
@@ -13,30 +12,9 @@ from screening.case.prepare import PreparedCase
 from screening.core.closed_form_history import balance_of, heat_rates, temperature
 from screening.core.time_to_limit import first_crossing, history_shape
 from screening.result import HISTORY_POINTS
-from screening.run.closed_form_group import ClosedFormGroup, ClosedFormWriter, GroupValues
+from screening.run.closed_form_group import ClosedFormGroup, ClosedFormValues, ClosedFormWriter, GroupValues
 from screening.run.daily_cycle import climbing_peaks_warning
 from screening.run.recovery import recovery_path
-
-
-@dataclass
-class ClosedFormValues:
-    """What the time-to-limit solver gives for one closed-form case (from either engine).
-
-    limit_times : first time to each model limit, s (None: not reached within the horizon)
-    boil_time : first time to the boiling point, s, or None
-    alarm_time : first time to the alarm temperature, s, or None
-    peak : (temperature K, time s) within the horizon
-    end_temperature, end_rate : K and K/s at the horizon
-    adiabatic_limit_times : the same limits with UA = 0
-    """
-
-    limit_times: list
-    boil_time: float | None
-    alarm_time: float | None
-    peak: tuple
-    end_temperature: float
-    end_rate: float
-    adiabatic_limit_times: list
 
 
 def closed_form_values(prepared: PreparedCase) -> ClosedFormValues:

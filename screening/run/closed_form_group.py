@@ -103,6 +103,27 @@ class ClosedFormGroup:
 
 
 @dataclass
+class ClosedFormValues:
+    """What the time-to-limit solver gives for one closed-form case (from either engine).
+
+    limit_times : first time to each model limit, s (None: not reached within the horizon)
+    boil_time : first time to the boiling point, s, or None
+    alarm_time : first time to the alarm temperature, s, or None
+    peak : (temperature K, time s) within the horizon
+    end_temperature, end_rate : K and K/s at the horizon
+    adiabatic_limit_times : the same limits with UA = 0
+    """
+
+    limit_times: list
+    boil_time: float | None
+    alarm_time: float | None
+    peak: tuple
+    end_temperature: float
+    end_rate: float
+    adiabatic_limit_times: list
+
+
+@dataclass
 class GroupValues:
     """What a time-to-limit engine gives for a group (NaN: not reached, or no such limit).
 
@@ -123,12 +144,23 @@ class GroupValues:
 
     @classmethod
     def of_one(cls, values) -> "GroupValues":
-        """A group of one from a :class:`screening.run.closed_form_case.ClosedFormValues`."""
+        """A group of one from a :class:`ClosedFormValues`."""
         row = lambda ts: np.array([[np.nan if t is None else t for t in ts]], dtype=float).reshape(1, len(ts))  # noqa
         one = lambda x: np.array([np.nan if x is None else x], dtype=float)  # noqa: E731
         return cls(row(values.limit_times), row(values.adiabatic_limit_times), one(values.peak[0]),
                    one(values.peak[1]), one(values.end_temperature), one(values.end_rate), one(values.boil_time),
                    one(values.alarm_time))
+
+
+    def values_of(self, r: int) -> ClosedFormValues:
+        """Row r as a :class:`ClosedFormValues` (for the one-case path, e.g. a register group's representative)."""
+        def opt(a):
+            return None if a is None or np.isnan(a[r]) else float(a[r])
+
+        return ClosedFormValues(_nullable(self.limit_times[r]), opt(self.boil_time), opt(self.alarm_time),
+                                (float(self.peak_temperature[r]), float(self.peak_time[r])),
+                                float(self.end_temperature[r]), float(self.end_rate[r]),
+                                _nullable(self.adiabatic_limit_times[r]))
 
 
 def _nullable(a: np.ndarray) -> list:
