@@ -2,11 +2,11 @@
 
 Most registers are many rows of one shape: the same filled columns over the
 same base case, differing only in numbers.  When such a group's representative
-row (validated and screened in full) is a simple closed-form case, namely
+row (validated and screened in full) is a closed-form heat-up case without recovery,
+wall, daily cycle or uncertainty block (heating media, boiling data, a detection alarm
+or delay, and fire exposure on a given wetted area without tank geometry are taken), and either
 
-* a heat-up scenario (no synthesis or decomposition source), no fire, heating medium, boiling data,
-  cooling recovery, alarm or uncertainty block, and either
-* no vessel block and heat loss as a given UA, or
+* no vessel shape and heat loss as a given UA with the mass given, or
 * a vessel given by geometry with stirred contents and heat loss as a given UA or a coefficient on
   the wetted, total or a given area (a group of tanks: its volumes, areas, mass and UA come from
   :mod:`screening.case.geometry_columns`, the functions prepare_case calls with a group of one),
@@ -15,17 +15,16 @@ and every column that varies in the group is one of the quantities listed in
 :data:`VARYING_PATHS` (or :data:`GEOMETRY_PATHS` for tanks, or the id or title), the other rows need not be built
 one by one.  Their cells are parsed a column at a time with the column's unit
 looked up once, the SI model numbers are assembled as arrays, the vectorised
-engine runs once for the group, and each row's result object is the
-representative's with the row's numbers written in.
+engine runs once for the group, and each row's closed-form keys are written by
+:class:`screening.run.closed_form_group.ClosedFormWriter`, the writer the one-case
+path uses for a group of one, into a copy of the representative's result (the keys
+no row varies).
 
-The result is the same object ``check --json`` prints for the equivalent case:
-the same formulas (in the same floating-point order) and the same warning texts
-(:mod:`screening.run.warnings` provides them).  Each group checks itself: the
-representative is also rebuilt this way and compared with its result from the
-general path; on any difference the group goes the general way, row by row.
+This module keeps what is register-specific: reading cells into SI arrays and texts,
+which rows form a group, each row's inputs list entries and display unit.
 A row whose cells the column parser does not accept (a unit in a cell where the
-header gives one, a value out of range, an empty id) also goes the general
-way, where it gets exactly the errors a case file would.
+header gives one, a value out of range, an empty id), or that starts above its boiling
+point, goes the general way, where it gets exactly the errors and warnings a case file would.
 """
 from __future__ import annotations
 
@@ -46,39 +45,29 @@ from screening.case.geometry_columns import (
 from screening.case.paths import model_slot
 from screening.case.prepare import display_unit_from_texts
 from screening.case.units import UnitError, unit_factor
-from screening.core.terms import conductance_and_drive, heat_capacity
+from screening.core.fire_exposure import FIRE_CAUTIONS
+from screening.core.terms import conductance_and_drive, fire_power, heat_capacity
 from screening.core.vessel_geometry_arrays import VesselArrays
 from screening.register.reading import Column
 from screening.register.rows import _NUMBER_ONLY, _cell_value
 from screening.register.validation import _is_absolute_temperature
 from screening.register.vectorised import run_engine
-from screening.run.closed_form_case import ClosedFormValues
-from screening.run.warnings import (
-    ADIABATIC_WARNING,
-    MARGIN_NOTE_ASSUMED,
-    biot_and_validity,
-    case_assumptions,
-    limit_at_start_warning,
-    response_beyond_horizon_warning,
-    short_horizon_warning,
-    still_rising_warning,
-)
+from screening.run.closed_form_group import ClosedFormGroup, ClosedFormWriter, GroupValues
+from screening.run.warnings import biot_and_validity, case_assumptions
 
 #: Quantity paths a uniform group may vary per row (list indices are filled in by the plan).
 VARYING_PATHS = ("contents.mass", "contents.specific_heat", "contents.initial_temperature",
                  "heat_loss.ambient_temperature", "heat_loss.ua", "horizon", "response_time",
                  "limits.N.temperature", "heat_sources.N.power", "heat_sources.N.time_constant",
-                 "heat_sources.N.half_life")
+                 "heat_sources.N.half_life", "heat_sources.N.ua", "heat_sources.N.medium_temperature",
+                 "detection.alarm_temperature")
 
 #: The keys of a result object a row of a uniform group may hold differently from its representative.
 VARYING_KEYS = frozenset({
     "id", "title", "time_constant_s", "peak_temperature_K", "peak_time_s", "steady_temperature_K", "limits",
     "adiabatic", "warnings", "detection_time_s", "response_time_s", "initial_temperature_K", "ambient_temperature_K",
     "horizon_s", "heat_capacity_J_per_K", "ua_W_per_K", "limit_exceeded_at_start", "assumptions", "inputs", "units",
-    "input_hash", "geometry"})
-
-#: Raise instead of falling back when a group's self-check fails (the tests set this).
-STRICT_SELF_CHECK = False
+    "input_hash", "geometry", "boiling"})
 
 #: Quantity paths a group of tanks given by geometry may also vary (path -> kind).
 GEOMETRY_PATHS = {("vessel", "diameter"): "diameter", ("vessel", "length"): "length", ("vessel", "width"): "width",
@@ -88,12 +77,8 @@ GEOMETRY_PATHS = {("vessel", "diameter"): "diameter", ("vessel", "length"): "len
                   ("heat_loss", "coefficient"): "coefficient"}
 
 #: Model slots (screening.case.paths) a uniform group may vary, column by column.
-_SCALAR_KINDS = ("mass", "cp", "T0", "Ta", "ua", "H", "response")
-_COLUMN_KINDS = frozenset(_SCALAR_KINDS + ("limit", "const", "dpower", "dtau", "dhalf"))
-
-
-class SelfCheckError(AssertionError):
-    """The columnar result of a representative differs from its general-path result."""
+_SCALAR_KINDS = ("mass", "cp", "T0", "Ta", "ua", "H", "response", "alarm")
+_COLUMN_KINDS = frozenset(_SCALAR_KINDS + ("limit", "const", "dpower", "dtau", "dhalf", "medium_ua", "medium_T"))
 
 
 @dataclass
@@ -118,8 +103,9 @@ def plan_group(rep, fast_cols) -> list[_Varying] | None:
         return None
     if (model.scenario != "heat-up" or model.released_at_start
             or (not tank and (spec.heat_loss.ua is None or spec.contents.mass is None))
-            or model.arrhenius_sources or model.fire_sources or model.heating_media or model.boiling is not None
-            or rep.recovery is not None or rep.detection_alarm is not None or rep.uncertainty_plan is not None
+            or model.arrhenius_sources or (model.fire_sources and tank)
+            or (model.boiling is not None and model.boiling.boiling_point < model.initial_temperature)
+            or rep.recovery is not None or rep.uncertainty_plan is not None
             or model.wall_heat_capacity != 0.0 or model.daily_cycle is not None):
         return None
     out = []
@@ -136,17 +122,21 @@ def plan_group(rep, fast_cols) -> list[_Varying] | None:
         slot = model_slot(spec, path, rep.source_positions)
         if slot is None or slot.kind not in _COLUMN_KINDS or marker is None:
             return None
+        if slot.kind == "ua" and model.fire_sources:
+            return None  # prepare sets UA to 0 under fire, with a warning when the row's UA is not 0
         out.append(_Varying(col, slot.kind, slot.index, marker, ".".join(str(p) for p in path)))
     return out
 
 
 def _is_tank_group(rep) -> bool | None:
     """True for a vessel given by its geometry that a group can take (stirred contents, heat loss as a given UA
-    or a coefficient on the wetted, total or a given area), False without a vessel block, None otherwise."""
+    or a coefficient on the wetted, total or a given area), False without a vessel shape, None otherwise."""
     spec = rep.spec
     if spec.vessel is None:
         return False
-    if spec.vessel.shape is None or rep.model.mixing != "stirred":
+    if spec.vessel.shape is None:  # a vessel block for its venting (or wall: refused by the caller) only
+        return False if rep.model.mixing == "stirred" else None
+    if rep.model.mixing != "stirred":
         return None
     if spec.heat_loss.ua is None and "heat_loss_area_m2" not in rep.geometry:
         return None
@@ -229,11 +219,15 @@ def screen_group(rep, rep_index: int, rows: list[list[str]], members: list[int],
                  row_hash, rep_result_of) -> GroupResults:
     """Screen ``members`` (row indices into ``rows``) of a uniform group at once.
 
-    ``rep`` is the representative's PreparedCase (row ``rep_index``); ``row_hash(cells)`` gives a row's
-    input hash and ``rep_result_of(values)`` the representative's public result from the general path
-    for the given ClosedFormValues (the self-check).
+    ``rep`` is the representative's PreparedCase (row ``rep_index``, screened on its own); ``row_hash(cells)``
+    gives a row's input hash and ``rep_result_of(values)`` the representative's public result for the given
+    ClosedFormValues (its own from the group's engine run, or None: the scalar engine), the template of the
+    keys no row varies. Each row's closed-form keys are written by
+    :class:`screening.run.closed_form_group.ClosedFormWriter`, the writer of the one-case path.
     """
-    idx = [rep_index] + list(members)  # the representative first: it is rebuilt for the self-check
+    if not members:
+        return GroupResults({}, [])
+    idx = [rep_index] + list(members)  # the representative first: its engine values serve its own result
     n = len(idx)
     ok = np.ones(n, dtype=bool)
     parsed = {}
@@ -246,17 +240,16 @@ def screen_group(rep, rep_index: int, rows: list[list[str]], members: list[int],
             si, texts, sources, good = _parse_column(v, cells)
             parsed[id(v)] = (si, texts, sources)
         ok &= np.asarray(good, dtype=bool)
-    if not ok[0]:
-        return GroupResults({}, list(members))
     cols = _model_columns(rep, plan, parsed, n)
     tank = None
-    if rep.spec.vessel is not None:
+    if rep.spec.vessel is not None and rep.spec.vessel.shape is not None:
         tank = _TankColumns(rep, plan, parsed, cols, n)
         ok &= tank.ok
-        if not ok[0]:
-            return GroupResults({}, list(members))
 
     m = rep.model
+    if m.boiling is not None:  # prepare refuses (open vessel) or warns (closed) where the contents start above it:
+        with np.errstate(invalid="ignore"):  # those rows go the general way
+            ok &= ~(m.boiling.boiling_point < cols["T0"])
     nl = len(m.limits)
     k = max(len(m.decaying_sources), 1)
     P = np.zeros((n, k))
@@ -265,84 +258,62 @@ def screen_group(rep, rep_index: int, rows: list[list[str]], members: list[int],
         for j in range(len(m.decaying_sources)):
             P[:, j] = cols["dpower"][j]
             b[:, j] = 1.0 / cols["dtau"][j]
-    L = np.full((n, nl + 2), np.nan)  # + boiling point + alarm, unused here (as in vectorised_values)
+    L = np.full((n, nl + 2), np.nan)  # + boiling point + alarm (as in vectorised_values)
     for j in range(nl):
         L[:, j] = cols["limit"][j]
+    if m.boiling is not None:
+        L[:, nl] = m.boiling.boiling_point
+    if cols["alarm"] is not None:
+        L[:, nl + 1] = cols["alarm"]
     C = heat_capacity(cols["mass"], cols["cp"], m.wall_heat_capacity)
-    p0 = sum(cols["const"]) + np.zeros(n)
-    G, Q0 = conductance_and_drive(cols["ua"], cols["Ta"], p0)
-    G_ad, Q0_ad = conductance_and_drive(np.zeros(n), cols["Ta"], p0)
+    p0 = sum(cols["const"]) + np.zeros(n) + fire_power(m)  # constant_power: the constant sources, then fire
+    G, Q0 = conductance_and_drive(cols["ua"], cols["Ta"], p0, cols["medium_ua"], cols["medium_T"])
+    G_ad, Q0_ad = conductance_and_drive(np.zeros(n), cols["Ta"], p0, cols["medium_ua"], cols["medium_T"])
     engine_ok, times, summary, ad_times = run_engine(C, G, Q0, G_ad, Q0_ad, cols["T0"], P, b, L, cols["H"], nl)
     ok &= engine_ok
-    if not ok[0]:
+    if not ok[1:].any():
         return GroupResults({}, list(members))
-    numbers = _GroupNumbers(rep, cols, C, G, Q0, times[:, :nl], summary, ad_times)
-    reference = rep_result_of(numbers.values_of(0))
-    builder = _RowBuilder(rep, plan, parsed, numbers, dict(reference), tank)
-    mine = builder.result(0, row_hash(rows[rep_index]))
-    reference["input_hash"] = mine["input_hash"]
-    if mine != reference:
-        if STRICT_SELF_CHECK:
-            diff = sorted(k for k in set(mine) | set(reference) if mine.get(k) != reference.get(k))
-            raise SelfCheckError(f"columnar and general results of the representative differ in {diff}")
-        return GroupResults({}, list(members))
+    boiling = m.boiling
+    group = ClosedFormGroup(C, G, Q0, Q0, cols["T0"], cols["T0"], cols["Ta"], cols["ua"], cols["H"],
+                            cols["dpower"], cols["dtau"], cols["limit"], cols["response"],
+                            None if boiling is None else np.full(n, boiling.boiling_point),
+                            None if boiling is None else np.full(n, boiling.latent_heat), cols["mass"], p0,
+                            cols["medium_ua"], cols["medium_T"])
+    values = GroupValues(times[:, :nl], ad_times, summary.peak_temperature, summary.peak_time,
+                         summary.end_temperature, summary.end_rate, times[:, nl], times[:, nl + 1])
+    template = rep_result_of(values.values_of(0) if ok[0] else None)
+    rows_out = _RowInputs(rep, plan, parsed, n)
+    writer = ClosedFormWriter(rep, group, values, rows_out.units)
+    extra = {"warnings": []}
+    biot_and_validity(rep, extra)  # depends on nothing a row varies here
+    tail_warnings = extra["warnings"]
+    assumptions = extra["assumptions"] + case_assumptions(rep)
+    texts = [(kind, parsed[id(v)][0]) for kind in ("id", "title") for v in plan
+             if v.marker is None and v.kind == kind]
     results, left = {}, []
     for r, good in enumerate(ok.tolist()):
         if r == 0:
-            continue
+            continue  # the representative: screened on its own
         i = idx[r]
-        if good:
-            results[i] = builder.result(r, row_hash(rows[i]))
-        else:
+        if not good:
             left.append(i)
-    return GroupResults(results, left, builder.template)
-
-
-def _nullable(a: np.ndarray) -> list:
-    """Python floats, None where NaN (not reached / not defined)."""
-    out = a.astype(object)
-    out[np.isnan(a)] = None
-    return out.tolist()
-
-
-class _GroupNumbers:
-    """Per-row numbers of a group as Python lists, computed as screen_closed_form computes them."""
-
-    def __init__(self, rep, cols: dict, C, G, Q0, times, summary, ad_times):
-        m = rep.model
-        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-            tau = C / G
-            steady_lossy = Q0 / G
-            pa = np.zeros(len(C))
-            for j in range(len(m.decaying_sources)):
-                pa = pa + cols["dpower"][j] * cols["dtau"][j]
-            steady_adiabatic = cols["T0"] + pa / C
-            rise = pa / C
-        tau = np.where((G > 0) & np.isfinite(tau), tau, np.nan)
-        steady = np.where(G > 0, np.where(np.isfinite(steady_lossy), steady_lossy, np.nan),
-                          np.where(Q0 == 0, steady_adiabatic, np.nan))
-        self.tau, self.steady = _nullable(tau), _nullable(steady)
-        self.C, self.rise = C.tolist(), rise.tolist()
-        self.T0, self.Ta, self.ua, self.H = (cols[k].tolist() for k in ("T0", "Ta", "ua", "H"))
-        self.peak_T, self.peak_t = summary.peak_temperature.tolist(), summary.peak_time.tolist()
-        self.end_T, self.end_rate = summary.end_temperature.tolist(), summary.end_rate.tolist()
-        self.times, self.ad_times = _nullable(times), _nullable(ad_times)
-        self.limit_T = np.stack(cols["limit"], axis=1).tolist() if cols["limit"] else [[]] * len(C)
-        self.response = cols["response"].tolist() if cols["response"] is not None else [None] * len(C)
-        detection = rep.detection_delay if rep.detection_delay is not None else 0.0
-        self.detection = detection
-        # rows that need a warning text (the same conditions as screen_closed_form / detection_and_recovery)
-        with np.errstate(invalid="ignore"):
-            flags = (np.isnan(tau) | ~(cols["H"] < tau)) & ~(summary.end_rate > 0) & ~(G == 0) \
-                & ~(times == 0.0).any(axis=1)
-            if cols["response"] is not None:
-                flags &= ~(cols["H"] < cols["response"] + (detection or 0.0))
-        self.plain = flags.tolist()  # True: no closed-form warning for this row (the rising check needs a
-        #                               limit not reached, so end_rate > 0 alone sends a row to the full test)
-
-    def values_of(self, r: int):
-        return ClosedFormValues(self.times[r], None, None, (self.peak_T[r], self.peak_t[r]), self.end_T[r],
-                                self.end_rate[r], self.ad_times[r])
+            continue
+        out = dict(template)
+        for kind, values_ in texts:
+            out[kind] = values_[r]
+        writer.write(r, out, case_keys=True)
+        warnings = (list(rep.warnings) if tank is None else tank.warnings(r)) + out["warnings"] + tail_warnings
+        if m.fire_sources:  # as screen_prepared: the fire cautions after the others, once each
+            warnings.extend(c for c in FIRE_CAUTIONS if c not in warnings)
+        out["warnings"] = warnings
+        out["assumptions"] = list(assumptions)
+        out["inputs"] = rows_out.inputs(r)
+        out["units"] = {"temperature": rows_out.units[r]}
+        out["input_hash"] = row_hash(rows[i])
+        if tank is not None:
+            out["geometry"] = tank.geometry(r)
+        results[i] = out
+    return GroupResults(results, left, template)
 
 
 def _model_columns(rep, plan: list[_Varying], parsed: dict, n: int) -> dict:
@@ -355,7 +326,10 @@ def _model_columns(rep, plan: list[_Varying], parsed: dict, n: int) -> dict:
             "limit": [full(lim.temperature) for lim in m.limits],
             "const": [full(s.power) for s in m.constant_sources],
             "dpower": [full(s.power) for s in m.decaying_sources],
-            "dtau": [full(s.time_constant) for s in m.decaying_sources]}
+            "dtau": [full(s.time_constant) for s in m.decaying_sources],
+            "medium_ua": [full(h.ua) for h in m.heating_media],
+            "medium_T": [full(h.medium_temperature) for h in m.heating_media],
+            "alarm": None if rep.detection_alarm is None else full(rep.detection_alarm)}
     for v in plan:
         if v.marker is None:
             continue
@@ -364,7 +338,7 @@ def _model_columns(rep, plan: list[_Varying], parsed: dict, n: int) -> dict:
             cols[v.kind] = si
         elif v.kind == "limit":
             cols["limit"][v.slot] = si
-        elif v.kind in ("const", "dpower", "dtau"):
+        elif v.kind in ("const", "dpower", "dtau", "medium_ua", "medium_T"):
             cols[v.kind][v.slot] = si
         elif v.kind == "dhalf":
             cols["dtau"][v.slot] = si / math.log(2.0)
@@ -438,20 +412,11 @@ class _TankColumns:
         return out
 
 
-class _RowBuilder:
-    """Writes one row's numbers into a copy of the representative's result object."""
+class _RowInputs:
+    """The register-specific part of each row's result: its inputs list entries and its display unit."""
 
-    def __init__(self, rep, plan: list[_Varying], parsed: dict, numbers: _GroupNumbers, template: dict,
-                 tank: _TankColumns | None = None):
+    def __init__(self, rep, plan: list[_Varying], parsed: dict, n: int):
         self.rep = rep
-        self.tank = tank
-        self.numbers = numbers
-        self.names = [lim.name for lim in rep.model.limits]
-        extra = {"warnings": []}
-        biot_and_validity(rep, extra)  # depends on nothing a row varies here
-        self.tail_warnings = extra["warnings"]
-        self.assumptions = extra["assumptions"] + case_assumptions(rep)
-        self.margin_note = MARGIN_NOTE_ASSUMED if rep.detection_delay is None else None  # no alarm in a group
         positions = {item["field"]: p for p, item in enumerate(rep.inputs)}
         self.input_slots = []  # (position, field, SI unit, SI values, texts, sources) of each varying input
         for v in plan:
@@ -463,66 +428,20 @@ class _RowBuilder:
                          if item["unit_si"] == "K" and _is_absolute_temperature(item["field"])]
         varying_texts = {pos: texts for pos, _, _, _, texts, _ in self.input_slots}
         # the display unit: from the unit words of the absolute temperatures (fixed unless a cell gives its own)
-        self.unit_words = [(varying_texts.get(p), rep.inputs[p]["text"].split(None, 1)[-1]) for p in abs_positions]
-        self.display_unit = display_unit_from_texts
-        self.unit_cache: dict = {}
-        self.texts = [(kind, parsed[id(v)][0]) for kind in ("id", "title") for v in plan
-                      if v.marker is None and v.kind == kind]
-        self.template = template
+        unit_words = [(varying_texts.get(p), rep.inputs[p]["text"].split(None, 1)[-1]) for p in abs_positions]
+        cache: dict = {}
+        self.units = []
+        for r in range(n):
+            key = tuple(fixed if texts is None or not texts[r] else texts[r].split(None, 1)[-1]  # "": a refused
+                        for texts, fixed in unit_words)                                             # cell
+            unit = cache.get(key)
+            if unit is None:
+                unit = cache[key] = display_unit_from_texts(["0 " + t for t in key])
+            self.units.append(unit)
 
-    def _unit(self, r: int) -> str:
-        key = tuple(fixed if texts is None else texts[r].split(None, 1)[-1] for texts, fixed in self.unit_words)
-        unit = self.unit_cache.get(key)
-        if unit is None:
-            unit = self.unit_cache[key] = self.display_unit(["0 " + t for t in key])
-        return unit
-
-    def result(self, r: int, input_hash: str) -> dict:
-        rep, g = self.rep, self.numbers
-        inputs = list(rep.inputs)
+    def inputs(self, r: int) -> list[dict]:
+        inputs = list(self.rep.inputs)
         for pos, field, unit_si, si, texts, sources in self.input_slots:
             inputs[pos] = {"field": field, "text": texts[r], "value_si": si[r], "unit_si": unit_si,
                            "source": sources[r] if sources is not None else None}
-        unit = self._unit(r)
-        response, detection = g.response[r], g.detection
-        times = g.times[r]
-        note = self.margin_note
-        limit_rows = [{"name": name, "temperature_K": lt, "time_s": t, "reached": t is not None,
-                       "margin_s": t - (detection + response) if t is not None and response is not None else None,
-                       "margin_note": note if t is not None and response is not None else None}
-                      for name, lt, t in zip(self.names, g.limit_T[r], times)]
-        warnings = list(rep.warnings) if self.tank is None else self.tank.warnings(r)
-        if not g.plain[r]:
-            warnings += self._warnings(r, limit_rows, unit)
-        warnings += self.tail_warnings
-        out = dict(self.template)
-        for kind, values in self.texts:
-            out[kind] = values[r]
-        out.update(time_constant_s=g.tau[r], peak_temperature_K=g.peak_T[r], peak_time_s=g.peak_t[r],
-                   steady_temperature_K=g.steady[r], limits=limit_rows,
-                   adiabatic={"limits": [{"name": name, "time_s": t} for name, t in zip(self.names, g.ad_times[r])],
-                              "temperature_rise_K": g.rise[r]},
-                   warnings=warnings, detection_time_s=detection, response_time_s=response,
-                   initial_temperature_K=g.T0[r], ambient_temperature_K=g.Ta[r], horizon_s=g.H[r],
-                   heat_capacity_J_per_K=g.C[r], ua_W_per_K=g.ua[r], limit_exceeded_at_start=0.0 in times,
-                   assumptions=list(self.assumptions), inputs=inputs, units={"temperature": unit},
-                   input_hash=input_hash)
-        if self.tank is not None:
-            out["geometry"] = self.tank.geometry(r)
-        return out
-
-    def _warnings(self, r: int, limit_rows: list, unit: str) -> list[str]:
-        """The closed-form warnings of one row, in screen_closed_form's order and with its texts."""
-        g = self.numbers
-        H, tau, response = g.H[r], g.tau[r], g.response[r]
-        out = [limit_at_start_warning(row["name"], row["temperature_K"], g.T0[r], unit)
-               for row in limit_rows if row["time_s"] == 0.0]
-        if tau is not None and H < tau:
-            out.append(short_horizon_warning(H, tau))
-        if g.end_rate[r] > 0 and any(not row["reached"] for row in limit_rows):
-            out.append(still_rising_warning(g.end_T[r], g.end_rate[r], g.steady[r], unit))
-        if g.ua[r] + 0.0 == 0:
-            out.append(ADIABATIC_WARNING)
-        if response is not None and H < response + (g.detection or 0.0):
-            out.append(response_beyond_horizon_warning(H))
-        return out
+        return inputs

@@ -245,6 +245,9 @@ def _direct_updater(rep, path: tuple):
     slot = model_slot(spec, path, rep.source_positions)
     if slot is None:
         return None
+    if (slot.kind == "T0" and rep.model.boiling is not None) or (slot.kind == "limit" and rep.recovery is not None):
+        return None  # prepare_case warns (or refuses) by these values: the boiling point below the start, a
+        #              recovery medium hotter than a limit
     field_name = _MODEL_FIELD_OF_SLOT.get(slot.kind)
     if field_name is not None:
         return lambda f, q: f.__setitem__(field_name, q.si)

@@ -12,6 +12,7 @@ from screening.core.fire_exposure import FIRE_CAUTIONS
 from screening.case.display import temp
 from screening.core.terms import model_start_temperature
 from screening.run.closed_form_case import ClosedFormValues, screen_closed_form
+from screening.run.closed_form_group import write_case_keys
 from screening.run.daily_cycle import add_cycle_keys, choose_start
 from screening.run.memo_inputs import case_fields, derived_inputs
 from screening.run.monte_carlo import analyse
@@ -50,14 +51,8 @@ def screen_prepared(prepared: PreparedCase, input_hash: str | None = None,
     result["warnings"] = list(prepared.warnings) + core["warnings"]
     if model.scenario == "storage":  # SADT, control and emergency temperatures of a package
         result.update(sadt_results(prepared, result))
-    result.update(
-        initial_temperature_K=model.initial_temperature,
-        ambient_temperature_K=model.ambient_temperature,
-        horizon_s=model.horizon,
-        heat_capacity_J_per_K=model.heat_capacity,
-        ua_W_per_K=model.ua,
-        limit_exceeded_at_start=any(r["time_s"] == 0.0 for r in core["limits"]),
-    )
+    write_case_keys(result, model.initial_temperature, model.ambient_temperature, model.horizon,
+                    model.heat_capacity, model.ua, core["limits"])
     result["start_release"] = _start_release(prepared)
     if result.get("maximum_technical_temperature_K") is None:
         result["maximum_technical_temperature_K"] = model.maximum_technical_temperature

@@ -1,7 +1,7 @@
 """Warnings and validity notes of a screening result, in the case's own units.
 
-The closed-form path and the columnar register path take their texts from here, so both
-say the same thing under the same conditions.
+Every path takes its texts from here (the closed-form writer of screening.run.closed_form_group
+for one case and for a register group alike).
 """
 from __future__ import annotations
 
@@ -23,8 +23,7 @@ def _hours(s: float) -> str:
     return f"{s / 3600:.3g} h"
 
 
-# Warnings of a closed-form result (also used by the columnar register path, which decides per row
-# when each applies by the same conditions as screen_closed_form and detection_and_recovery).
+# Warnings of a closed-form result (screening.run.closed_form_group decides per row when each applies).
 ADIABATIC_WARNING = "No heat loss and no heating medium (UA = 0): the vessel is treated as adiabatic."
 
 
@@ -45,6 +44,26 @@ def still_rising_warning(end_temperature: float, end_rate: float, steady: float 
             f"{end_rate * 3600:.3g} K/h){where}. A limit not reached within the horizon may be reached later.")
 
 
+BOILING_OUT_OF_SCOPE = ("Vent and relief sizing are out of scope: the boil-off figures are not a vent or relief-sizing "
+                        "calculation; use the applicable standard.")
+BOILING_CLOSED_VESSEL = ("The vessel is closed (vessel.venting: closed): no credit is taken for boiling; the "
+                         "temperature and pressure keep rising past the boiling point. The tool does not model "
+                         "pressure.")
+BOILING_CREDIT = ("Boiling credit assumes an open or adequately vented vessel whose vapour leaves at a known "
+                  "pressure; for a mixture the boiling point climbs as the light component leaves, so the "
+                  "credit is not conservative for mixtures.")
+
+
+def boil_dry_warning(t_dry: float) -> str:
+    return f"The contents boil dry at {_hours(t_dry)}; the tool does not follow the temperature after that."
+
+
+def above_boiling_point_warning(name: str, temperature: float, boiling_point: float, unit: str) -> str:
+    return (f"Limit '{name}' ({_fmt_temp(temperature, unit)}) lies above the boiling point "
+            f"({_fmt_temp(boiling_point, unit)}): it is not reached while liquid remains, on credit for boiling in "
+            f"an open vessel. That credit is not conservative if the vent is undersized or blocked.")
+
+
 def response_beyond_horizon_warning(horizon: float) -> str:
     return f"The horizon ({_hours(horizon)}) ends before detection plus response time: extend it."
 
@@ -57,6 +76,8 @@ DETECTION_UNMONITORED = ("Storage without monitoring (no detection block): nobod
                          "time-to-limit check is against the storage period (the horizon): a limit reached within it "
                          "counts as reached without warning.")
 MARGIN_NOTE_ASSUMED = "detection assumed at t = 0 (no detection block)"
+ALARM_NOT_REACHED = ("The alarm temperature is not reached within the horizon: the alarm never sounds, so detection "
+                     "relies on something else.")
 
 
 def detection_basis(prepared: PreparedCase) -> tuple[str, str | None]:

@@ -45,7 +45,7 @@ def test_every_engine_takes_the_balance_terms_from_one_place():
         "core/closed_form_history.py": ("conductance_and_drive", "constant_power"),
         "core/arrhenius_history.py": ("conductance_and_drive", "constant_power"),
         "core/arrhenius_history_batch.py": ("constant_power",),
-        "run/closed_form_case.py": ("model_terms", "constant_power"),
+        "run/closed_form_group.py": ("model_terms",),  # C, G, Q0 and P_const of a group of one
         "run/runaway_case.py": ("constant_power",),
         "run/monte_carlo.py": ("conductance_and_drive", "heat_capacity"),
         "register/vectorised.py": ("model_terms",),

