@@ -1287,7 +1287,11 @@ def _events(P, ok, gidx, Z, Z1, D1, D2, out: _Out, step):
         g = gidx[f]
         out.pstop[g] = is_stop[f]
         out.status[g] = np.where(is_stop[f], STATUS_STOP, STATUS_HORIZON)
-        _end_state(P, f, g, Z, Z1, D1, D2, step, th_end[f], is_stop[f], out)
+        end_T = _end_state(P, f, g, Z, Z1, D1, D2, step, th_end[f], is_stop[f], out)
+        # a run still rising at its horizon peaks there: the re-stepped end, not the extension's value
+        up = ~is_stop[f] & (end_T > P.peakT[f])
+        P.peakT[f[up]] = end_T[up]
+        P.peakt[f[up]] = out.endt[g[up]]
     return is_stop | is_hor
 
 
@@ -1322,6 +1326,7 @@ def _end_state(P, f, g, Z, Z1, D1, D2, step, th, at_stop, out: _Out):
         w = np.where(Ps.umode[j], np.power(v, Ps.xu[j]), v)
         tracked = (Ps.cu[j] != 0.0) | (Ps.cw[j] != 0.0)
         out.endX[g, j] = np.where(tracked, 1.0 - w, np.nan)
+    return Ze[0]
 
 
 def _initial_out(inp: _Inputs) -> _Out:

@@ -22,11 +22,13 @@ from screening.run.warnings import biot_and_validity, case_assumptions
 
 
 def screen_prepared(prepared: PreparedCase, input_hash: str | None = None,
-                    values: ClosedFormValues | None = None, with_history: bool = True) -> dict:
+                    values: ClosedFormValues | None = None, with_history: bool = True,
+                    sadt_searches: dict | None = None) -> dict:
     """Full result dict for one prepared case (without a verdict).
 
     ``values`` (closed-form cases only) are engine results computed elsewhere,
-    e.g. by the vectorised engine for a register.
+    e.g. by the vectorised engine for a register; ``sadt_searches`` likewise the SADT
+    searches of a register chunk's stirred storage rows (:func:`screening.run.sadt_case.stirred_sadt_searches`).
     """
     if prepared.model.daily_cycle is not None:
         values = None  # engine values from elsewhere do not know the start time of day chosen here
@@ -49,7 +51,7 @@ def screen_prepared(prepared: PreparedCase, input_hash: str | None = None,
     }
     result["warnings"] = list(prepared.warnings) + core["warnings"]
     if model.scenario == "storage":  # SADT, control and emergency temperatures of a package
-        result.update(sadt_results(prepared, result))
+        result.update(sadt_results(prepared, result, sadt_searches))
     result.update(
         initial_temperature_K=model.initial_temperature,
         ambient_temperature_K=model.ambient_temperature,

@@ -731,6 +731,11 @@ def test_end_state_fields_keep_the_other_results_and_say_what_is_unknown():
     early = a.steps < b.steps  # finished early without to_horizon: the end is not known
     assert early.any() and np.isnan(a.end_temperature[early]).all() and np.isnan(a.end_conversion[early]).all()
     assert np.isfinite(b.end_temperature).all() and (b.end_time == 100 * HOUR).all()
+    assert (b.peak_temperature >= b.end_temperature).all()  # the peak is never below the end
+    d = cases("mixed", 30, 72)
+    c = screen(to_params(d), LIMITS, 300 * HOUR, to_horizon=True)
+    done = c.status == STATUS_HORIZON
+    assert done.any() and (c.peak_temperature[done] >= c.end_temperature[done]).all()
     # a source without a heat of reaction has no conversion; one switched off keeps its initial conversion
     p2 = ArrheniusSamples(1e6, 500.0, 10.0, 300.0, 320.0, specific_power=[[1e-3, 0.0, 1e-3]],
                           reference_temperature=[[350.0] * 3], activation_energy=[[80e3] * 3],
