@@ -423,3 +423,34 @@ def test_batch_trials_agree_with_solve_ivp_on_random_packages():
             assert tr.peak_centre == pytest.approx(peak, rel=1e-6)
             assert tr.peak_centre >= tr.centre_at_end
     assert 0 < hits < len(requests)  # both kinds of trial were checked
+
+
+def test_lockstep_searches_of_many_cases_give_the_one_case_blocks(monkeypatch):
+    # a register chunk's stirred storage rows searched together give each row exactly the SADT keys of the
+    # case screened alone (a group of one): the same batch trial function, whose samples do not depend on
+    # the others in their batch (tests/core/test_arrhenius_history_batch.py)
+    from screening.run import sadt_case
+    from screening.run.sadt_case import stirred_sadt_searches
+
+    rng = np.random.default_rng(5)
+    cases = []
+    for i in range(6):
+        data = demo("fw-p08-peroxide-cans.yaml")
+        data["id"] = f"FW-P{i}"
+        data["contents"]["mass"] = f"{rng.uniform(20, 300):.4g} kg"
+        src = data["heat_sources"][0]
+        src["activation_energy"] = f"{rng.uniform(90, 160):.4g} kJ/mol"
+        src["order"] = float(rng.choice([0.0, 0.5, 1.0, 2.0]))
+        cases.append(prepared_of(data))
+    sadt_case._CACHE.clear()
+    searches = stirred_sadt_searches(cases)
+    assert len(searches) == len(cases)
+    trials = sadt_case._lumped_trials
+    monkeypatch.setattr(sadt_case, "_lumped_trials", lambda models: pytest.fail("searched again"))
+    together = [screen_prepared(p, sadt_searches=searches) for p in cases]  # the searches given are used
+    monkeypatch.setattr(sadt_case, "_lumped_trials", trials)
+    for p, got in zip(cases, together):
+        sadt_case._CACHE.clear()
+        alone = screen_prepared(p)
+        for key in sadt_case.SADT_KEYS:
+            assert got[key] == alone[key], (p.spec.id, key)
