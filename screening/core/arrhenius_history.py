@@ -705,6 +705,12 @@ def _source_warnings(model: ScreeningModel) -> tuple[list[str], list[str]]:
     return out + on_times, on_times
 
 
+def source_warnings(model: ScreeningModel) -> tuple[list[str], list[str]]:
+    """The cautions :func:`integrate_history` gives on a model's Arrhenius data: (all of them, those that
+    also go with every time to a limit reached after t = 0); for engine values computed elsewhere."""
+    return _source_warnings(model)
+
+
 def autocatalytic_caution(tag: str, source) -> str:
     """The caution that goes with every time computed from an autocatalytic source."""
     return (f"{tag}: autocatalytic kinetics (rate k(T) (1 - X)^n (X^m + z)); the times are very sensitive to the "

@@ -310,6 +310,17 @@ class ArrheniusScreen(NamedTuple):
         ``STATUS_HORIZON``, ``STATUS_STOP`` or ``STATUS_FAILED``.
     steps : numpy.ndarray of int, shape (N,)
         Steps attempted (accepted and rejected).
+    end_temperature : numpy.ndarray, shape (N,), [K]
+        Temperature at the end of the run: at the horizon (status ``STATUS_HORIZON``), or
+        the stop temperature (``STATUS_STOP``). NaN for a sample that failed, and for a
+        cooling sample finished early unless ``to_horizon`` was asked for.
+    end_rate : numpy.ndarray, shape (N,), [K/s]
+        dT/dt there (the balance's right-hand side at the end state); NaN likewise.
+    end_time : numpy.ndarray, shape (N,), [s]
+        The horizon, or when the stop temperature was reached; NaN likewise.
+    end_conversion : numpy.ndarray, shape (N, J), [-]
+        Conversion X_j of each source there; NaN for a source without a heat of
+        reaction (not tracked) and, for every source, where the end is not known.
     """
 
     times: np.ndarray
@@ -318,6 +329,10 @@ class ArrheniusScreen(NamedTuple):
     peak_is_stop: np.ndarray
     status: np.ndarray
     steps: np.ndarray
+    end_temperature: np.ndarray
+    end_rate: np.ndarray
+    end_time: np.ndarray
+    end_conversion: np.ndarray
 
 
 def _per_sample(name, value, n=None):
@@ -367,6 +382,7 @@ class _Inputs(NamedTuple):
     fs: np.ndarray  # (N,) peak solar drive, W
     fday: np.ndarray  # (N,) day length, s
     fs0: np.ndarray  # (N,) solar time at t = 0, s
+    follow: np.ndarray  # (N,) bool: no early finish of a cooling sample (its end state is wanted)
 
 
 def _bad(mask, message):
@@ -492,7 +508,7 @@ def _prepare(params: ArrheniusSamples, limits, horizon, stop_temperature) -> _In
         _bad(~np.logical_and.reduce([np.isfinite(a) for a in (fa, ftw, fs, fday, fs0)]), "non-finite forcing")
         _bad(~((fday > 0) & (fday <= 86400.0)), "forcing.day_length must be within (0, 86400] s")
     return _Inputs(C, m, ua, Ta, T0, P0, Pd, ad, mua, mT, q, Tr, E, n, dh, X0, am, az, lim, H, stop,
-                   fa, ftw, fs, fday, fs0)
+                   fa, ftw, fs, fday, fs0, np.zeros(N, dtype=bool))
 
 
 # --------------------------------------------------------------------------- per-sample coefficients
@@ -588,6 +604,7 @@ def _coefficients(inp: _Inputs, rows, cols, rtol) -> tuple[_Coef, np.ndarray]:
     cyc = (P.fa != 0.0) | (P.fs != 0.0)
     P.hmax = np.where(cyc, np.minimum(P.hmax, CYCLE_MAX_STEP), P.hmax)  # follow the sun and the air
     P.monotone = P.monotone & ~cyc  # the cycle may turn a cooling sample round
+    P.monotone = P.monotone & ~inp.follow[rows]  # the end state at the horizon is wanted
     P.lim = np.ascontiguousarray(inp.limits[rows].T)
     T0 = inp.T0[rows]
     P.reached = P.lim <= T0
@@ -917,6 +934,10 @@ class _Out(NamedTuple):
     pstop: np.ndarray
     status: np.ndarray
     steps: np.ndarray
+    endT: np.ndarray  # (N,) temperature at the end of the run (horizon or stop), K
+    endrate: np.ndarray  # (N,) dT/dt there, K/s
+    endt: np.ndarray  # (N,) time of the end, s
+    endX: np.ndarray  # (N, J) conversion of each source there (NaN: not tracked)
 
 
 class _Work:
@@ -1266,7 +1287,46 @@ def _events(P, ok, gidx, Z, Z1, D1, D2, out: _Out, step):
         g = gidx[f]
         out.pstop[g] = is_stop[f]
         out.status[g] = np.where(is_stop[f], STATUS_STOP, STATUS_HORIZON)
+        end_T = _end_state(P, f, g, Z, Z1, D1, D2, step, th_end[f], is_stop[f], out)
+        # a run still rising at its horizon peaks there: the re-stepped end, not the extension's value
+        up = ~is_stop[f] & (end_T > P.peakT[f])
+        P.peakT[f[up]] = end_T[up]
+        P.peakt[f[up]] = out.endt[g[up]]
     return is_stop | is_hor
+
+
+def _end_state(P, f, g, Z, Z1, D1, D2, step, th, at_stop, out: _Out):
+    """State at the end of the run of samples ``f`` (global ``g``): the horizon, or the stop temperature.
+
+    As for a limit crossing (:func:`_refine_crossings`): a re-step of length theta h from the step's
+    start, then one Newton step along the exact right-hand side to t = horizon (or T = stop); where
+    that fails, the continuous extension. The end time (horizon) or temperature (stop) is then set
+    exactly, and dT/dt and the conversions are read from the state.
+    """
+    G0, JG, h = step
+    Ps = P.take(f)
+    dense = _cubic(Z[:, f], Z1[:, f], D1[:, f], D2[:, f], th[None, :])
+    Zr, _, sing = _rodas_step(Ps, Z[:, f], G0[:, f], JG[:, :, f], h[f] * th)
+    Gr = _flux(Ps, Zr)
+    comp = np.where(at_stop, 0, Zr.shape[0] - 1)
+    ar = np.arange(f.size)
+    target = np.where(at_stop, Ps.stop, Ps.H)
+    slope = Gr[comp, ar]
+    ok = ~sing & np.isfinite(Zr).all(axis=0) & (slope > 0.0)
+    ds = (target - Zr[comp, ar]) / np.where(ok, slope, 1.0)
+    ok &= np.abs(ds) <= 0.5 * h[f] * np.maximum(th, 1e-3)
+    Ze = np.where(ok[None, :], Zr + ds[None, :] * Gr, dense)
+    Ze[comp, ar] = target
+    Ge = _flux(Ps, Ze)
+    out.endT[g] = Ze[0]
+    out.endt[g] = Ze[-1]
+    out.endrate[g] = Ge[0] / Ge[-1]
+    for c, j in enumerate(P.cols):
+        v = np.minimum(np.maximum(Ze[1 + c], 0.0), 1.0)
+        w = np.where(Ps.umode[j], np.power(v, Ps.xu[j]), v)
+        tracked = (Ps.cu[j] != 0.0) | (Ps.cw[j] != 0.0)
+        out.endX[g, j] = np.where(tracked, 1.0 - w, np.nan)
+    return Ze[0]
 
 
 def _initial_out(inp: _Inputs) -> _Out:
@@ -1275,7 +1335,8 @@ def _initial_out(inp: _Inputs) -> _Out:
     at_stop = inp.T0 >= inp.stop
     return _Out(times=np.where(inp.T0[:, None] >= inp.limits, 0.0, np.nan), peakT=inp.T0.copy(),
                 peakt=np.zeros(N), pstop=at_stop.copy(), status=np.where(at_stop, STATUS_STOP, STATUS_HORIZON),
-                steps=np.zeros(N, dtype=np.int64))
+                steps=np.zeros(N, dtype=np.int64), endT=np.full(N, np.nan), endrate=np.full(N, np.nan),
+                endt=np.full(N, np.nan), endX=np.full(inp.dh.shape, np.nan))
 
 
 def _subset(inp: _Inputs, rows) -> _Inputs:
@@ -1320,7 +1381,8 @@ def _integrate_parallel(inp, parts, cols, rtol, chunk_size, workers):
 
 def first_crossing_times_arrhenius(params: ArrheniusSamples, limits, horizon, *, stop_temperature=None,
                                    rtol: float = DEFAULT_RTOL, chunk_size: int = DEFAULT_CHUNK,
-                                   workers: int | None = None, on_failure: str = "raise") -> ArrheniusScreen:
+                                   workers: int | None = None, on_failure: str = "raise",
+                                   to_horizon=False) -> ArrheniusScreen:
     r"""First time each limit temperature is reached, for N sample-cases at once.
 
     Parameters
@@ -1352,6 +1414,10 @@ def first_crossing_times_arrhenius(params: ArrheniusSamples, limits, horizon, *,
         A sample that needs more than ``MAX_STEPS`` attempted steps has no
         conclusion for the limits it has not reached: "raise" raises
         RuntimeError, "flag" returns it with status ``STATUS_FAILED``.
+    to_horizon : bool or array of bool (N,), default False
+        Follow a cooling sample to its horizon (or stop) instead of finishing it
+        early (see the module notes), so that its ``end_*`` fields are known.
+        The other fields do not change (an early finish only skips steps).
 
     Returns
     -------
@@ -1360,7 +1426,9 @@ def first_crossing_times_arrhenius(params: ArrheniusSamples, limits, horizon, *,
         initial temperature is at or above it, NaN when it is not reached
         within the horizon); ``peak_temperature`` [K] and ``peak_time`` [s]:
         the highest temperature within the horizon and when it was first
-        reached; ``peak_is_stop``, ``status`` and ``steps`` per sample.
+        reached; ``peak_is_stop``, ``status`` and ``steps`` per sample;
+        the state at the end of the run (``end_temperature``, ``end_rate``,
+        ``end_time``, ``end_conversion``).
 
     Raises
     ------
@@ -1429,6 +1497,8 @@ def first_crossing_times_arrhenius(params: ArrheniusSamples, limits, horizon, *,
     if not (1e-14 <= rtol <= 1e-3):
         raise ValueError("rtol must be within [1e-14, 1e-3]")
     inp = _prepare(params, limits, horizon, stop_temperature)
+    follow = np.broadcast_to(np.asarray(to_horizon, dtype=bool), inp.follow.shape)
+    inp = inp._replace(follow=np.ascontiguousarray(follow))
     tracked = np.isfinite(inp.dh) & (inp.q > 0)
     cols = [int(j) for j in np.flatnonzero(tracked.any(axis=0))]
     chunk_size = max(int(chunk_size), 1)
@@ -1439,26 +1509,39 @@ def first_crossing_times_arrhenius(params: ArrheniusSamples, limits, horizon, *,
         workers = 1  # a daemonic process (e.g. a service worker) cannot start processes of its own
 
     todo = np.flatnonzero(inp.T0 < inp.stop)
-    times, peakT, peakt, pstop, status, steps = _initial_out(inp)
+    out = _initial_out(inp)
+    at_stop = np.flatnonzero(~(inp.T0 < inp.stop))
+    if at_stop.size:  # already at the stop temperature: the end state is the start
+        P, Z = _coefficients(inp, at_stop, cols, rtol)
+        G = _flux(P, Z)
+        out.endT[at_stop] = Z[0]
+        out.endt[at_stop] = 0.0
+        out.endrate[at_stop] = G[0] / G[-1]
+        out.endX[at_stop] = np.where(np.isfinite(inp.dh[at_stop]), inp.X0[at_stop], np.nan)
     done = False
     if workers > 1 and todo.size >= 2 * chunk_size:
         parts = [todo[w::workers] for w in range(workers)]
         results = _integrate_parallel(inp, parts, cols, rtol, chunk_size, workers)
         if results is not None:
             for rows, res in zip(parts, results):
-                for dest, src in zip((times, peakT, peakt, pstop, status, steps), res):
+                for dest, src in zip(out, res):
                     dest[rows] = src
             done = True
     if not done and todo.size:
         res = _integrate_rows(_subset(inp, todo), cols, rtol, chunk_size)
-        for dest, src in zip((times, peakT, peakt, pstop, status, steps), res):
+        for dest, src in zip(out, res):
             dest[todo] = src
+    times, peakT, peakt, pstop, status, steps = out[:6]
+    # a source with a heat of reaction but no column (no power in any sample) keeps its conversion
+    fixed = np.isfinite(out.endT)[:, None] & np.isfinite(inp.dh)
+    fixed[:, cols] = False
+    out.endX[fixed] = inp.X0[fixed]
     failed = status == STATUS_FAILED
     if failed.any() and on_failure == "raise":
         raise RuntimeError(f"{int(failed.sum())} sample(s) needed more than {MAX_STEPS} steps (first index "
                            f"{int(np.argmax(failed))}); rerun with on_failure='flag' to see the others, and "
                            f"check the failed ones with the single-case engine")
-    return ArrheniusScreen(times, peakT, peakt, pstop, status, steps)
+    return ArrheniusScreen(times, peakT, peakt, pstop, status, steps, out.endT, out.endrate, out.endt, out.endX)
 
 
 def samples_from_models(models: Sequence[ScreeningModel]):

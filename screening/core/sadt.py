@@ -31,8 +31,9 @@ import numpy as np
 
 __all__ = ["SADT_STEP", "SADT_WINDOW", "SADT_RISE", "SADT_LOWEST", "SADT_HIGHEST", "SADT_BOUND_ABOVE_TESTED",
            "SELF_REACTIVE_CONTROL_THRESHOLD", "ORGANIC_PEROXIDE_CONTROL_THRESHOLD",
-           "ORGANIC_PEROXIDE_CONTROL_THRESHOLD_BY_TYPE", "IBC_LARGEST_VOLUME", "SINGLE_PACKAGING_LARGEST_MASS", "SadtTrial", "SadtSearch",
-           "sadt_grid", "search_bound", "start_index", "search_sadt", "control_and_emergency_temperatures",
+           "ORGANIC_PEROXIDE_CONTROL_THRESHOLD_BY_TYPE", "IBC_LARGEST_VOLUME", "SINGLE_PACKAGING_LARGEST_MASS",
+           "SadtTrial", "SadtSearch", "sadt_grid", "search_bound", "start_index", "search_sadt", "search_plan",
+           "search_sadt_lockstep", "control_and_emergency_temperatures",
            "round_up_to_step"]
 
 ZERO_CELSIUS = 273.15
@@ -213,6 +214,7 @@ def search_sadt(trial: Callable[[float], SadtTrial], grid, start: int | None = N
     do not, until the answer changes or the grid ends; then bisection between the highest ambient
     that did not trigger and the lowest that did. If triggering is monotonic in the ambient (see the
     module notes), the result equals the lowest triggering ambient of a full scan of the grid.
+    This is :func:`search_sadt_lockstep` for one package: the search is written once (:func:`search_plan`).
 
     Examples
     --------
@@ -226,22 +228,44 @@ def search_sadt(trial: Callable[[float], SadtTrial], grid, start: int | None = N
     >>> round(res.sadt - 273.15, 6), len(tried)
     (65.0, 4)
     """
-    grid = np.asarray(grid, dtype=float)
-    n = len(grid)
-    done: dict[int, SadtTrial] = {}
+    return search_sadt_lockstep(lambda requests: [trial(ambient) for _, ambient in requests], [grid], [start])[0]
 
-    def fires(i: int) -> bool:
-        if i not in done:
-            done[i] = trial(float(grid[i]))
-        return done[i].triggered
 
+def search_plan(n: int, start: int | None = None):
+    """The search of :func:`search_sadt` as a generator over grid indices.
+
+    It yields the index of the next trial wanted and is sent back whether that trial triggered;
+    it returns (``StopIteration.value``) the index of the lowest triggering ambient, or None.
+
+    Parameters
+    ----------
+    n : int
+        Number of grid points.
+    start : int, optional
+        Index tried first; default the middle.
+
+    Examples
+    --------
+    Triggering from index 7 up on a grid of 10, starting at 2: indices 2, 3, 5, 9 (galloping up), then 7, 6:
+
+    >>> plan, asked = search_plan(10, 2), []
+    >>> i = next(plan)
+    >>> try:
+    ...     while True:
+    ...         asked.append(i)
+    ...         i = plan.send(i >= 7)
+    ... except StopIteration as end:
+    ...     answer = end.value
+    >>> asked, answer
+    ([2, 3, 5, 9, 7, 6], 7)
+    """
     i = (n // 2) if start is None else min(max(int(start), 0), n - 1)
     lo, hi = -1, None  # lo: highest index known not to trigger (-1: below the grid); hi: lowest known to trigger
-    if fires(i):
+    if (yield i):
         hi, step = i, 1
         while hi > 0:
             j = max(hi - step, 0)
-            if fires(j):
+            if (yield j):
                 hi, step = j, 2 * step
             else:
                 lo = j
@@ -250,19 +274,90 @@ def search_sadt(trial: Callable[[float], SadtTrial], grid, start: int | None = N
         lo, step = i, 1
         while lo < n - 1:
             j = min(lo + step, n - 1)
-            if fires(j):
+            if (yield j):
                 hi = j
                 break
             lo, step = j, 2 * step
     if hi is not None:
         while hi - lo > 1:
             mid = (lo + hi) // 2
-            if fires(mid):
+            if (yield mid):
                 hi = mid
             else:
                 lo = mid
-    trials = tuple(done[k] for k in sorted(done))
-    return SadtSearch(None if hi is None else float(grid[hi]), trials, float(grid[0]), float(grid[-1]))
+    return hi
+
+
+def search_sadt_lockstep(trials, grids, starts=None) -> list:
+    r"""The searches of :func:`search_sadt` for many packages at once, in lock-step.
+
+    Parameters
+    ----------
+    trials : callable
+        ``trials(requests) -> list``: ``requests`` is a list of (package index, ambient_K), one per
+        package still searching; returns for each a :class:`SadtTrial`, or an exception instance when
+        that package's trial failed (its search then ends with that exception).
+    grids : sequence of arrays of float, [K]
+        Each package's increasing ambients (:func:`sadt_grid`).
+    starts : sequence of int or None, optional
+        Each package's first grid index (:func:`start_index`); default the middles.
+
+    Returns
+    -------
+    list of SadtSearch or Exception
+        Per package, as :func:`search_sadt` would give it (the same trials, in the same order).
+
+    Notes
+    -----
+    Each round asks ``trials`` once for every package whose search is not finished, so a vectorised
+    trial function integrates all of them together; each package follows :func:`search_plan`.
+
+    Examples
+    --------
+    Two stand-in packages triggering from 62 °C and from 3 °C: 65 °C and 5 °C, in 4 rounds:
+
+    >>> rounds = []
+    >>> tops = [273.15 + 62, 273.15 + 3]
+    >>> def trials(requests):
+    ...     rounds.append(len(requests))
+    ...     return [SadtTrial(ta, ta >= tops[p], None, ta, ta) for p, ta in requests]
+    >>> g = sadt_grid()
+    >>> res = search_sadt_lockstep(trials, [g, g], [start_index(g, 273.15 + 52), start_index(g, 273.15)])
+    >>> [round(r.sadt - 273.15, 6) for r in res], rounds
+    ([65.0, 5.0], [2, 2, 1, 1])
+    """
+    grids = [np.asarray(g, dtype=float) for g in grids]
+    if starts is None:
+        starts = [None] * len(grids)
+    plans = [search_plan(len(g), s) for g, s in zip(grids, starts)]
+    done: list[dict] = [{} for _ in grids]
+    results: list = [None] * len(grids)
+    pending = {p: next(plan) for p, plan in enumerate(plans)}
+
+    def finish(p, hi):
+        g = grids[p]
+        trials_run = tuple(done[p][k] for k in sorted(done[p]))
+        results[p] = SadtSearch(None if hi is None else float(g[hi]), trials_run, float(g[0]), float(g[-1]))
+
+    while pending:
+        order = list(pending.items())
+        answers = trials([(p, float(grids[p][i])) for p, i in order])
+        if len(answers) != len(order):
+            raise ValueError(f"the trial function gave {len(answers)} results for {len(order)} requests")
+        pending = {}
+        for (p, i), answer in zip(order, answers):
+            if isinstance(answer, BaseException):
+                results[p] = answer
+                continue
+            done[p][i] = answer
+            try:
+                j = plans[p].send(bool(answer.triggered))
+                while j in done[p]:  # a trial already run (the plan never asks twice; kept for safety)
+                    j = plans[p].send(bool(done[p][j].triggered))
+                pending[p] = j
+            except StopIteration as end:
+                finish(p, end.value)
+    return results
 
 
 def control_and_emergency_temperatures(sadt):

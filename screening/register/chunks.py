@@ -19,6 +19,8 @@ from screening.report.memo import write_memo
 from screening.report.register_summary import summarise_register_results
 from screening.report.templates import load_templates
 from screening.result import memo_view, public_result
+from screening.run.runaway_case import arrhenius_values
+from screening.run.sadt_case import stirred_sadt_searches
 from screening.run.screen_case import screen_prepared
 
 
@@ -242,6 +244,20 @@ def _compute_chunk(task: ChunkTask) -> ChunkResult:
     rule_set = task.rule_set
     screened: list[tuple[RowOutcome, dict]] = []  # rows with a result, and their result objects
     memos: list = []
+    # the SADT searches of every stirred storage row, integrated together (lock-step) before the rows are written
+    try:
+        sadt_searches = stirred_sadt_searches(
+            [p[0] for i, (p, o) in enumerate(zip(prepared_all, outcomes))
+             if p is not None and not o.problems and i not in columnar and p[0].model.scenario == "storage"])
+    except Exception:  # noqa: BLE001 - each row then runs its own search, and reports its own problem
+        sadt_searches = {}
+    # the main and adiabatic runs of every row with Arrhenius sources the vectorised engine takes, together
+    arr_rows = [i for i, (p, o) in enumerate(zip(prepared_all, outcomes))
+                if p is not None and not o.problems and i not in columnar and p[0].model.arrhenius_sources]
+    try:
+        arr_values = dict(zip(arr_rows, arrhenius_values([prepared_all[i][0] for i in arr_rows])))
+    except Exception:  # noqa: BLE001 - each row then runs the single-case engine, and reports its own problem
+        arr_values = {}
     for i, outcome in enumerate(outcomes):
         if i in columnar:
             result, known = columnar[i]
@@ -252,7 +268,8 @@ def _compute_chunk(task: ChunkTask) -> ChunkResult:
             prep, case_hash = prepared_all[i]
             known = None
             try:
-                result = screen_prepared(prep, case_hash, values=values.get(i), with_history=task.with_history)
+                result = screen_prepared(prep, case_hash, values=values.get(i), with_history=task.with_history,
+                                         sadt_searches=sadt_searches, arrhenius_values=arr_values.get(i))
             except Exception as exc:  # noqa: BLE001 - one bad row must not lose the others
                 outcome.problems.append(FieldProblem("(row)", f"internal error while screening this row: "
                                                               f"{type(exc).__name__}: {exc}"))

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import dataclasses
 import math
+from dataclasses import dataclass
 
 import numpy as np
 
@@ -15,8 +16,8 @@ from screening.case.display import temp
 from screening.case.prepare import PreparedCase
 from screening.core import runaway as rc
 from screening.core.daily_cycle import mean_rise
-from screening.core.model import HeatingMedium, Limit, ScreeningModel
-from screening.core.terms import constant_power, model_start_temperature, model_terms
+from screening.core.model import GAS_CONSTANT, HeatingMedium, Limit, ScreeningModel
+from screening.core.terms import conductance_and_drive, constant_power, model_start_temperature, model_terms
 from screening.run.recovery import detection_and_recovery
 from screening.run.scenario_criteria import (
     HistoryFacts,
@@ -28,6 +29,191 @@ from screening.run.scenario_criteria import (
 )
 
 ALARM = "\x00alarm"
+_PAD = "\x00pad"
+
+
+@dataclass(frozen=True)
+class ArrheniusValues:
+    """The vectorised engine's numbers for one case (like :class:`screening.run.closed_form_case.ClosedFormValues`).
+
+    Attributes
+    ----------
+    times : tuple of (float or None), [s]
+        First time each limit of the case is reached, then the detection alarm's (if the case has one).
+    peak_temperature, peak_time : float, [K] and [s]
+    peak_is_ceiling : bool
+        The run reached its stop temperature (``ceiling``, K): a runaway; the peak is a lower bound.
+    stop_time, end_temperature : float, [s] and [K]
+        End of the run (the horizon, or the stop) and the temperature there.
+    rising_at_end : bool
+        Still heating at the horizon (net heat input above 1e-12 of the gross, as the single-case engine).
+    final_conversion : tuple of (float or None)
+        Per source at the end; None without a heat of reaction.
+    adiabatic_times : tuple of (float or None), [s]
+        The case's limits without heat loss (UA = 0).
+    """
+
+    times: tuple
+    peak_temperature: float
+    peak_time: float
+    peak_is_ceiling: bool
+    ceiling: float
+    stop_time: float
+    end_temperature: float
+    rising_at_end: bool
+    final_conversion: tuple
+    adiabatic_times: tuple
+
+
+@dataclass(frozen=True)
+class _Numbers:
+    """What the result reads of a run, from the single-case history or from engine values."""
+
+    limits: tuple  # LimitCrossing-like: name, temperature, time, warnings
+    warnings: tuple
+    peak_warnings: tuple
+    peak_temperature: float
+    peak_time: float
+    peak_is_ceiling: bool
+    rising_at_end: bool
+    final_conversion: tuple
+    stop_reason: str
+    stop_time: float
+    end_temperature: float
+
+
+def _run_model(prepared: PreparedCase) -> ScreeningModel:
+    limits = list(prepared.model.limits)
+    if prepared.detection_alarm is not None:
+        limits.append(Limit(ALARM, prepared.detection_alarm))
+    return dataclasses.replace(prepared.model, limits=tuple(limits))
+
+
+def _adiabatic_model(model: ScreeningModel) -> ScreeningModel:
+    return dataclasses.replace(model, ua=0.0, boiling=None)
+
+
+def engine_eligible(prepared: PreparedCase) -> bool:
+    """Whether the vectorised engine gives this case's numbers (and texts) as the single-case engine would.
+
+    Stirred contents without boiling data, daily cycle, fire or recovery path; and no limit where the
+    single-case engine's rate cap (m q / C <= 1e9 K/s) could act (its warning is not reproduced).
+    """
+    from screening.core.arrhenius import log_arrhenius_rate
+    from screening.core.arrhenius_history_batch import LN_RATE_FLOOR, RATE_CAP
+
+    model = prepared.model
+    if (not model.arrhenius_sources or model.mixing != "stirred" or model.boiling is not None
+            or model.daily_cycle is not None or model.fire_sources or prepared.recovery is not None):
+        return False
+    ln_cap = math.log(RATE_CAP * model.heat_capacity / model.contents_mass)
+    for lim in _run_model(prepared).limits:
+        for s in model.arrhenius_sources:
+            if s.specific_power <= 0:
+                continue
+            ex = log_arrhenius_rate(1.0 / lim.temperature, math.log(s.specific_power), s.activation_energy / GAS_CONSTANT,
+                                    1.0 / s.reference_temperature, math.inf, LN_RATE_FLOOR)
+            if ex >= ln_cap - 1e-6:
+                return False
+    return True
+
+
+def _batch_runs(models):
+    """(screen, limit counts, ceilings) of the vectorised engine for models (limits padded with the stop)."""
+    from screening.core.arrhenius_history_batch import (CEILING_MARGIN, DEFAULT_CEILING,
+                                                        first_crossing_times_arrhenius, samples_from_models)
+
+    counts = [len(md.limits) for md in models]
+    width = max(counts)
+    ceilings = []
+    padded = []
+    for md in models:
+        T0 = model_start_temperature(md)
+        highest = max([lim.temperature for lim in md.limits], default=T0)
+        ceiling = max(DEFAULT_CEILING, highest + CEILING_MARGIN, T0 + CEILING_MARGIN)  # as the single-case engine
+        ceilings.append(ceiling)
+        pad = tuple(Limit(_PAD, ceiling) for _ in range(width - len(md.limits)))
+        padded.append(dataclasses.replace(md, limits=tuple(md.limits) + pad))
+    if width == 0:
+        padded = [dataclasses.replace(md, limits=(Limit(_PAD, c),)) for md, c in zip(padded, ceilings)]
+    params, limits, horizon = samples_from_models(padded)
+    res = first_crossing_times_arrhenius(params, limits, horizon, stop_temperature=ceilings, to_horizon=True,
+                                         on_failure="flag")
+    return res, counts, ceilings
+
+
+def arrhenius_values(prepared_cases) -> list:
+    """:class:`ArrheniusValues` of each case the vectorised engine takes (:func:`engine_eligible`), else None;
+    all of them in one run of the engine for the main runs (with the alarm limit) and one for the adiabatic runs."""
+    from screening.core.arrhenius_history_batch import STATUS_FAILED, STATUS_HORIZON
+
+    prepared_cases = list(prepared_cases)
+    out: list = [None] * len(prepared_cases)
+    idx = [i for i, p in enumerate(prepared_cases) if engine_eligible(p)]
+    if not idx:
+        return out
+    mains = [_run_model(prepared_cases[i]) for i in idx]
+    ads = [_adiabatic_model(prepared_cases[i].model) for i in idx]
+    try:
+        res, counts, ceilings = _batch_runs(mains)
+        ad, ad_counts, _ = _batch_runs(ads)
+    except (ValueError, RuntimeError, ArithmeticError):  # inputs out of the engine's range: the single-case engine
+        return out
+    for k, i in enumerate(idx):
+        if res.status[k] == STATUS_FAILED or ad.status[k] == STATUS_FAILED:
+            continue  # no conclusion within the step cap: the single-case engine says why
+        model = prepared_cases[i].model
+        times = tuple(None if not math.isfinite(t) else float(t) for t in res.times[k, :counts[k]])
+        ad_times = tuple(None if not math.isfinite(t) else float(t) for t in ad.times[k, :ad_counts[k]])
+        horizon_end = res.status[k] == STATUS_HORIZON
+        T_end = float(res.end_temperature[k])
+        rising = False
+        if horizon_end:
+            g, drive = conductance_and_drive(model.ua, model.ambient_temperature, 0.0,
+                                             [h.ua for h in model.heating_media],
+                                             [h.medium_temperature for h in model.heating_media])
+            net = model.heat_capacity * float(res.end_rate[k])
+            loss = float(g) * T_end - float(drive)
+            rising = net > 1e-12 * (abs(net + loss) + abs(loss))
+        conv = tuple(None if s.specific_heat_of_reaction is None else float(res.end_conversion[k, j])
+                     for j, s in enumerate(model.arrhenius_sources))
+        out[i] = ArrheniusValues(times, float(res.peak_temperature[k]), float(res.peak_time[k]),
+                                 not horizon_end, float(ceilings[k]), float(res.end_time[k]), T_end, bool(rising),
+                                 conv, ad_times)
+    return out
+
+
+def _numbers_of_history(hist) -> _Numbers:
+    return _Numbers(tuple(hist.limits), tuple(hist.warnings), tuple(hist.peak_warnings), hist.peak_temperature,
+                    hist.peak_time, bool(hist.peak_is_ceiling), bool(hist.rising_at_end), tuple(hist.final_conversion),
+                    hist.stop_reason, float(hist.stop_time), float(hist.temperature[-1]))
+
+
+def _numbers_of_values(model: ScreeningModel, run: ScreeningModel, v: ArrheniusValues) -> _Numbers:
+    """The history's numbers and texts from engine values, as :func:`screening.core.arrhenius_history.
+    integrate_history` words them for a case :func:`engine_eligible` takes."""
+    from screening.core.arrhenius_history import LimitCrossing, source_warnings
+
+    every, on_times = source_warnings(run)
+    T0 = model_start_temperature(run)
+    crossings = []
+    for lim, t in zip(run.limits, v.times):
+        w = []
+        if lim.temperature <= T0:
+            w.append("Limit at or below the temperature the history starts at: reached at t = 0.")
+        if t is not None and t > 0:
+            w += on_times
+        crossings.append(LimitCrossing(lim.name, float(lim.temperature), t, tuple(w)))
+    peak_warnings = []
+    if v.peak_is_ceiling:
+        peak_warnings.append(f"The runaway passed the ceiling of {v.ceiling:.1f} K where integration stopped; "
+                             f"the true peak is higher and is not computed.")
+    if any(s.specific_power > 0 and s.specific_heat_of_reaction is None for s in run.arrhenius_sources):
+        peak_warnings.append("Unbounded (zero-order, no heat of reaction) release: the peak temperature "
+                             "reflects the horizon or the ceiling, not a physical end point.")
+    return _Numbers(tuple(crossings), tuple(every), tuple(peak_warnings), v.peak_temperature, v.peak_time,
+                    v.peak_is_ceiling, v.rising_at_end, v.final_conversion,
+                    "ceiling" if v.peak_is_ceiling else "horizon", v.stop_time, v.end_temperature)
 
 
 def _initial_conversions(model: ScreeningModel) -> list[float]:
@@ -53,21 +239,33 @@ def _alarm_time(hist):
     return None
 
 
-def screen_with_arrhenius(prepared: PreparedCase) -> dict:
+def screen_with_arrhenius(prepared: PreparedCase, values: ArrheniusValues | None = None,
+                          with_history: bool = True) -> dict:
+    """The core of the result of a case with Arrhenius sources.
+
+    ``values``: the vectorised engine's numbers computed elsewhere (a register's group); for a case the
+    engine takes (:func:`engine_eligible`) they are computed here as a group of one. The chart arrays
+    (``with_history``) still come from the single-case integrator; every number in the result is the
+    engine's. Other cases (boiling, fire, a daily cycle, recovery, unstirred) use the single-case integrator.
+    """
     from screening.core.arrhenius_history import integrate_history
 
     model = prepared.model
     unit = prepared.display_temperature_unit
     warnings: list[str] = []
-    limits = list(model.limits)
-    if prepared.detection_alarm is not None:
-        limits.append(Limit(ALARM, prepared.detection_alarm))
-    run_model = dataclasses.replace(model, limits=tuple(limits))
-    hist = integrate_history(run_model)
-    rows, limit_warnings = _limit_rows(hist, model)
-    warnings.extend(w for w in hist.warnings if w not in warnings)
+    run_model = _run_model(prepared)
+    if values is None and engine_eligible(prepared):
+        values = arrhenius_values([prepared])[0]
+    if values is not None:
+        nums = _numbers_of_values(model, run_model, values)
+        hist = integrate_history(run_model) if with_history else None
+    else:
+        hist = integrate_history(run_model)
+        nums = _numbers_of_history(hist)
+    rows, limit_warnings = _limit_rows(nums, model)
+    warnings.extend(w for w in nums.warnings if w not in warnings)
     warnings.extend(w for w in limit_warnings if w not in warnings)
-    warnings.extend(w for w in hist.peak_warnings if w not in warnings)
+    warnings.extend(w for w in nums.peak_warnings if w not in warnings)
 
     C = model.heat_capacity
     G = model_terms(model).conductance
@@ -90,9 +288,9 @@ def screen_with_arrhenius(prepared: PreparedCase) -> dict:
     transient = bool(model.decaying_sources or model.fire_sources or T0 > Ta)
     if scenario != "cooling-failure" and model.mixing == "stirred":
         add(w for w in ws if w != rc.WARNING_TRANSIENT_SOURCES or (transient and scenario == "storage"))
-    runs_away = hist.peak_is_ceiling or (hist.rising_at_end and steady.stable is None)
+    runs_away = nums.peak_is_ceiling or (nums.rising_at_end and steady.stable is None)
     stable = steady.stable if not runs_away else None
-    final_X = [x if x is not None else x0 for x, x0 in zip(hist.final_conversion, X0)]
+    final_X = [x if x is not None else x0 for x, x0 in zip(nums.final_conversion, X0)]
     if not runs_away and any(abs(a - b) > 1e-9 for a, b in zip(final_X, X0)):
         # the contents settle at the steady state of what is left of the reactions
         settled = rc.steady_states(m, sources, P, model.ua, Ta, model.heating_media, conversion=final_X)
@@ -100,28 +298,31 @@ def screen_with_arrhenius(prepared: PreparedCase) -> dict:
             stable = settled.stable
     no_return = steady.unstable
     if scenario != "cooling-failure" and model.mixing == "stirred":
-        _steady_state_statements(model, hist, steady, runs_away, T0, unit, warnings)
+        _steady_state_statements(model, nums, steady, runs_away, T0, unit, warnings)
 
-    facts = HistoryFacts(hist.peak_temperature, hist.peak_time, bool(runs_away), bool(hist.rising_at_end), T0, stable,
-                         float(hist.temperature[-1]))
+    facts = HistoryFacts(nums.peak_temperature, nums.peak_time, bool(runs_away), bool(nums.rising_at_end), T0, stable,
+                         nums.end_temperature)
     criteria, ws, used = scenario_criteria(prepared, facts)
     add(ws)
     _, decomposition = roles_of(model)
     general = rc.zero_conversion_warning(sources)
     kinetics = [general] if general is not None else []
     for s in sources:  # one extrapolation caution per source, at the farthest temperature its kinetics were used at
-        kinetics += named_kinetics_warnings([s], [T0, hist.peak_temperature] + (used if s in decomposition else []))
-    kinetics += rc.initiation_warnings(sources, [T0, hist.peak_temperature] + used)
+        kinetics += named_kinetics_warnings([s], [T0, nums.peak_temperature] + (used if s in decomposition else []))
+    kinetics += rc.initiation_warnings(sources, [T0, nums.peak_temperature] + used)
     warnings[:] = _consolidate(warnings, kinetics)
 
     # --- adiabatic bound
-    ad_model = dataclasses.replace(model, ua=0.0, boiling=None)
-    ad_hist = integrate_history(ad_model)
-    adiabatic = {"limits": [{"name": c.name, "time_s": c.time} for c in ad_hist.limits],
+    if values is not None:
+        ad_limits = [{"name": lim.name, "time_s": t} for lim, t in zip(model.limits, values.adiabatic_times)]
+    else:
+        ad_hist = integrate_history(_adiabatic_model(model))
+        ad_limits = [{"name": c.name, "time_s": c.time} for c in ad_hist.limits]
+    adiabatic = {"limits": ad_limits,
                  "temperature_rise_K": sum(s.power * s.time_constant for s in model.decaying_sources) / C}
 
     boiling = None
-    if model.boiling is not None and hist.boiling is not None:
+    if model.boiling is not None and hist is not None and hist.boiling is not None:
         b = hist.boiling
         boiled = b.time_to_boil is not None and b.tempering_credited
         boiling = {"time_to_boil_s": b.time_to_boil,
@@ -132,8 +333,8 @@ def screen_with_arrhenius(prepared: PreparedCase) -> dict:
 
     result = {
         "time_constant_s": tau,
-        "peak_temperature_K": hist.peak_temperature,
-        "peak_time_s": hist.peak_time,
+        "peak_temperature_K": nums.peak_temperature,
+        "peak_time_s": nums.peak_time,
         "steady_temperature_K": stable,
         "limits": rows,
         "adiabatic": adiabatic,
@@ -141,16 +342,18 @@ def screen_with_arrhenius(prepared: PreparedCase) -> dict:
         "warnings": warnings,
         "method": "numeric",
         **criteria,
-        "stop_reason": hist.stop_reason,
+        "stop_reason": nums.stop_reason,
     }
     if scenario == "heat-up":
         result["no_return_temperature_K"] = no_return if model.mixing == "stirred" else None
-    alarm_time = _alarm_time(hist)
+    alarm_time = _alarm_time(nums)
     detection_and_recovery(prepared, result, alarm_time=alarm_time)
-    _arrhenius_recovery(prepared, result, hist)
-    result["_history"] = {"time_s": np.asarray(hist.time).tolist(), "temperature_K": np.asarray(hist.temperature).tolist(),
-                          "generation_W": np.asarray(hist.heat_generation).tolist(),
-                          "loss_W": np.asarray(hist.heat_loss_ambient).tolist()}
+    if hist is not None:
+        _arrhenius_recovery(prepared, result, hist)
+        result["_history"] = {"time_s": np.asarray(hist.time).tolist(),
+                              "temperature_K": np.asarray(hist.temperature).tolist(),
+                              "generation_W": np.asarray(hist.heat_generation).tolist(),
+                              "loss_W": np.asarray(hist.heat_loss_ambient).tolist()}
     if scenario == "heat-up":
         curve_sources, curve_X, states = sources, X_rate, (steady.stable, steady.unstable)
     else:

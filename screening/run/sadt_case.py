@@ -2,8 +2,10 @@
 
 Each trial integrates the package for 7 days from uniform at the trial ambient with the
 temperature-dependent sources only (no constant, decaying, fire or heating-medium input, and the wall
-not credited): stirred or convecting liquids with the lumped history
-(:func:`screening.core.arrhenius_history.integrate_history`), unstirred contents with the transient
+not credited): stirred or convecting liquids with the lumped balance on the batch engine
+(:func:`screening.core.arrhenius_history_batch.first_crossing_times_arrhenius`; the searches of many
+packages run in lock-step, :func:`screening.core.sadt.search_sadt_lockstep`, and one case is a group
+of one), unstirred contents with the transient
 conduction model (:func:`screening.core.transient_conduction.hot_spot_history`), whose centre is the
 temperature the test criterion names. The search on the 5 °C grid is :func:`screening.core.sadt.search_sadt`,
 started at the critical ambient (Semenov or Frank-Kamenetskii) the storage criteria already give.
@@ -37,8 +39,60 @@ _CACHE: "OrderedDict" = OrderedDict()
 _CACHE_SIZE = 32
 
 
-def sadt_results(prepared: PreparedCase, criteria: dict) -> dict:
-    """The SADT keys of a storage case's result (``criteria``: the scenario keys already computed)."""
+_SEARCH_FAILURES = (RuntimeError, ValueError, ArithmeticError)  # an integration failed: said, not raised
+
+
+def _search_key(model: ScreeningModel, criteria: dict):
+    """(cache key, method, bound, estimate) of a storage case's search."""
+    method = "lumped" if model.mixing == "stirred" else "conduction"
+    estimate = criteria.get("critical_ambient_temperature_K")
+    if method == "lumped" and any(c.power != 0 for c in model.constant_sources):
+        estimate = _semenov_of_the_decomposition(model)  # the trials leave the constant sources out
+    tops = [s.tested_range[1] if s.tested_range is not None else None for s in model.arrhenius_sources]
+    bound = cs.search_bound(tops)
+    return (_key_model(model), method, bound, estimate), method, bound, estimate
+
+
+def stirred_sadt_searches(prepared_cases) -> dict:
+    """The SADT searches of many stirred storage cases in one lock-step run of the batch engine.
+
+    Returns {search key: SadtSearch or the exception of a failed trial}, for :func:`sadt_results`'
+    ``searches``; cases without an SADT, or unstirred ones (per-package conduction trials), are left
+    out. The search's start needs the critical ambient of the criteria: it is computed here as
+    :mod:`screening.run.scenario_criteria` does for a stirred storage case (a different value only
+    means that :func:`sadt_results` runs the search itself).
+    """
+    from screening.core import runaway as rc
+    from screening.core.terms import constant_power
+
+    keys, models, grids, starts = [], [], [], []
+    seen = set()
+    for prepared in prepared_cases:
+        model = prepared.model
+        if model.scenario != "storage" or model.mixing != "stirred" or _not_applicable(prepared)[0] is not None:
+            continue
+        try:
+            sem = rc.semenov_critical_ambient(model.contents_mass, model.arrhenius_sources, constant_power(model),
+                                              model.ua, model.heating_media)
+        except _SEARCH_FAILURES:
+            continue
+        key, _, bound, estimate = _search_key(model, {"critical_ambient_temperature_K": sem.ambient})
+        if key in seen or key in _CACHE:
+            continue
+        seen.add(key)
+        grid = cs.sadt_grid(cs.SADT_LOWEST, bound)
+        keys.append(key)
+        models.append(model)
+        grids.append(grid)
+        starts.append(cs.start_index(grid, estimate))
+    if not keys:
+        return {}
+    return dict(zip(keys, cs.search_sadt_lockstep(_lumped_trials(models), grids, starts)))
+
+
+def sadt_results(prepared: PreparedCase, criteria: dict, searches: dict | None = None) -> dict:
+    """The SADT keys of a storage case's result (``criteria``: the scenario keys already computed;
+    ``searches``: searches computed beforehand, e.g. :func:`stirred_sadt_searches` for a register chunk)."""
     model = prepared.model
     unit = prepared.display_temperature_unit
     out = dict.fromkeys(SADT_KEYS)
@@ -47,31 +101,34 @@ def sadt_results(prepared: PreparedCase, criteria: dict) -> dict:
         out["sadt_note"] = reason
         out["sadt"] = {"status": status}
         return out
-    method = "lumped" if model.mixing == "stirred" else "conduction"
-    estimate = criteria.get("critical_ambient_temperature_K")
-    if method == "lumped" and any(c.power != 0 for c in model.constant_sources):
-        estimate = _semenov_of_the_decomposition(model)  # the trials leave the constant sources out
-    tops = [s.tested_range[1] if s.tested_range is not None else None for s in model.arrhenius_sources]
-    bound = cs.search_bound(tops)
-    key = (_key_model(model), method, bound, estimate)
-    search = _CACHE.get(key)
+    key, method, bound, estimate = _search_key(model, criteria)
+    search = searches.get(key) if searches else None
+    if search is None:
+        search = _CACHE.get(key)
+        if search is not None:
+            _CACHE.move_to_end(key)
     if search is None:
         grid = cs.sadt_grid(cs.SADT_LOWEST, bound)
-        trial = _lumped_trial(model) if method == "lumped" else _conduction_trial(model)
+        start = cs.start_index(grid, estimate)
         try:
-            search = cs.search_sadt(trial, grid, cs.start_index(grid, estimate))
-        except (RuntimeError, ValueError, ArithmeticError) as exc:  # an integration failed: said, not raised
-            out["sadt_note"] = (f"No SADT: a 7-day integration of the search failed ({exc}); the SADT could not be "
-                                f"computed.")
-            out["sadt"] = {"status": "failed"}
-            return out
+            if method == "lumped":
+                search = cs.search_sadt_lockstep(_lumped_trials([model]), [grid], [start])[0]
+            else:
+                search = cs.search_sadt(_conduction_trial(model), grid, start)
+        except _SEARCH_FAILURES as exc:
+            search = exc
+    if not isinstance(search, BaseException):
         _CACHE[key] = search
         while len(_CACHE) > _CACHE_SIZE:
             _CACHE.popitem(last=False)
-    else:
-        _CACHE.move_to_end(key)
+    if isinstance(search, BaseException):
+        out["sadt_note"] = (f"No SADT: a 7-day integration of the search failed ({search}); the SADT could not be "
+                            f"computed.")
+        out["sadt"] = {"status": "failed"}
+        return out
     notes = []
     sadt = search.sadt
+    tops = [s.tested_range[1] if s.tested_range is not None else None for s in model.arrhenius_sources]
     crit_method = {"semenov": "Semenov", "frank-kamenetskii": "Frank-Kamenetskii"}.get(
         criteria.get("critical_ambient_method"), "critical-ambient")
     if sadt is None:
@@ -217,23 +274,48 @@ def _key_model(model: ScreeningModel) -> ScreeningModel:
                                wall_heat_capacity=0.0, scenario="storage")
 
 
-def _lumped_trial(model: ScreeningModel):
-    from screening.core.arrhenius_history import integrate_history
+def _trial_model(model: ScreeningModel, ambient: float) -> ScreeningModel:
+    """A stirred package at one ambient for 7 days, from uniform at it, with its decompositions alone
+    (no wall credited), and the rise of the test criterion as its one limit."""
+    return ScreeningModel(model.contents_mass, model.contents_specific_heat, 0.0, model.ua, ambient, ambient,
+                          cs.SADT_WINDOW, arrhenius_sources=tuple(model.arrhenius_sources),
+                          limits=(Limit("sadt rise", ambient + cs.SADT_RISE),), scenario="storage")
 
-    sources = tuple(model.arrhenius_sources)
 
-    def trial(ambient: float) -> cs.SadtTrial:
-        rise = ambient + cs.SADT_RISE
-        run = ScreeningModel(model.contents_mass, model.contents_specific_heat, 0.0, model.ua, ambient, ambient,
-                             cs.SADT_WINDOW, arrhenius_sources=sources, limits=(Limit("sadt rise", rise),),
-                             scenario="storage")
-        hist = integrate_history(run, stop_temperature=ambient + 100.0)
-        t = hist.time_to("sadt rise")
-        at_end = float(hist.temperature[-1]) if hist.stop_reason == "horizon" else None
-        stopped = float(hist.stop_time) if hist.stop_reason != "horizon" else None
-        return cs.SadtTrial(ambient, t is not None, t, at_end, float(hist.peak_temperature), stopped)
+def _lumped_trials(models):
+    """Trials of stirred packages for :func:`screening.core.sadt.search_sadt_lockstep`: every pending
+    (package, ambient) of a round integrated together by the batch engine
+    (:func:`screening.core.arrhenius_history_batch.first_crossing_times_arrhenius`), stopped at the
+    ambient + 100 K (a runaway) and otherwise followed to the end of the 7 days."""
+    from screening.core.arrhenius_history_batch import (STATUS_FAILED, STATUS_HORIZON,
+                                                        first_crossing_times_arrhenius, samples_from_models)
 
-    return trial
+    def trials(requests):
+        runs = [_trial_model(models[p], ambient) for p, ambient in requests]
+        params, limits, horizon = samples_from_models(runs)
+        stop = [ambient + 100.0 for _, ambient in requests]
+        try:
+            res = first_crossing_times_arrhenius(params, limits, horizon, stop_temperature=stop, to_horizon=True,
+                                                 on_failure="flag")
+        except _SEARCH_FAILURES as exc:  # inputs out of the engine's range: find which package, alone
+            if len(requests) == 1:
+                return [exc]
+            return [trials([r])[0] for r in requests]
+        out = []
+        for k, (_, ambient) in enumerate(requests):
+            if res.status[k] == STATUS_FAILED:
+                out.append(RuntimeError(f"the 7-day integration at {ambient:.2f} K needed more steps than allowed"))
+                continue
+            t = float(res.times[k, 0])
+            hit = math.isfinite(t)
+            horizon_end = res.status[k] == STATUS_HORIZON
+            out.append(cs.SadtTrial(ambient, hit, t if hit else None,
+                                    float(res.end_temperature[k]) if horizon_end else None,
+                                    float(res.peak_temperature[k]),
+                                    None if horizon_end else float(res.end_time[k])))
+        return out
+
+    return trials
 
 
 def _conduction_trial(model: ScreeningModel):
@@ -268,4 +350,4 @@ def sadt_sentence(result: dict, unit: str) -> str | None:
     return text + "."
 
 
-__all__ = ["SADT_KEYS", "sadt_results", "conduction_body", "sadt_sentence"]
+__all__ = ["SADT_KEYS", "sadt_results", "stirred_sadt_searches", "conduction_body", "sadt_sentence"]

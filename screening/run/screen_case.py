@@ -23,18 +23,22 @@ from screening.run.warnings import biot_and_validity, case_assumptions
 
 
 def screen_prepared(prepared: PreparedCase, input_hash: str | None = None,
-                    values: ClosedFormValues | None = None, with_history: bool = True) -> dict:
+                    values: ClosedFormValues | None = None, with_history: bool = True,
+                    sadt_searches: dict | None = None, arrhenius_values=None) -> dict:
     """Full result dict for one prepared case (without a verdict).
 
     ``values`` (closed-form cases only) are engine results computed elsewhere,
-    e.g. by the vectorised engine for a register.
+    e.g. by the vectorised engine for a register; ``sadt_searches`` likewise the SADT
+    searches of a register chunk's stirred storage rows (:func:`screening.run.sadt_case.stirred_sadt_searches`),
+    and ``arrhenius_values`` the vectorised engine's runs of a case with Arrhenius sources
+    (:func:`screening.run.runaway_case.arrhenius_values`).
     """
     if prepared.model.daily_cycle is not None:
-        values = None  # engine values from elsewhere do not know the start time of day chosen here
+        values = arrhenius_values = None  # engine values from elsewhere do not know the start time of day chosen here
     prepared, start_info = choose_start(prepared)  # a daily cycle without a stated start: the worst hourly start
     model = prepared.model
     if model.arrhenius_sources:
-        core = screen_with_arrhenius(prepared)
+        core = screen_with_arrhenius(prepared, arrhenius_values, with_history=with_history)
     else:
         core = screen_closed_form(prepared, values, with_history=with_history)
         core.update(_closed_form_criteria(prepared, core))
@@ -50,7 +54,7 @@ def screen_prepared(prepared: PreparedCase, input_hash: str | None = None,
     }
     result["warnings"] = list(prepared.warnings) + core["warnings"]
     if model.scenario == "storage":  # SADT, control and emergency temperatures of a package
-        result.update(sadt_results(prepared, result))
+        result.update(sadt_results(prepared, result, sadt_searches))
     write_case_keys(result, model.initial_temperature, model.ambient_temperature, model.horizon,
                     model.heat_capacity, model.ua, core["limits"])
     result["start_release"] = _start_release(prepared)

@@ -619,3 +619,136 @@ def test_no_floating_point_warnings_and_consistent_results(seed, lo_E, log_q, dT
     assert np.all((res.peak_time >= 0) & (res.peak_time <= H * (1 + 1e-12)))
     for l, L in enumerate(lims):
         assert np.all(res.peak_temperature[reached[:, l]] >= L * (1 - 1e-9))
+
+
+# --------------------------------------------------------------------------- the state at the end of a run
+
+
+def reference_end(s, horizon, stop, rtol=1e-11):
+    """(T, dT/dt, t, X) at the end of the run from scipy solve_ivp (Radau, reference library): at the
+    horizon, or where T first reaches ``stop`` (terminal event). Plain time, state [T, X_1..X_J]; the
+    same balance as :func:`reference` (a source of order n < 1 ends at X = 1, then is restarted without it)."""
+    J = len(s["q"])
+    C, m = s["C"], s["m"]
+    g = s["ua"] + sum(s["mua"])
+    drive = s["ua"] * s["Ta"] + sum(u * T for u, T in zip(s["mua"], s["mT"]))
+    lncap = math.log(1e9 * C / m)
+    tracked = [not math.isnan(d) for d in s["dh"]]
+    off = [tracked[j] and s["X0"][j] >= 1 for j in range(J)]
+
+    def rhs(t, y):
+        T = y[0]
+        net = s["P0"] + sum(P * math.exp(-t / a) for P, a in zip(s["Pd"], s["ad"])) - g * T + drive
+        dy = np.zeros(1 + J)
+        for j in range(J):
+            if off[j] or s["q"][j] <= 0:
+                continue
+            ex = math.log(s["q"][j]) - s["E"][j] / R * (1 / max(T, 1.0) - 1 / s["Tr"][j])
+            k = math.exp(max(min(ex, lncap), -600.0))
+            if tracked[j]:
+                rem = max(1 - y[1 + j], 0.0)
+                n = s["n"][j]
+                q = k * (rem ** n if n > 0 else (1.0 if rem > 0 else 0.0))
+                dy[1 + j] = q / s["dh"][j]
+            else:
+                q = k
+            net += m * q
+        dy[0] = net / C
+        return dy
+
+    y = np.array([s["T0"]] + list(s["X0"]), dtype=float)
+    t = 0.0
+    for _ in range(10):
+        evs = []
+        ev = (lambda t, y: y[0] - stop)
+        ev.direction, ev.terminal = 1, True
+        evs.append(ev)
+        ends = [j for j in range(J) if tracked[j] and not off[j] and s["n"][j] < 1 and s["q"][j] > 0]
+        for j in ends:
+            ev = (lambda t, y, j=j: 1 - y[1 + j])
+            ev.direction, ev.terminal = -1, True
+            evs.append(ev)
+        sol = solve_ivp(rhs, (t, horizon), y, method="Radau", rtol=rtol, atol=np.r_[1e-12, np.full(J, 1e-14)],
+                        events=evs)
+        if sol.status < 0:  # step size below the spacing of t: the runaway outran plain time
+            return None
+        if sol.status == 0:
+            yend, tend = sol.y[:, -1], sol.t[-1]
+            break
+        if len(sol.t_events[0]):
+            yend, tend = sol.y_events[0][0], sol.t_events[0][0]
+            break
+        e = next(i for i in range(1, len(evs)) if len(sol.t_events[i]))
+        t, y = sol.t_events[e][0], sol.y_events[e][0].copy()
+        off[ends[e - 1]] = True
+        y[1 + ends[e - 1]] = 1.0
+    X = [float(yend[1 + j]) if tracked[j] else math.nan for j in range(J)]
+    return float(yend[0]), float(rhs(tend, yend)[0]), float(tend), X
+
+
+@pytest.mark.parametrize("kind, N, seed, J, kd, km, horizon", [
+    ("mixed", 10, 61, 1, 0, 0, 500 * HOUR),
+    ("stable", 6, 62, 1, 0, 0, 200 * HOUR),  # cooling: followed to the horizon (to_horizon)
+    ("critical", 6, 63, 1, 0, 0, 300 * HOUR),
+    ("mixed", 8, 64, 2, 1, 1, 200 * HOUR),  # two reactions, a decaying source, a heating medium
+])
+def test_end_state_matches_solve_ivp(kind, N, seed, J, kd, km, horizon):
+    # the end of each run (horizon or stop) against scipy solve_ivp (Radau, rtol 1e-11; reference library)
+    d = cases(kind, N, seed, J, kd, km)
+    stop = LIMITS.max() + 20.0  # plain-time Radau cannot follow the runaway to 2000 K
+    res = screen(to_params(d), LIMITS, horizon, stop_temperature=stop, to_horizon=True)
+    checked = 0
+    for i in range(N):
+        ref = reference_end(one(d, i), horizon, stop)
+        if ref is None:
+            continue
+        checked += 1
+        T, rate, t, X = ref
+        assert res.status[i] == (STATUS_STOP if t < horizon else STATUS_HORIZON)
+        assert res.end_temperature[i] == pytest.approx(T, rel=1e-7), i
+        assert res.end_time[i] == pytest.approx(t, rel=1e-6), i
+        # dT/dt: relative 1e-6, plus what a temperature error of 1e-9 relative moves on the loss line
+        # (slope (UA + sum ua_k) / C) where the rate is near zero
+        scale = 1e-6 * abs(rate) + 1e-9 * T * (d["ua"][i] + d["mua"][i].sum()) / d["C"][i]
+        assert abs(res.end_rate[i] - rate) <= scale, (i, res.end_rate[i], rate)
+        for j in range(J):
+            if math.isnan(X[j]):
+                assert np.isnan(res.end_conversion[i, j])
+            else:
+                assert res.end_conversion[i, j] == pytest.approx(X[j], abs=1e-7), (i, j)
+    assert checked >= N // 2
+
+
+def test_end_state_fields_keep_the_other_results_and_say_what_is_unknown():
+    d = cases("stable", 20, 71)
+    p = to_params(d)
+    a = screen(p, LIMITS, 100 * HOUR)
+    b = screen(p, LIMITS, 100 * HOUR, to_horizon=True)
+    # following cooling samples to the horizon changes no other field (the early finish only skips steps)
+    np.testing.assert_array_equal(a.times, b.times)
+    np.testing.assert_array_equal(a.status, b.status)
+    np.testing.assert_allclose(a.peak_temperature, b.peak_temperature, rtol=1e-12)
+    early = a.steps < b.steps  # finished early without to_horizon: the end is not known
+    assert early.any() and np.isnan(a.end_temperature[early]).all() and np.isnan(a.end_conversion[early]).all()
+    assert np.isfinite(b.end_temperature).all() and (b.end_time == 100 * HOUR).all()
+    assert (b.peak_temperature >= b.end_temperature).all()  # the peak is never below the end
+    d = cases("mixed", 30, 72)
+    c = screen(to_params(d), LIMITS, 300 * HOUR, to_horizon=True)
+    done = c.status == STATUS_HORIZON
+    assert done.any() and (c.peak_temperature[done] >= c.end_temperature[done]).all()
+    # a source without a heat of reaction has no conversion; one switched off keeps its initial conversion
+    p2 = ArrheniusSamples(1e6, 500.0, 10.0, 300.0, 320.0, specific_power=[[1e-3, 0.0, 1e-3]],
+                          reference_temperature=[[350.0] * 3], activation_energy=[[80e3] * 3],
+                          order=[[1.0] * 3], heat_of_reaction=[[1e5, 2e5, np.nan]], initial_conversion=[[0.1, 0.2, 0]])
+    r = screen(p2, [360.0], HOUR, to_horizon=True)
+    assert r.end_conversion[0, 1] == 0.2 and np.isnan(r.end_conversion[0, 2]) and 0.1 < r.end_conversion[0, 0] < 1
+    # a start at the stop temperature ends where it starts
+    r = screen(p2, [360.0], HOUR, stop_temperature=400.0 + 0 * np.zeros(1), to_horizon=True)
+    p3 = ArrheniusSamples(1e6, 500.0, 10.0, 300.0, 500.0, specific_power=[[1e-3]], reference_temperature=[[350.0]],
+                          activation_energy=[[80e3]], order=[[1.0]], heat_of_reaction=[[1e5]],
+                          initial_conversion=[[0.25]])
+    r = screen(p3, [360.0], HOUR, stop_temperature=450.0)
+    assert r.end_temperature[0] == 500.0 and r.end_time[0] == 0.0 and r.end_conversion[0, 0] == 0.25
+    # energy balance at t = 0 (by hand): (m q(T) (1 - X) - UA (T - Ta)) / C
+    q = 1e-3 * math.exp(-80e3 / R * (1 / 500.0 - 1 / 350.0)) * 0.75
+    assert r.end_rate[0] == pytest.approx((500.0 * q - 10.0 * 200.0) / 1e6, rel=1e-12)

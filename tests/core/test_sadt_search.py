@@ -91,3 +91,46 @@ def test_search_from_the_right_start_takes_two_trials():
 
     res = cs.search_sadt(trial, grid, cs.start_index(grid, C0 + 74.04))
     assert res.sadt - C0 == pytest.approx(75.0) and len(n) == 2
+
+
+@settings(max_examples=100, deadline=None)
+@given(st.lists(st.tuples(st.integers(0, 60), st.integers(-5, 60), st.integers(3, 49)), min_size=1, max_size=12))
+def test_lockstep_search_equals_the_one_package_search_and_a_full_scan(packages):
+    # many packages at once (any monotonic trigger, start and grid each): the same answer and the same trials
+    # as the one-package search, and the answer of a full scan of the grid
+    grids = [cs.sadt_grid()[:size] for _, _, size in packages]
+
+    def trigger(p, ta):
+        threshold = packages[p][0]
+        i = int(round((ta - grids[p][0]) / 5.0))
+        return cs.SadtTrial(ta, i >= threshold, None, ta, ta)
+
+    rounds = []
+
+    def trials(requests):
+        assert len({p for p, _ in requests}) == len(requests)  # one request per package and round
+        rounds.append(len(requests))
+        return [trigger(p, ta) for p, ta in requests]
+
+    many = cs.search_sadt_lockstep(trials, grids, [start for _, start, _ in packages])
+    for p, (threshold, start, size) in enumerate(packages):
+        one = cs.search_sadt(lambda ta, p=p: trigger(p, ta), grids[p], start)
+        assert many[p] == one
+        expected = _scan(grids[p], threshold)
+        assert (many[p].sadt is None) == (expected is None)
+        if expected is not None:
+            assert many[p].sadt == pytest.approx(grids[p][expected])
+    assert sum(rounds) == sum(len(r.trials) for r in many)  # every trial asked once
+
+
+def test_lockstep_search_keeps_a_failed_package_apart():
+    # a package whose trial fails ends with that exception; the others finish their searches
+    grid = cs.sadt_grid()
+    boom = RuntimeError("step cap")
+
+    def trials(requests):
+        return [boom if p == 1 else cs.SadtTrial(ta, ta >= C0 + 40.0 - 1e-9, None, ta, ta) for p, ta in requests]
+
+    res = cs.search_sadt_lockstep(trials, [grid, grid, grid], [0, 10, 40])
+    assert res[1] is boom
+    assert res[0].sadt - C0 == pytest.approx(40.0) and res[2].sadt - C0 == pytest.approx(40.0)

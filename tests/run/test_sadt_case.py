@@ -299,7 +299,7 @@ def test_margin_on_the_ambient_reuses_the_search(monkeypatch):
     data = demo("fw-p08-peroxide-cans.yaml")
     first = screen(data)
     calls = []
-    monkeypatch.setattr(sadt_case, "_lumped_trial", lambda model: calls.append(model))
+    monkeypatch.setattr(sadt_case, "_lumped_trials", lambda models: calls.append(models))
     data2 = copy.deepcopy(data)
     data2["heat_loss"]["ambient_temperature"] = "33 degC"
     again = sadt_results(prepared_of(data2), {"critical_ambient_temperature_K":
@@ -352,3 +352,128 @@ def test_sadt_of_a_package_in_the_sun_is_that_of_the_package_in_a_constant_ambie
     assert sunny["sadt_K"] == plain["sadt_K"] == pytest.approx(348.15)  # 75 degC, as above
     gap = sunny["control_temperature_K"] - sunny["criteria_ambient_K"]
     assert any(f"{gap:.1f} K below the package's control temperature" in x for x in sunny["reasons"])
+
+
+def trial_reference(m, cp, ua, src, ambient):
+    """(rise time or None, T at 7 d or None, peak, stop time or None) of one stirred trial: scipy solve_ivp
+    (Radau, rtol 1e-11; reference library) on m c dT/dt = m q(T, X) - UA (T - Ta), dX/dt = q / dh,
+    from T = Ta, X = 0; the rise at Ta + 6 K, stopped at Ta + 100 K; n < 1 ends at X = 1."""
+    n, dh = src.order, src.specific_heat_of_reaction
+
+    def q(T, X):
+        rate = src.specific_power * math.exp(-src.activation_energy / GAS_CONSTANT
+                                             * (1.0 / T - 1.0 / src.reference_temperature))
+        rem = max(1.0 - X, 0.0)
+        return rate * (rem ** n if n > 0 else (1.0 if rem > 0 else 0.0))
+
+    def rhs(t, y):
+        qq = q(y[0], y[1])
+        return [(m * qq - ua * (y[0] - ambient)) / (m * cp), qq / dh]
+
+    def rise(t, y):
+        return y[0] - (ambient + cs.SADT_RISE)
+    rise.direction = 1.0
+
+    def runaway(t, y):
+        return y[0] - (ambient + 100.0)
+    runaway.terminal, runaway.direction = True, 1.0
+
+    def top(t, y):
+        return rhs(t, y)[0]
+    top.direction = -1.0
+
+    def spent(t, y):
+        return 1.0 - y[1]
+    spent.terminal, spent.direction = True, -1.0
+
+    t0, y0, rise_t, peak = 0.0, [ambient, 0.0], None, ambient
+    events = [rise, runaway, top] + ([spent] if n < 1 else [])
+    while True:
+        sol = solve_ivp(rhs, (t0, WEEK), y0, method="Radau", rtol=1e-11, atol=[1e-10, 1e-14], events=events)
+        assert sol.status >= 0
+        if rise_t is None and len(sol.t_events[0]):
+            rise_t = float(sol.t_events[0][0])
+        peak = max([peak, float(sol.y[0].max())] + [float(y[0]) for y in sol.y_events[2]])
+        if len(sol.t_events[1]):
+            return rise_t, None, ambient + 100.0, float(sol.t_events[1][0])
+        if sol.status == 1:  # the n < 1 reaction ended: no more heat
+            t0, y0 = float(sol.t_events[3][0]), [float(sol.y_events[3][0][0]), 1.0]
+            events = [rise, runaway, top]
+            continue
+        return rise_t, float(sol.y[0, -1]), peak, None
+
+
+def test_batch_trials_agree_with_solve_ivp_on_random_packages():
+    # random stirred packages (mass, UA per kg, E, order, heat, rate) at 5 °C steps around their Semenov
+    # critical ambient (where the trials are hardest): the batch engine's trials against scipy to 1e-6
+    from screening.core import runaway as rc
+    from screening.core.model import ArrheniusSource, ScreeningModel
+    from screening.run.sadt_case import _lumped_trials
+
+    rng = np.random.default_rng(17)
+    models, requests = [], []
+    for p in range(8):
+        m = float(rng.uniform(10, 1000))
+        cp = float(rng.uniform(1500, 2500))
+        ua = m * float(rng.uniform(0.05, 0.5))
+        E = float(rng.uniform(80e3, 160e3))
+        order = float(rng.choice([0.0, 0.5, 1.0, 2.0]))
+        dh = float(rng.uniform(2e5, 1e6))
+        src = ArrheniusSource(float(10 ** rng.uniform(-3, -1)), C0 + 60.0, E, order=order,
+                              specific_heat_of_reaction=dh)
+        model = ScreeningModel(m, cp, 0.0, ua, C0 + 20, C0 + 20, WEEK, arrhenius_sources=(src,), scenario="storage")
+        models.append(model)
+        crit = rc.semenov_critical_ambient(m, (src,), 0.0, ua, ()).ambient
+        base = cs.round_up_to_step(crit)
+        requests += [(p, base + k * cs.SADT_STEP) for k in (-2, -1, 0, 1, 3)]
+    trials = _lumped_trials(models)(requests)
+    hits = 0
+    for (p, ambient), tr in zip(requests, trials):
+        md = models[p]
+        rise_t, end, peak, stopped = trial_reference(md.contents_mass, md.contents_specific_heat, md.ua,
+                                                     md.arrhenius_sources[0], ambient)
+        grazing = abs(peak - (ambient + cs.SADT_RISE)) < 1e-6 * ambient
+        if not grazing:
+            assert tr.triggered == (rise_t is not None), (p, ambient)
+            if rise_t is not None:
+                hits += 1
+                assert tr.rise_time == pytest.approx(rise_t, rel=1e-6)
+        assert (tr.stopped_at is None) == (stopped is None)
+        if stopped is not None:
+            assert tr.stopped_at == pytest.approx(stopped, rel=1e-6)
+        else:
+            assert tr.centre_at_end == pytest.approx(end, rel=1e-6)
+            assert tr.peak_centre == pytest.approx(peak, rel=1e-6)
+            assert tr.peak_centre >= tr.centre_at_end
+    assert 0 < hits < len(requests)  # both kinds of trial were checked
+
+
+def test_lockstep_searches_of_many_cases_give_the_one_case_blocks(monkeypatch):
+    # a register chunk's stirred storage rows searched together give each row exactly the SADT keys of the
+    # case screened alone (a group of one): the same batch trial function, whose samples do not depend on
+    # the others in their batch (tests/core/test_arrhenius_history_batch.py)
+    from screening.run import sadt_case
+    from screening.run.sadt_case import stirred_sadt_searches
+
+    rng = np.random.default_rng(5)
+    cases = []
+    for i in range(6):
+        data = demo("fw-p08-peroxide-cans.yaml")
+        data["id"] = f"FW-P{i}"
+        data["contents"]["mass"] = f"{rng.uniform(20, 300):.4g} kg"
+        src = data["heat_sources"][0]
+        src["activation_energy"] = f"{rng.uniform(90, 160):.4g} kJ/mol"
+        src["order"] = float(rng.choice([0.0, 0.5, 1.0, 2.0]))
+        cases.append(prepared_of(data))
+    sadt_case._CACHE.clear()
+    searches = stirred_sadt_searches(cases)
+    assert len(searches) == len(cases)
+    trials = sadt_case._lumped_trials
+    monkeypatch.setattr(sadt_case, "_lumped_trials", lambda models: pytest.fail("searched again"))
+    together = [screen_prepared(p, sadt_searches=searches) for p in cases]  # the searches given are used
+    monkeypatch.setattr(sadt_case, "_lumped_trials", trials)
+    for p, got in zip(cases, together):
+        sadt_case._CACHE.clear()
+        alone = screen_prepared(p)
+        for key in sadt_case.SADT_KEYS:
+            assert got[key] == alone[key], (p.spec.id, key)
