@@ -856,13 +856,15 @@ def hot_spot_histories_with_mesh_check(bodies: Sequence[ConductionBody], limits,
 
     Examples
     --------
-    A sphere with no source cooling from 400 K in 300 K air reaches 350 K at its centre on both meshes; the
-    two times agree within the mesh tolerance (1e-3):
+    A sphere without a source heated from 300 K by air at 400 K (Bi = 1): the hot spot is the outer cell, whose
+    centre moves outward as the mesh is refined, so its time to 350 K moves by 0.78 % between 64 and 128 cells
+    (the scipy solver of :func:`screening.core.transient_conduction.hot_spot_with_mesh_check` gives the same),
+    above the 0.1 % tolerance at which a warning is due:
 
     >>> b = ConductionBody("sphere", 0.1, 1000.0, 1000.0, 1.0, 10.0, 400.0, 300.0)
     >>> (hist, change), = hot_spot_histories_with_mesh_check([b], [350.0], 20000.0)
-    >>> change < 1e-3, hist.cells
-    (True, 128)
+    >>> round(change, 4), hist.cells
+    (0.0078, 128)
     """
     bodies = list(bodies)
     coarse = hot_spot_histories(bodies, limits, horizon, cells=cells, stop_temperature=stop_temperature, rtol=rtol,
