@@ -22,14 +22,18 @@ from screening.run.warnings import biot_and_validity, case_assumptions
 
 
 def screen_prepared(prepared: PreparedCase, input_hash: str | None = None,
-                    values: ClosedFormValues | None = None, with_history: bool = True) -> dict:
+                    values: ClosedFormValues | None = None, with_history: bool = True,
+                    conduction=None) -> dict:
     """Full result dict for one prepared case (without a verdict).
 
     ``values`` (closed-form cases only) are engine results computed elsewhere,
-    e.g. by the vectorised engine for a register.
+    e.g. by the vectorised engine for a register; ``conduction`` (unstirred cases) the
+    case's :class:`screening.run.conduction_case.ConductionSolution` from a register
+    chunk's batch.
     """
     if prepared.model.daily_cycle is not None:
         values = None  # engine values from elsewhere do not know the start time of day chosen here
+        conduction = None
     prepared, start_info = choose_start(prepared)  # a daily cycle without a stated start: the worst hourly start
     model = prepared.model
     if model.arrhenius_sources:
@@ -40,7 +44,7 @@ def screen_prepared(prepared: PreparedCase, input_hash: str | None = None,
     if model.mixing == "unstirred":  # the limit times become the hot spot's (transient conduction)
         from screening.run.conduction_case import apply_conduction
 
-        apply_conduction(prepared, core)
+        apply_conduction(prepared, core, conduction)
     spec = prepared.spec
     result = {
         "id": spec.id,
