@@ -344,7 +344,11 @@ def _rhs(P, T, X, t, jac=False):
 
 
 def _cr_factor(sub, diag, sup):
-    """Cyclic reduction of tridiagonal systems (n, M): sub[0] and sup[-1] are 0. Returns the levels."""
+    """Cyclic reduction of tridiagonal systems (n, M): sub[0] and sup[-1] are 0. Returns the levels.
+
+    Level by level the odd-numbered unknowns are eliminated from the even-numbered equations (Hockney 1965):
+    x_2k is coupled to x_2k-2 and x_2k+2 only, with the coefficients below; the last level is one equation.
+    """
     levels = []
     a, b, c = sub, diag, sup
     while b.shape[0] > 1:
@@ -353,37 +357,43 @@ def _cr_factor(sub, diag, sup):
         ae, be, ce = a[0::2], b[0::2], c[0::2]
         ao, bo, co = a[1::2], b[1::2], c[1::2]
         ibo = 1.0 / bo
-        alpha = np.zeros_like(be)
-        beta = np.zeros_like(be)
-        alpha[1:] = -ae[1:] * ibo[:E - 1]
-        beta[:O] = -ce[:O] * ibo
-        na = np.zeros_like(be)
-        nc = np.zeros_like(be)
-        na[1:] = alpha[1:] * ao[:E - 1]
-        nc[:O] = beta[:O] * co
+        alpha = -ae[1:] * ibo[:E - 1]  # for the even equations 1..E-1 (the first has no left neighbour)
+        beta = -ce[:O] * ibo  # for the even equations 0..O-1
         nb = be.copy()
-        nb[1:] += alpha[1:] * co[:E - 1]
-        nb[:O] += beta[:O] * ao
+        nb[1:] += alpha * co[:E - 1]
+        nb[:O] += beta * ao
+        na = np.empty_like(be)
+        na[0] = 0.0
+        np.multiply(alpha, ao[:E - 1], out=na[1:])
+        nc = np.zeros_like(be)
+        np.multiply(beta, co, out=nc[:O])
         levels.append((E, O, alpha, beta, ao, co, ibo))
         a, b, c = na, nb, nc
     levels.append(1.0 / b)
     return levels
 
 
-def _cr_solve(levels, d, k=0):
+def _cr_solve(levels, d):
     """Solve with the levels of :func:`_cr_factor` for right-hand sides d (n, M)."""
-    if k == len(levels) - 1:
-        return d * levels[k]
-    E, O, alpha, beta, ao, co, ibo = levels[k]
-    de, do = d[0::2], d[1::2]
-    nd = de.copy()
-    nd[1:] += alpha[1:] * do[:E - 1]
-    nd[:O] += beta[:O] * do
-    xe = _cr_solve(levels, nd, k + 1)
-    x = np.empty_like(d)
-    x[0::2] = xe
-    right = xe[1:O + 1] if E > O else np.concatenate([xe[1:], np.zeros_like(xe[:1])])
-    x[1::2] = (do - ao * xe[:O] - co * right) * ibo
+    stack = []
+    for E, O, alpha, beta, ao, co, ibo in levels[:-1]:
+        do = d[1::2]
+        nd = d[0::2].copy()
+        nd[1:] += alpha * do[:E - 1]
+        nd[:O] += beta * do
+        stack.append(do)
+        d = nd
+    x = d * levels[-1]
+    for (E, O, alpha, beta, ao, co, ibo), do in zip(reversed(levels[:-1]), reversed(stack)):
+        full = np.empty((E + O,) + x.shape[1:])
+        full[0::2] = x
+        r = do - ao * x[:O]
+        if E > O:
+            r -= co * x[1:]
+        else:
+            r[:-1] -= co[:-1] * x[1:]
+        full[1::2] = r * ibo
+        x = full
     return x
 
 
