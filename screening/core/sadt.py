@@ -31,7 +31,7 @@ import numpy as np
 
 __all__ = ["SADT_STEP", "SADT_WINDOW", "SADT_RISE", "SADT_LOWEST", "SADT_HIGHEST", "SADT_BOUND_ABOVE_TESTED",
            "SELF_REACTIVE_CONTROL_THRESHOLD", "ORGANIC_PEROXIDE_CONTROL_THRESHOLD",
-           "ORGANIC_PEROXIDE_CONTROL_THRESHOLD_BY_TYPE", "IBC_LARGEST_VOLUME", "SadtTrial", "SadtSearch",
+           "ORGANIC_PEROXIDE_CONTROL_THRESHOLD_BY_TYPE", "IBC_LARGEST_VOLUME", "SINGLE_PACKAGING_LARGEST_MASS", "SadtTrial", "SadtSearch",
            "sadt_grid", "search_bound", "start_index", "search_sadt", "control_and_emergency_temperatures",
            "round_up_to_step"]
 
@@ -54,6 +54,10 @@ ORGANIC_PEROXIDE_CONTROL_THRESHOLD = ZERO_CELSIUS + 50.0
 ORGANIC_PEROXIDE_CONTROL_THRESHOLD_BY_TYPE = ZERO_CELSIUS + 45.0
 #: Largest capacity of an IBC, m^3 (from memory): a larger container is a tank, with its own row of the table.
 IBC_LARGEST_VOLUME = 3.0
+
+#: Largest net mass of a single packaging, kg (from memory): with the volume unknown, more than this cannot be
+#: taken as a package.
+SINGLE_PACKAGING_LARGEST_MASS = 400.0
 
 
 @dataclass(frozen=True)

@@ -66,7 +66,8 @@ CSV_HEAD = ["id", "row", "verdict", "scenario", "first_limit", "time_to_first_li
 CSV_TAIL = ["peak_temperature_K", "peak_time_h", "steady_temperature_K", "time_constant_h", "tmr_adiabatic_h",
             "critical_ambient_temperature_K", "ambient_temperature_K", "t_d24_K", "mtsr_K", "tmr_at_mtsr_h",
             "tmr_at_storage_temperature_h", "decomposition_temperature_rise_K", "criticality_class",
-            "probability_before_response", "p05_time_to_first_limit_h", "warnings", "reasons"]
+            "sadt_K", "control_temperature_K", "emergency_temperature_K", "induction_time_at_storage_temperature_h",
+            "hot_spot_solution", "probability_before_response", "p05_time_to_first_limit_h", "warnings", "reasons"]
 
 
 def csv_parts(r: dict) -> tuple[list, dict, list]:
@@ -84,9 +85,21 @@ def csv_parts(r: dict) -> tuple[list, dict, list]:
             _kelvin(r.get("t_d24_K")), _kelvin(r.get("mtsr_K")), _hours(r.get("tmr_at_mtsr_s")),
             _hours(r.get("tmr_at_storage_temperature_s")), _kelvin(r.get("decomposition_temperature_rise_K")),
             r.get("criticality_class") or "",
+            _kelvin(r.get("sadt_K")), _kelvin(r.get("control_temperature_K")),
+            _kelvin(r.get("emergency_temperature_K")), _hours(r.get("induction_time_at_storage_temperature_s")),
+            _hot_spot_solution(r),
             *_uncertainty_columns(r.get("uncertainty")),
             len(r.get("warnings") or []), " | ".join(r.get("reasons") or [])]
     return head, limits, tail
+
+
+def _hot_spot_solution(r: dict) -> str:
+    """How the times of an unstirred row were found: "conduction" (the hot spot of the transient conduction solution;
+    "conduction, runs away" when it runs away); empty for stirred contents (one lumped temperature)."""
+    cond = r.get("conduction")
+    if not isinstance(cond, dict):
+        return ""
+    return "conduction, runs away" if cond.get("runs_away") else "conduction"
 
 
 def results_csv_header(limit_names: list[str]) -> list[str]:

@@ -440,6 +440,11 @@ class _Memo:
             out += lay.prose(lay.T("method.unstirred"))
         if self.r.get("daily_cycle") is not None:
             out += lay.prose(lay.T("method.daily_cycle"))
+            if self._conduction() is not None:
+                how = "daily_cycle_unstirred"
+            else:
+                how = "daily_cycle_numeric" if self.r.get("method") == "numeric" else "daily_cycle_closed_form"
+            out += lay.prose(lay.T("method." + how))
         return out
 
     def sec_results(self):
@@ -620,7 +625,10 @@ class _Memo:
             else:
                 pairs.append((self.L(steady_key), self.temp(steady, self.L("no_steady_state"))))
             return pairs
-        if readings.still_rising(self.r):  # no peak within the horizon: still rising, towards the steady state or without bound
+        if readings.stops_in_runaway(self.r):  # the solution stops in the runaway: not a peak
+            pairs = [(self.L("runaway_stop_temperature"), self.markup("runaway_stop_value", temp=self.temp(peak),
+                                                                      time=self.hrs(t_peak)))]
+        elif readings.still_rising(self.r):  # no peak within the horizon: still rising, towards the steady state or without bound
             pairs = [(self.L("horizon_temperature"), self.temp(peak))]
         else:
             pairs = [(self.L("peak_temperature"), self.temp(peak)), (self.L("peak_time"), self.hrs(t_peak))]

@@ -85,6 +85,15 @@ def boiling_plateau(r: Mapping) -> Mapping | None:
     return b
 
 
+def stops_in_runaway(r: Mapping) -> bool:
+    """The history stops at a runaway, so the peak shown is where the solution stopped, not a peak: the hot spot of
+    unstirred contents runs away (conduction), or the lumped history passed its ceiling temperature."""
+    cond = r.get("conduction") if isinstance(r.get("conduction"), Mapping) else None
+    if cond is not None:
+        return bool(cond.get("runs_away"))
+    return r.get("stop_reason") == "ceiling"
+
+
 def still_rising(r: Mapping) -> bool:
     """No peak within the horizon: the highest temperature is the one at its end (never with a daily cycle: there
     the end of the horizon falls at a time of day, and a warning says when the daily peaks still climb)."""

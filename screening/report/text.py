@@ -86,7 +86,7 @@ def criteria_rows(r: dict, u: str) -> list[tuple[str, str]]:
         rows.append(("Decomposition temperature rise", "unbounded" if r.get("decomposition_rise_unbounded")
                      else dtemp(r.get("decomposition_temperature_rise_K"), u)))
         gas = r.get("gas_generating_sources") or []
-        rows.append(("Gas generation", ("; ".join(gas) + (" (closed package)" if r.get("gas_in_closed_package") else ""))
+        rows.append(("Gas generation", ("; ".join(gas) + (" (closed vessel or package)" if r.get("gas_in_closed_package") else ""))
                      if gas else "none declared"))
     elif scenario is not None and has_decomposition:
         rows.append(("TMRad of the decomposition from the initial temperature", duration(r.get("tmr_adiabatic_s"))))
@@ -178,7 +178,7 @@ def _sadt_lines(r: dict, u: str) -> list[str]:
         lines.append(_wrap(control["note"], "  "))
     if r.get("sadt_note"):
         lines.append(_wrap(r["sadt_note"], "  "))
-    if block.get("packaging_note") and not block.get("portable_tank"):
+    if block.get("packaging_note") and block.get("packaging", "package") == "package" and not block.get("portable_tank"):
         lines.append(_wrap(block["packaging_note"], "  "))
     return lines
 
@@ -240,8 +240,11 @@ def format_result(r: dict) -> str:
     steady_word = "Steady temperature (daily mean)" if r.get("daily_cycle") else "Steady temperature"
     plateau = readings.boiling_plateau(r)
     if cond:
-        stop = " (the hot spot runs away: the conduction solution stops there)" if cond.get("runs_away") else ""
-        lines.append(f"Peak {temp(r['peak_temperature_K'], u)} at {duration(r['peak_time_s'])}{stop}")
+        if cond.get("runs_away"):
+            lines.append(f"The hot spot runs away: the conduction solution stops at {temp(r['peak_temperature_K'], u)} "
+                         f"after {duration(r['peak_time_s'])} (not a peak: still climbing there)")
+        else:
+            lines.append(f"Peak {temp(r['peak_temperature_K'], u)} at {duration(r['peak_time_s'])}")
         lumped = r.get("lumped") or {}
         lst = lumped.get("steady_temperature_K")
         lines.append(_wrap("Steady temperature not computed for the unstirred body" + (
@@ -257,7 +260,10 @@ def format_result(r: dict) -> str:
         else:
             lines.append(f"{steady_word} {temp(st, u) if st is not None else 'none (no stable steady state)'}")
     else:
-        if readings.still_rising(r):
+        if readings.stops_in_runaway(r):
+            lines.append(f"Runs away: the solution stops at {temp(r['peak_temperature_K'], u)} after "
+                         f"{duration(r['peak_time_s'])} (not a peak: still climbing there)")
+        elif readings.still_rising(r):
             lines.append(f"Temperature at the end of the horizon {temp(r['peak_temperature_K'], u)} (still rising; "
                          f"no peak within it)")
         else:

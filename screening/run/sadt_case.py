@@ -93,10 +93,18 @@ def sadt_results(prepared: PreparedCase, criteria: dict) -> dict:
     if prepared.spec.heat_loss.ua_per_mass is not None:
         notes.append(UA_PER_MASS_CAUTION)
     volume = _contents_volume(prepared)
-    portable_tank = volume is not None and volume > cs.IBC_LARGEST_VOLUME
+    packaging = _packaging(volume, model.contents_mass)
+    portable_tank = packaging == "tank"
     control = emergency = None
-    if sadt is not None and not portable_tank:
+    if sadt is not None and packaging == "package":
         control, emergency = cs.control_and_emergency_temperatures(sadt)
+    if packaging == "unknown":
+        notes.append(f"The contents' volume is not known (no vessel geometry and no contents.density) and their mass "
+                     f"({model.contents_mass:.4g} kg) is more than a single packaging holds "
+                     f"({cs.SINGLE_PACKAGING_LARGEST_MASS:g} kg net, from memory): whether they are in an IBC or a "
+                     f"tank cannot be told, so no control or emergency temperature is given (the Model Regulations' "
+                     f"table used for them applies to single packagings and IBCs). The SADT shown is that of the "
+                     f"stated mass and heat loss; give the vessel or contents.density to settle the packaging.")
     if portable_tank:
         notes.append(f"The contents ({volume:.3g} m^3) exceed an IBC's largest capacity ({cs.IBC_LARGEST_VOLUME:g} m^3, "
                      f"from memory): a tank. " + PORTABLE_TANK_NOTE.replace(
@@ -135,6 +143,7 @@ def sadt_results(prepared: PreparedCase, criteria: dict) -> dict:
                         "stopped_at_s": t.stopped_at} for t in search.trials],
             "temperature_control_required": control_required,
             "portable_tank": portable_tank,
+            "packaging": packaging,
             "packaging_note": PORTABLE_TANK_NOTE,
             "classification_note": CLASSIFICATION_NOTE,
             "sources": "temperature-dependent (decomposition) sources only; no constant, decaying, fire or "
@@ -190,6 +199,14 @@ def _contents_volume(prepared: PreparedCase) -> float | None:
         return float(v)
     model = prepared.model
     return model.contents_mass / model.density if model.density else None
+
+
+def _packaging(volume: float | None, mass: float) -> str:
+    """"package" (at most an IBC's capacity, or with the volume unknown at most a single packaging's net mass),
+    "tank" (more than an IBC holds) or "unknown" (the volume unknown and more than a single packaging's mass)."""
+    if volume is not None:
+        return "tank" if volume > cs.IBC_LARGEST_VOLUME else "package"
+    return "unknown" if mass > cs.SINGLE_PACKAGING_LARGEST_MASS else "package"
 
 
 def _key_model(model: ScreeningModel) -> ScreeningModel:

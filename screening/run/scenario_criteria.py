@@ -288,7 +288,8 @@ def _storage(prepared, facts, out, decomposition, used) -> list[str]:
         sem, ws = rc.semenov_critical_ambient(m, decomposition, P, model.ua, model.heating_media, full_output=True)
         warnings += ws
         steady, ws = rc.steady_states(m, decomposition, P, model.ua, Ta, model.heating_media, full_output=True)
-        warnings += ws
+        transient = bool(model.decaying_sources or model.fire_sources or T0 > Ta)  # what could push it past no-return
+        warnings += [w for w in ws if w != rc.WARNING_TRANSIENT_SOURCES or transient]
         out.update(critical_ambient_temperature_K=sem.ambient, critical_temperature_K=sem.temperature,
                    critical_ambient_method="semenov", no_return_temperature_K=steady.unstable)
         out["semenov"] = {"critical_ambient_K": sem.ambient, "critical_temperature_K": sem.temperature,
@@ -307,7 +308,7 @@ def _storage(prepared, facts, out, decomposition, used) -> list[str]:
     gas = [s for s in decomposition if s.gas_generating]
     out["gas_in_closed_package"] = bool(gas) and closed
     if gas and prepared.spec.vessel is None:
-        warnings.append("No vessel is described, so the package is taken as closed (conservative): the gas of the "
+        warnings.append("No vessel is described, so the vessel or package is taken as closed (conservative): the gas of the "
                         "decomposition pressurises it.")
     hot = model.mixing == "unstirred" and T0 > Ta
     out["unstirred_hot_start"] = hot
@@ -537,7 +538,7 @@ def _storage_summary(model, facts, out, unit) -> str:
         text.append(f"Decomposition temperature rise {dtemp(out['decomposition_temperature_rise_K'], unit)}.")
     if out["gas_generating_sources"]:
         text.append("Gas generation: " + ", ".join(out["gas_generating_sources"])
-                    + (" in a closed package." if out["gas_in_closed_package"] else "."))
+                    + (" in a closed vessel or package." if out["gas_in_closed_package"] else "."))
     if out["unstirred_hot_start"]:
         text.append("The unstirred contents start above the ambient: the steady criterion does not cover the hot "
                     "start; the transient conduction solution does, within the horizon.")

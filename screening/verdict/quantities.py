@@ -567,6 +567,9 @@ def _sadt_missing(r: dict, label: str):
     if block.get("portable_tank"):
         return _Missing(UNKNOWN, f"{label}: the contents are a tank, whose row of the Model Regulations' table is "
                                  f"not applied")
+    if block.get("packaging") == "unknown":
+        return _Missing(UNKNOWN, f"{label}: the contents' volume is not known and their mass is more than a single "
+                                 f"packaging holds, so the packagings table is not applied")
     if status == "above bound":
         return _Missing(NOT_APPLICABLE, f"no {label}: the SADT is {note.split(':', 1)[0]}")
     if status == "not applicable":
@@ -907,7 +910,7 @@ def _quantity_table() -> dict[str, Quantity]:
                  "higher of the initial and the ambient temperature)",
                  _runaway("tmr_at_storage_temperature_s", "TMRad at the storage temperature")),
         Quantity("gas_in_closed_package", FLAG, "a decomposition makes gas and the vessel or package is closed "
-                 "(storage)", _flag("gas_in_closed_package", ("storage",), "gas in a closed package")),
+                 "(storage)", _flag("gas_in_closed_package", ("storage",), "gas in a closed vessel or package")),
         Quantity("induction_time_at_storage_temperature", TIME, "isothermal induction time (time to the maximum "
                  "rate at a constant temperature) of an autocatalytic decomposition at the storage temperature "
                  "(storage)", _q_induction_time("induction_time_at_storage_temperature_s")),

@@ -56,7 +56,7 @@ def test_fw_s17_drums_storage_review_with_the_critical_ambient_margin():
     reasons = " | ".join(r["reasons"])
     # the store is 36 K below the Frank-Kamenetskii critical ambient: the margin is named, and it is no fail
     assert "36.0 K below the critical ambient temperature (74.0 °C, Frank-Kamenetskii criterion)" in reasons
-    assert "makes gas and the package is closed" in reasons
+    assert "makes gas and the vessel or package is closed" in reasons
     assert "TMRad at the storage temperature" in reasons and "(low probability)" in reasons
     assert "(high severity)" in reasons
     assert "MTSR" not in reasons  # no reactor criterion in a store
@@ -90,7 +90,7 @@ def test_fw_p08_package_review_with_its_control_temperature():
     reasons = " | ".join(r["reasons"])
     assert "5.0 K below the package's control temperature (35.0 °C; SADT 45.0 °C" in reasons
     assert "emergency temperature 40.0 °C" in reasons
-    assert "makes gas and the package is closed" in reasons
+    assert "makes gas and the vessel or package is closed" in reasons
     assert "SADT" in format_result(r)
 
 

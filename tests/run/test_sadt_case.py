@@ -251,6 +251,29 @@ def test_a_tank_is_flagged_and_gets_no_table_row():
     assert any("tank" in reason and "control temperature" in reason for reason in r["reasons"])
 
 
+def test_more_than_a_single_packaging_with_the_volume_unknown_gets_no_table_row():
+    # 8000 kg with no density and no vessel: more than a single packaging's largest net mass (400 kg, from
+    # memory), so whether it is an IBC or a tank cannot be told; the packagings table is not applied
+    data = demo("fw-p08-peroxide-cans.yaml")
+    data["contents"]["mass"] = "8000 kg"
+    r = screen(data, rules=True)
+    assert r["sadt"]["packaging"] == "unknown" and r["sadt"]["portable_tank"] is False
+    assert r["sadt_K"] is not None and r["control_temperature_K"] is None and r["emergency_temperature_K"] is None
+    assert "volume is not known" in r["sadt_note"]
+    assert not any("package's control temperature" in reason for reason in r["reasons"])
+    assert any("single packaging holds" in reason for reason in r["reasons"])
+    # the same mass with a density that makes it at most an IBC's 3 m^3 is a package again
+    data["contents"]["density"] = "2800 kg/m^3"
+    r = screen(data, rules=True)
+    assert r["sadt"]["packaging"] == "package" and r["control_temperature_K"] is not None
+
+
+def test_the_demo_package_keeps_its_table_row():
+    r = screen(demo("fw-p08-peroxide-cans.yaml"))  # 50 kg: at most a single packaging's net mass
+    assert r["sadt"]["packaging"] == "package"
+    assert r["control_temperature_K"] == pytest.approx(C0 + 35.0)
+
+
 def test_ua_per_mass_caution_next_to_the_sadt():
     r = screen(demo("fw-p08-peroxide-cans.yaml"))
     assert "80-100 mW/(kg K) stands for a package of about 50 kg" in r["sadt_note"]

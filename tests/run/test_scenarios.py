@@ -248,8 +248,9 @@ def test_class_4_with_a_barrier_at_the_mtt_is_review_and_without_one_fail():
 
 def storage(ta=50, t0=20, mixing="stirred", dh=250, gas=False, **more):
     data = {"id": "S-1", "scenario": "storage",
+            # 0.5 m^3 at the density given: a package (at most an IBC's 3 m^3), so the control temperature applies
             "contents": {"mass": "500 kg", "specific_heat": "1.5 kJ/(kg*K)", "initial_temperature": f"{t0} degC",
-                         "mixing": mixing},
+                         "mixing": mixing, "density": "1000 kg/m^3"},
             "heat_loss": {"ambient_temperature": f"{ta} degC", "ua": "10 W/K"},
             "heat_sources": [arrhenius(0.01, 60, 120, dh, gas_generating=gas)],
             "limits": [{"name": "limit", "temperature": "150 degC"}], "horizon": "30 d", "response_time": "1 d"}
@@ -347,7 +348,7 @@ def test_storage_unstirred_frank_kamenetskii_at_the_biot_number_and_hot_start():
 def test_storage_gas_in_closed_package_is_review_and_unmonitored_limit_fails():
     r = screen(storage(gas=True))
     assert r["gas_in_closed_package"] is True and r["verdict"] == "review"
-    assert fired(r, "makes gas and the package is closed")
+    assert fired(r, "makes gas and the vessel or package is closed")
     # unmonitored (no detection block): a limit reached within the storage period fails, and says why
     hot = screen(storage(ta=50, t0=20, limits=[{"name": "limit", "temperature": "45 degC"}]))
     assert hot["detection_basis"] == "unmonitored" and hot["detection_time_s"] is None
