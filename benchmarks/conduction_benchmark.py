@@ -11,6 +11,11 @@ output file). The baseline, timed in the same run, is a plain loop that builds e
 baseline calls ``hot_spot_with_mesh_check`` per row (the conduction work the batch does for each row). The
 ratios are batch time over each baseline: above 1 the batch is slower than the bare solver loop.
 
+``--bodies 1,50,500`` instead times the core integrators alone: the per-body cost of
+``hot_spot_histories`` (the batched RODAS integrator that one case and a register chunk both use) for groups of
+each size, against ``hot_spot_history`` (scipy BDF) per body, on drums of random size, conductivity, ambient and
+start (128 cells, the finer mesh of the check), with the largest relative difference of a limit time.
+
 The load average is printed because other work on the machine slows the wall-clock figures.
 """
 from __future__ import annotations
@@ -33,6 +38,7 @@ from screening.core.transient_conduction import (  # noqa: E402
     hot_spot_history,
     hot_spot_with_mesh_check,
 )
+from screening.core.transient_conduction_batch import hot_spot_histories  # noqa: E402
 
 BASE = """\
 id: DRUM
@@ -75,10 +81,44 @@ def body_of(row) -> ConductionBody:
                           (source,))
 
 
+def integrators(sizes: list[int], cells: int = 128) -> None:
+    """Per-body cost of the batched integrator for groups of each size, against scipy's BDF per body."""
+    import numpy as np
+
+    rng = np.random.default_rng(17)
+    source = ArrheniusSource(0.004, 333.15, 135e3, 0.0, 1200e3, 1.0)
+
+    def drum():
+        return ConductionBody("cylinder", float(rng.uniform(0.2, 0.35)), 650.0, 1300.0, float(rng.uniform(0.08, 0.2)),
+                              5.0, float(rng.uniform(298.15, 328.15)), float(rng.uniform(303.15, 323.15)), (source,))
+
+    print(f"load average {os.getloadavg()}; core integrators, {cells} cells, 30 d, limits 50 and 60 degC")
+    warm = drum()  # imports and first calls outside the timings
+    hot_spot_histories([warm], LIMITS_K, 86400.0, cells=cells)
+    hot_spot_history(warm, LIMITS_K, 86400.0, cells=cells)
+    for n in sizes:
+        bodies = [drum() for _ in range(n)]
+        t = time.perf_counter()
+        got = hot_spot_histories(bodies, LIMITS_K, HORIZON, cells=cells)
+        batch = (time.perf_counter() - t) / n
+        m = min(n, 20)
+        t = time.perf_counter()
+        ref = [hot_spot_history(b, LIMITS_K, HORIZON, cells=cells) for b in bodies[:m]]
+        scipy_per = (time.perf_counter() - t) / m
+        worst = max((abs(a - r) / r for g, h in zip(got, ref) for a, r in zip(g.limit_times, h.limit_times)
+                     if a is not None and r is not None and r > 0), default=0.0)
+        print(f"{n:5d} bodies: batch {batch * 1e3:8.1f} ms/body, scipy BDF {scipy_per * 1e3:8.1f} ms/body "
+              f"(first {m}), ratio {scipy_per / batch:5.2f}; largest relative difference of a limit time {worst:.1e}")
+
+
 def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--rows", type=int, default=1000)
+    ap.add_argument("--bodies", default=None, help="e.g. 1,50,500: time the core integrators alone")
     args = ap.parse_args()
+    if args.bodies:
+        integrators([int(x) for x in args.bodies.split(",")])
+        return
     data = rows(args.rows)
     print(f"load average {os.getloadavg()}; {args.rows} unstirred drums")
 

@@ -21,6 +21,7 @@ from screening.report.templates import load_templates
 from screening.result import memo_view, public_result
 from screening.run.runaway_case import arrhenius_values
 from screening.run.sadt_case import stirred_sadt_searches
+from screening.run.conduction_case import conduction_solutions
 from screening.run.screen_case import screen_prepared
 
 
@@ -258,6 +259,7 @@ def _compute_chunk(task: ChunkTask) -> ChunkResult:
         arr_values = dict(zip(arr_rows, arrhenius_values([prepared_all[i][0] for i in arr_rows])))
     except Exception:  # noqa: BLE001 - each row then runs the single-case engine, and reports its own problem
         arr_values = {}
+    conduction = _conduction_solutions(task)
     for i, outcome in enumerate(outcomes):
         if i in columnar:
             result, known = columnar[i]
@@ -269,7 +271,8 @@ def _compute_chunk(task: ChunkTask) -> ChunkResult:
             known = None
             try:
                 result = screen_prepared(prep, case_hash, values=values.get(i), with_history=task.with_history,
-                                         sadt_searches=sadt_searches, arrhenius_values=arr_values.get(i))
+                                         sadt_searches=sadt_searches, arrhenius_values=arr_values.get(i),
+                                         conduction=conduction.get(i))
             except Exception as exc:  # noqa: BLE001 - one bad row must not lose the others
                 outcome.problems.append(FieldProblem("(row)", f"internal error while screening this row: "
                                                               f"{type(exc).__name__}: {exc}"))
@@ -291,6 +294,24 @@ def _compute_chunk(task: ChunkTask) -> ChunkResult:
             continue
         screened.append((outcome, public))
     return _chunk_outputs(task, outcomes, screened, memos)
+
+
+def _conduction_solutions(task: ChunkTask) -> dict:
+    """Row index -> conduction solution, for the chunk's unstirred rows integrated in one batch (issue 17).
+
+    Rows with a daily cycle are left out (their start time of day is chosen when they are screened); a row
+    whose batch fails is solved on its own when it is screened, where any error is that row's.
+    """
+    rows = [i for i, item in enumerate(task.prepared) if item is not None and i not in task.columnar
+            and not task.outcomes[i].problems and item[0].model.mixing == "unstirred"
+            and item[0].model.daily_cycle is None]
+    if len(rows) < 2:
+        return {}
+    try:
+        solved = conduction_solutions([task.prepared[i][0] for i in rows])
+    except (ValueError, RuntimeError):
+        return {}
+    return dict(zip(rows, solved))
 
 
 def _chunk_outputs(task: ChunkTask, outcomes: list[RowOutcome], screened: list, memos: list) -> ChunkResult:

@@ -25,6 +25,7 @@ How the case becomes a body (:func:`conduction_body`):
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 
 import numpy as np
 
@@ -37,11 +38,12 @@ from screening.core.transient_conduction import (
     MESH_TOLERANCE,
     ConductionBody,
     ConductionHistory,
-    hot_spot_with_mesh_check,
 )
+from screening.core.transient_conduction_batch import hot_spot_histories_with_mesh_check
 from screening.run.recovery import detection_and_recovery
 
-__all__ = ["conduction_body", "apply_conduction", "geometry_approximation", "is_liquid", "APPROXIMATIONS"]
+__all__ = ["conduction_body", "apply_conduction", "conduction_solutions", "ConductionSolution", "geometry_approximation",
+           "is_liquid", "APPROXIMATIONS"]
 
 #: vessel shape -> (geometry of the conduction body, how it is approximated, or None when exact)
 APPROXIMATIONS = {
@@ -119,6 +121,44 @@ def conduction_body(model: ScreeningModel, *, sources=None, initial_temperature:
         daily_cycle=model.daily_cycle if other_heat else None)  # an SADT trial is at a constant ambient
 
 
+@dataclass(frozen=True)
+class ConductionSolution:
+    """The conduction solution of one case: what was solved (body, limits with the boiling point last when the
+    contents have one, surface limits, horizon) and the answer (the 128-cell history and the mesh change)."""
+
+    body: ConductionBody
+    limits: tuple
+    surface_limits: tuple
+    horizon: float
+    history: ConductionHistory
+    mesh_change: float | None
+
+
+def _problem(prepared: PreparedCase) -> tuple:
+    """(body, limits and the boiling point, surface limits, horizon) of an unstirred case."""
+    model = prepared.model
+    limits = [lim.temperature for lim in model.limits]
+    if model.boiling is not None:
+        limits.append(model.boiling.boiling_point)
+    surface = [prepared.detection_alarm] if prepared.detection_alarm is not None else []
+    return conduction_body(model), tuple(limits), tuple(surface), float(model.horizon)
+
+
+def conduction_solutions(prepared_cases) -> list[ConductionSolution]:
+    """The conduction solutions of unstirred cases, integrated together (one batch per mesh).
+
+    One case is a group of one: :func:`apply_conduction` calls this with its own case, and a register chunk with
+    all its unstirred rows; each body has its own step, so a row's numbers are those of the same case alone.
+    """
+    problems = [_problem(p) for p in prepared_cases]
+    if not problems:
+        return []
+    solved = hot_spot_histories_with_mesh_check([b for b, *_ in problems], [list(l) for _, l, _, _ in problems],
+                                                [H for *_, H in problems],
+                                                surface_limits=[list(s) for _, _, s, _ in problems])
+    return [ConductionSolution(b, l, s, H, hist, change) for (b, l, s, H), (hist, change) in zip(problems, solved)]
+
+
 def geometry_approximation(prepared: PreparedCase) -> str | None:
     """How the vessel's shape was approximated for the conduction solution (None: a sphere, exact)."""
     shape = prepared.spec.vessel.shape if prepared.spec.vessel is not None else None
@@ -183,22 +223,26 @@ _DROP_PREFIXES = (
 )
 
 
-def apply_conduction(prepared: PreparedCase, core: dict) -> None:
+def apply_conduction(prepared: PreparedCase, core: dict, solution: ConductionSolution | None = None) -> None:
     """Turn the lumped core of an unstirred case's result into the conduction result, in place.
 
     ``limits`` (and their margins), ``peak_temperature_K`` / ``peak_time_s``, the detection time and ``boiling``
     become the hot spot's; the lumped values go under ``lumped`` (``_history`` stays the lumped history, and
     ``_conduction_history`` holds the hot spot, centre and surface); ``conduction`` says how the body was built
-    and how well the mesh converged.
+    and how well the mesh converged. ``solution``: the case's conduction solution computed elsewhere (a
+    register chunk's batch, :func:`conduction_solutions`); used only if it solved this case's body, limits and
+    horizon, else the case is solved here (a group of one).
     """
     model = prepared.model
     unit = prepared.display_temperature_unit
-    body = conduction_body(model)
-    limits = [lim.temperature for lim in model.limits]
+    problem = _problem(prepared)
+    if solution is None or (solution.body, solution.limits, solution.surface_limits, solution.horizon) != problem:
+        solution, = conduction_solutions([prepared])
+    body = solution.body
     boiling_point = model.boiling.boiling_point if model.boiling is not None else None
     extra = [boiling_point] if boiling_point is not None else []
-    surface_limits = [prepared.detection_alarm] if prepared.detection_alarm is not None else []
-    hist, mesh_change = hot_spot_with_mesh_check(body, limits + extra, model.horizon, surface_limits=surface_limits)
+    surface_limits = list(solution.surface_limits)
+    hist, mesh_change = solution.history, solution.mesh_change
     times = list(hist.limit_times)
     boil_time = times.pop() if extra else None
     hist = _with_times(hist, times)

@@ -329,29 +329,34 @@ def screen_samples(prepared: PreparedCase, arrays: SampleArrays) -> SampleTimes:
 def unstirred_sample_times(prepared: PreparedCase, plan: UncertaintyPlan, values: np.ndarray) -> SampleTimes:
     """Hot-spot time to each limit (and the surface's to the alarm) for every sample of unstirred contents.
 
-    One method-of-lines solution per sample on the default mesh (the mesh check of the case's own result is
-    not repeated per sample); a sample whose case cannot be prepared gives NaN times (not reached).
+    The method-of-lines solutions of all samples on the default mesh, integrated together
+    (:func:`screening.core.transient_conduction_batch.hot_spot_histories`, each sample with its own step; the mesh
+    check of the case's own result is not repeated per sample); a sample whose case cannot be prepared gives NaN
+    times (not reached).
     """
     from dataclasses import replace
 
-    from screening.core.transient_conduction import hot_spot_history
+    from screening.core.transient_conduction_batch import hot_spot_histories
     from screening.run.conduction_case import conduction_body
 
     n, n_lim = values.shape[0], len(prepared.model.limits)
     times = np.full((n, n_lim), np.nan)
     detection = np.full(n, np.nan)
     located = [locate_quantity(prepared.spec, inp.parts)[2] for inp in plan.inputs]
+    samples = []
     for i in range(n):
         updates = [(inp.parts, replace(q, si=float(values[i, j]))) for j, (inp, q) in
                    enumerate(zip(plan.inputs, located))]
         try:
-            p = prepare_case(apply_updates(prepared.spec, updates))
+            samples.append((i, prepare_case(apply_updates(prepared.spec, updates))))
         except CaseError:
             continue
+    alarms = [[p.detection_alarm] if p.detection_alarm is not None else [] for _, p in samples]
+    hists = hot_spot_histories([conduction_body(p.model) for _, p in samples],
+                               [[lim.temperature for lim in p.model.limits] for _, p in samples],
+                               [p.model.horizon for _, p in samples], surface_limits=alarms, points=3)
+    for (i, p), alarm, hist in zip(samples, alarms, hists):
         model = p.model
-        alarm = [p.detection_alarm] if p.detection_alarm is not None else []
-        hist = hot_spot_history(conduction_body(model), [lim.temperature for lim in model.limits], model.horizon,
-                                surface_limits=alarm, points=3)
         times[i] = [np.nan if t is None else t for t in hist.limit_times]
         if alarm:
             detection[i] = np.nan if hist.surface_limit_times[0] is None else hist.surface_limit_times[0]

@@ -24,17 +24,19 @@ from screening.run.warnings import biot_and_validity, case_assumptions
 
 def screen_prepared(prepared: PreparedCase, input_hash: str | None = None,
                     values: ClosedFormValues | None = None, with_history: bool = True,
-                    sadt_searches: dict | None = None, arrhenius_values=None) -> dict:
+                    sadt_searches: dict | None = None, arrhenius_values=None, conduction=None) -> dict:
     """Full result dict for one prepared case (without a verdict).
 
     ``values`` (closed-form cases only) are engine results computed elsewhere,
     e.g. by the vectorised engine for a register; ``sadt_searches`` likewise the SADT
     searches of a register chunk's stirred storage rows (:func:`screening.run.sadt_case.stirred_sadt_searches`),
-    and ``arrhenius_values`` the vectorised engine's runs of a case with Arrhenius sources
-    (:func:`screening.run.runaway_case.arrhenius_values`).
+    ``arrhenius_values`` the vectorised engine's runs of a case with Arrhenius sources
+    (:func:`screening.run.runaway_case.arrhenius_values`), and ``conduction`` (unstirred cases) the
+    case's :class:`screening.run.conduction_case.ConductionSolution` from a register chunk's batch.
     """
     if prepared.model.daily_cycle is not None:
         values = arrhenius_values = None  # engine values from elsewhere do not know the start time of day chosen here
+        conduction = None
     prepared, start_info = choose_start(prepared)  # a daily cycle without a stated start: the worst hourly start
     model = prepared.model
     if model.arrhenius_sources:
@@ -45,7 +47,7 @@ def screen_prepared(prepared: PreparedCase, input_hash: str | None = None,
     if model.mixing == "unstirred":  # the limit times become the hot spot's (transient conduction)
         from screening.run.conduction_case import apply_conduction
 
-        apply_conduction(prepared, core)
+        apply_conduction(prepared, core, conduction)
     spec = prepared.spec
     result = {
         "id": spec.id,

@@ -34,6 +34,7 @@ def test_every_published_correlation_has_an_example():
         "screening.core.fire_exposure": ["api521_fire_heat_input", "fire_wetted_area"],
         "screening.core.model": ["heat_capacity", "ScreeningModel"],
         "screening.core.root_finding": ["brent_root"],
+        "screening.core.transient_conduction_batch": ["hot_spot_histories", "hot_spot_histories_with_mesh_check"],
         "screening.core.runaway.frank_kamenetskii": ["frank_kamenetskii_parameter", "frank_kamenetskii_critical",
                                                      "frank_kamenetskii_critical_ambient"],
         "screening.core.runaway.rates": ["heat_generation", "heat_generation_slope", "heat_loss", "kinetics_warnings"],

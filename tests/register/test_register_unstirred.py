@@ -113,3 +113,32 @@ def test_unstirred_row_without_conductivity_is_the_rows_error(tmp_path):
     errors = list(csv.DictReader(open(tmp_path / "out" / "errors.csv", newline="", encoding="utf-8")))
     assert [e["id"] for e in errors] == ["D-9"]
     assert errors[0]["field"] == "contents.thermal_conductivity" and "transient conduction" in errors[0]["message"]
+
+
+def test_a_chunk_integrates_its_unstirred_rows_together(tmp_path, monkeypatch):
+    # issue 17: the chunk's unstirred rows go to the conduction integrator as one batch (and each row's numbers
+    # are still its case file's, checked above)
+    import screening.register.chunks as chunks
+
+    sizes = []
+    real = chunks.conduction_solutions
+
+    def spy(cases):
+        sizes.append(len(cases))
+        return real(cases)
+
+    monkeypatch.setattr(chunks, "conduction_solutions", spy)
+    reg = tmp_path / "drums.csv"
+    many = [[f"{r[0]}-{k}"] + r[1:] for k in range(3) for r in ROWS]  # 9 rows: chunks of 3 with one process
+    with open(reg, "w", newline="", encoding="utf-8") as fh:
+        w = csv.writer(fh)
+        w.writerow(HEADER)
+        w.writerows(many)
+    base_file = tmp_path / "base.yaml"
+    base_file.write_text(yaml.safe_dump(BASE, sort_keys=False), encoding="utf-8")
+    run_batch(reg, tmp_path / "out", base_path=base_file, workers=1)
+    assert sum(sizes) == 9 and min(sizes) >= 2, sizes
+    rows = _rows(json.loads((tmp_path / "out" / "results.json").read_text(encoding="utf-8")))
+    for row, got in zip(many, rows):
+        want = screen_dict(case_of(row))
+        assert got["limits"] == want["limits"] and got["peak_time_s"] == want["peak_time_s"]

@@ -2,9 +2,10 @@
 
 - The hot-filled bag of the issue, with the body built by hand from the issue's numbers (a sphere of 1 m^3, 480
   kg/m^3, 1.6 kJ/(kg K), 0.09 W/(m K), h = 6 W/(m^2 K), zero order 0.17 W/kg at 80 degC, E = 100 kJ/mol,
-  2000 kJ/kg, from 75 degC in a 25 degC store): the result's limit time is the core solver's, and about 50 h.
-  The core solver itself is checked against the series solutions, the steady Frank-Kamenetskii solution and the
-  critical delta in tests/core/test_transient_conduction.py.
+  2000 kJ/kg, from 75 degC in a 25 degC store): the result's limit time is the core solver's (the batched
+  integrator of core.transient_conduction_batch, one case a group of one), within 1e-4 of scipy's BDF method of
+  lines (core.transient_conduction), and about 50 h. The core solvers themselves are checked against the series
+  solutions, the steady Frank-Kamenetskii solution and the critical delta in tests/core.
 - Uniform sources per unit mass: an insulated unstirred body with a constant source heats uniformly at
   P / (m c_p) (energy balance, by hand), so its limit time is m c_p dT / P.
 - Heat brought at the surface per unit mass: the mass per unit surface of a slab, cylinder and sphere is
@@ -31,6 +32,7 @@ from screening.core.transient_conduction import (
     hot_spot_history,
     hot_spot_with_mesh_check,
 )
+from screening.core.transient_conduction_batch import hot_spot_histories, hot_spot_histories_with_mesh_check
 from screening.run.conduction_case import _rows, conduction_body
 from screening.run.monte_carlo import unstirred_sample_times
 from screening.run.screen_case import screen_prepared
@@ -68,9 +70,11 @@ def hand_built_bag() -> ConductionBody:
 
 def test_the_hot_filled_bag_reports_its_centre_runaway_time_and_fails():
     r = screen(BAG)
-    fine, change = hot_spot_with_mesh_check(hand_built_bag(), [393.15], 7 * 86400.0)
+    (fine, change), = hot_spot_histories_with_mesh_check([hand_built_bag()], [393.15], 7 * 86400.0)
     (lim,) = r["limits"]
     assert lim["time_s"] == pytest.approx(fine.limit_times[0], rel=1e-9)  # the body the builder makes is the issue's
+    scipy_fine, _ = hot_spot_with_mesh_check(hand_built_bag(), [393.15], 7 * 86400.0)  # scipy BDF (reference library)
+    assert lim["time_s"] == pytest.approx(scipy_fine.limit_times[0], rel=1e-4)
     assert lim["time_s"] / 3600 == pytest.approx(50.0, rel=0.03)  # the issue: the centre at 120 degC after ~50 h
     assert r["conduction"]["mesh_relative_change"] == pytest.approx(change, rel=1e-9)
     assert r["conduction"]["geometry"] == "sphere" and r["conduction"]["half_thickness_m"] == pytest.approx(0.6205)
@@ -97,7 +101,7 @@ def test_unstirred_limit_times_equal_the_core_solvers_directly():
     prepared = prepared_of(data)
     r = screen_prepared(prepared)
     body = conduction_body(prepared.model)
-    direct = hot_spot_history(body, [333.15, 363.15], 10 * 86400.0, cells=2 * DEFAULT_CELLS)
+    direct, = hot_spot_histories([body], [333.15, 363.15], 10 * 86400.0, cells=2 * DEFAULT_CELLS)
     assert direct.limit_times[1] is not None or r["limits"][1]["time_s"] is None
     for row, t in zip(r["limits"], direct.limit_times):
         assert (row["time_s"] is None and t is None) or row["time_s"] == pytest.approx(t, rel=1e-9, abs=1e-9)
@@ -213,7 +217,7 @@ def test_an_unstirred_liquid_says_conduction_is_very_conservative_and_reports_th
     r = screen(data)
     assert any("natural convection" in w and "very conservative" in w for w in r["warnings"])
     assert any("natural convection" in x for x in r["reasons"])
-    fine, _ = hot_spot_with_mesh_check(hand_built_bag(), [393.15, 383.15], 7 * 86400.0)
+    (fine, _), = hot_spot_histories_with_mesh_check([hand_built_bag()], [393.15, 383.15], 7 * 86400.0)
     assert r["boiling"]["time_to_boil_s"] == pytest.approx(fine.limit_times[1], rel=1e-9)
     assert r["boiling"]["boiled_off_kg"] is None
     assert any("Boiling is not modelled in the conduction solution" in a for a in r["assumptions"])
@@ -226,8 +230,11 @@ def test_an_alarm_sounds_when_the_surface_reaches_it():
     data["contents"]["initial_temperature"] = "30 degC"
     prepared = prepared_of(data)
     r = screen_prepared(prepared)
-    h = hot_spot_history(conduction_body(prepared.model), [], 7 * 86400.0, cells=2 * DEFAULT_CELLS,
-                         surface_limits=[313.15])
+    h, = hot_spot_histories([conduction_body(prepared.model)], [], 7 * 86400.0, cells=2 * DEFAULT_CELLS,
+                            surface_limits=[313.15])
+    scipy_h = hot_spot_history(conduction_body(prepared.model), [], 7 * 86400.0, cells=2 * DEFAULT_CELLS,
+                               surface_limits=[313.15])  # scipy BDF (reference library)
+    assert r["detection_time_s"] == pytest.approx(scipy_h.surface_limit_times[0], rel=1e-4)
     assert r["detection_basis"] == "alarm"
     assert r["detection_time_s"] == pytest.approx(h.surface_limit_times[0], rel=1e-9)
 
@@ -240,7 +247,7 @@ def test_monte_carlo_samples_of_unstirred_contents_are_the_core_solvers():
     values = np.array([[0.08], [0.09], [0.1]])
     times = unstirred_sample_times(prepared, prepared.uncertainty_plan, values).limit_times[:, 0]
     for k, t in zip(values[:, 0], times):
-        direct = hot_spot_history(replace(hand_built_bag(), conductivity=float(k)), [393.15], 7 * 86400.0)
+        direct, = hot_spot_histories([replace(hand_built_bag(), conductivity=float(k))], [393.15], 7 * 86400.0)
         if direct.limit_times[0] is None:
             assert not np.isfinite(t)
         else:
@@ -261,3 +268,21 @@ def test_an_autocatalytic_source_in_unstirred_contents_is_refused_not_understate
     with pytest.raises(CaseError) as exc:
         prepared_of(data)
     assert [p.field for p in exc.value.problems] == ["heat_sources.0.kind"]
+
+
+def test_a_case_in_a_batch_of_cases_has_the_solution_it_has_alone():
+    # a register chunk integrates its unstirred rows together: each row's solution must be the one its case
+    # gets alone (to the last bit), whatever the other rows
+    from screening.run.conduction_case import conduction_solutions
+
+    cases = []
+    for k, t0, amb in (("0.09", "75 degC", "25 degC"), ("0.2", "60 degC", "40 degC"), ("0.12", "30 degC", "38 degC")):
+        data = copy.deepcopy(BAG)
+        data["contents"].update(thermal_conductivity=f"{k} W/(m*K)", initial_temperature=t0)
+        data["heat_loss"]["ambient_temperature"] = amb
+        cases.append(prepared_of(data))
+    together = conduction_solutions(cases)
+    for p, sol in zip(cases, together):
+        alone, = conduction_solutions([p])
+        assert sol.history.limit_times == alone.history.limit_times and sol.mesh_change == alone.mesh_change
+        assert np.array_equal(sol.history.hot_spot, alone.history.hot_spot)
