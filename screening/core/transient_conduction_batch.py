@@ -799,23 +799,14 @@ def hot_spot_histories(bodies: Sequence[ConductionBody], limits, horizon, *, cel
     return [_history(out, i, bodies[i], lims[i], slims[i], cells, stop[i]) for i in range(M)]
 
 
+def _first_times(levels, start, found) -> list:
+    """First time each level is reached: 0 for a level at or below the start, None where ``found`` is NaN."""
+    return [0.0 if L <= start else (None if np.isnan(found[l]) else float(found[l])) for l, L in enumerate(levels)]
+
+
 def _history(out: _Out, i, body, limits, surface_limits, cells, stop) -> ConductionHistory:
-    T0 = body.initial_temperature
-    times = []
-    for l, L in enumerate(limits):
-        if L <= T0:
-            times.append(0.0)
-        else:
-            v = out.lim_t[l, i]
-            times.append(None if np.isnan(v) else float(v))
-    s0 = out.grid[2, i, 0]
-    stimes = []
-    for l, L in enumerate(surface_limits):
-        if L <= s0:
-            stimes.append(0.0)
-        else:
-            v = out.slim_t[l, i]
-            stimes.append(None if np.isnan(v) else float(v))
+    times = _first_times(limits, body.initial_temperature, out.lim_t[:, i])
+    stimes = _first_times(surface_limits, out.grid[2, i, 0], out.slim_t[:, i])
     g = out.grid[:, i]
     have = ~np.isnan(g[0])
     H_pts = g.shape[1]

@@ -247,14 +247,12 @@ def _compute_chunk(task: ChunkTask) -> ChunkResult:
     memos: list = []
     # the SADT searches of every stirred storage row, integrated together (lock-step) before the rows are written
     try:
-        sadt_searches = stirred_sadt_searches(
-            [p[0] for i, (p, o) in enumerate(zip(prepared_all, outcomes))
-             if p is not None and not o.problems and i not in columnar and p[0].model.scenario == "storage"])
+        sadt_searches = stirred_sadt_searches([prepared_all[i][0] for i in
+                                               _rows_one_by_one(task, lambda p: p.model.scenario == "storage")])
     except Exception:  # noqa: BLE001 - each row then runs its own search, and reports its own problem
         sadt_searches = {}
     # the main and adiabatic runs of every row with Arrhenius sources the vectorised engine takes, together
-    arr_rows = [i for i, (p, o) in enumerate(zip(prepared_all, outcomes))
-                if p is not None and not o.problems and i not in columnar and p[0].model.arrhenius_sources]
+    arr_rows = _rows_one_by_one(task, lambda p: bool(p.model.arrhenius_sources))
     try:
         arr_values = dict(zip(arr_rows, arrhenius_values([prepared_all[i][0] for i in arr_rows])))
     except Exception:  # noqa: BLE001 - each row then runs the single-case engine, and reports its own problem
@@ -296,15 +294,20 @@ def _compute_chunk(task: ChunkTask) -> ChunkResult:
     return _chunk_outputs(task, outcomes, screened, memos)
 
 
+def _rows_one_by_one(task: ChunkTask, keep) -> list[int]:
+    """Indices of the rows screened one by one (prepared, without problems, not in a columnar group) whose
+    prepared case passes ``keep``: the rows whose engine work a chunk does together beforehand."""
+    return [i for i, item in enumerate(task.prepared) if item is not None and i not in task.columnar
+            and not task.outcomes[i].problems and keep(item[0])]
+
+
 def _conduction_solutions(task: ChunkTask) -> dict:
     """Row index -> conduction solution, for the chunk's unstirred rows integrated in one batch (issue 17).
 
     Rows with a daily cycle are left out (their start time of day is chosen when they are screened); a row
     whose batch fails is solved on its own when it is screened, where any error is that row's.
     """
-    rows = [i for i, item in enumerate(task.prepared) if item is not None and i not in task.columnar
-            and not task.outcomes[i].problems and item[0].model.mixing == "unstirred"
-            and item[0].model.daily_cycle is None]
+    rows = _rows_one_by_one(task, lambda p: p.model.mixing == "unstirred" and p.model.daily_cycle is None)
     if len(rows) < 2:
         return {}
     try:
