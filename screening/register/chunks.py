@@ -20,7 +20,7 @@ from screening.report.register_summary import summarise_register_results
 from screening.report.templates import load_templates
 from screening.result import memo_view, public_result
 from screening.run.runaway_case import arrhenius_values
-from screening.run.sadt_case import stirred_sadt_searches
+from screening.run.sadt_case import sadt_searches as storage_sadt_searches
 from screening.run.conduction_case import conduction_solutions
 from screening.run.screen_case import screen_prepared
 
@@ -245,9 +245,10 @@ def _compute_chunk(task: ChunkTask) -> ChunkResult:
     rule_set = task.rule_set
     screened: list[tuple[RowOutcome, dict]] = []  # rows with a result, and their result objects
     memos: list = []
-    # the SADT searches of every stirred storage row, integrated together (lock-step) before the rows are written
+    # the SADT searches of every storage row, integrated together (lock-step: the stirred rows on the Arrhenius
+    # batch engine, the unstirred ones on the batched conduction integrator) before the rows are written
     try:
-        sadt_searches = stirred_sadt_searches([prepared_all[i][0] for i in
+        sadt_searches = storage_sadt_searches([prepared_all[i][0] for i in
                                                _rows_one_by_one(task, lambda p: p.model.scenario == "storage")])
     except Exception:  # noqa: BLE001 - each row then runs its own search, and reports its own problem
         sadt_searches = {}

@@ -66,7 +66,7 @@ def _mass_per_area(geometry: str, density: float, half_thickness: float) -> floa
 
 def conduction_body(model: ScreeningModel, *, sources=None, initial_temperature: float | None = None,
                     ambient_temperature: float | None = None, other_heat: bool = True) -> ConductionBody:
-    """The unstirred body of a model, in SI, for :func:`screening.core.transient_conduction.hot_spot_history`.
+    """The unstirred body of a model, in SI, for :func:`screening.core.transient_conduction_batch.hot_spot_histories`.
 
     Parameters
     ----------

@@ -3,12 +3,13 @@
 Each trial integrates the package for 7 days from uniform at the trial ambient with the
 temperature-dependent sources only (no constant, decaying, fire or heating-medium input, and the wall
 not credited): stirred or convecting liquids with the lumped balance on the batch engine
-(:func:`screening.core.arrhenius_history_batch.first_crossing_times_arrhenius`; the searches of many
-packages run in lock-step, :func:`screening.core.sadt.search_sadt_lockstep`, and one case is a group
-of one), unstirred contents with the transient
-conduction model (:func:`screening.core.transient_conduction.hot_spot_history`), whose centre is the
-temperature the test criterion names. The search on the 5 °C grid is :func:`screening.core.sadt.search_sadt`,
-started at the critical ambient (Semenov or Frank-Kamenetskii) the storage criteria already give.
+(:func:`screening.core.arrhenius_history_batch.first_crossing_times_arrhenius`), unstirred contents with
+the transient conduction model on the batched conduction integrator
+(:func:`screening.core.transient_conduction_batch.hot_spot_histories`), whose centre is the temperature
+the test criterion names. The search on the 5 °C grid is :func:`screening.core.sadt.search_sadt_lockstep`,
+started at the critical ambient (Semenov or Frank-Kamenetskii) the storage criteria already give: the
+searches of many packages run in lock-step (:func:`sadt_searches`, a register chunk's storage rows), and
+one case is a group of one, through the same batch trial functions.
 """
 from __future__ import annotations
 
@@ -53,46 +54,55 @@ def _search_key(model: ScreeningModel, criteria: dict):
     return (_key_model(model), method, bound, estimate), method, bound, estimate
 
 
-def stirred_sadt_searches(prepared_cases) -> dict:
-    """The SADT searches of many stirred storage cases in one lock-step run of the batch engine.
+def sadt_searches(prepared_cases) -> dict:
+    """The SADT searches of many storage cases: the stirred ones in one lock-step run of the batch engine,
+    the unstirred ones in one lock-step run of the batched conduction integrator.
 
     Returns {search key: SadtSearch or the exception of a failed trial}, for :func:`sadt_results`'
-    ``searches``; cases without an SADT, or unstirred ones (per-package conduction trials), are left
-    out. The search's start needs the critical ambient of the criteria: it is computed here as
-    :mod:`screening.run.scenario_criteria` does for a stirred storage case (a different value only
-    means that :func:`sadt_results` runs the search itself).
+    ``searches``; cases without an SADT are left out. The search's start needs the critical ambient of the
+    criteria: it is computed here as :mod:`screening.run.scenario_criteria` does for a storage case (Semenov
+    for stirred contents, Frank-Kamenetskii at the surface Biot number for unstirred ones; a different value
+    only means that :func:`sadt_results` runs the search itself).
     """
     from screening.core import runaway as rc
     from screening.core.terms import constant_power
+    from screening.run.scenario_criteria import frank_kamenetskii_block, roles_of
 
-    keys, models, grids, starts = [], [], [], []
+    groups: dict = {"lumped": ([], [], [], []), "conduction": ([], [], [], [])}
     seen = set()
     for prepared in prepared_cases:
         model = prepared.model
-        if model.scenario != "storage" or model.mixing != "stirred" or _not_applicable(prepared)[0] is not None:
+        if model.scenario != "storage" or _not_applicable(prepared)[0] is not None:
             continue
         try:
-            sem = rc.semenov_critical_ambient(model.contents_mass, model.arrhenius_sources, constant_power(model),
-                                              model.ua, model.heating_media)
+            if model.mixing == "stirred":
+                critical = rc.semenov_critical_ambient(model.contents_mass, model.arrhenius_sources,
+                                                       constant_power(model), model.ua, model.heating_media).ambient
+            else:
+                fk = frank_kamenetskii_block(model, roles_of(model)[1], [])
+                critical = fk["critical_ambient_K"] if fk else None
         except _SEARCH_FAILURES:
             continue
-        key, _, bound, estimate = _search_key(model, {"critical_ambient_temperature_K": sem.ambient})
+        key, method, bound, estimate = _search_key(model, {"critical_ambient_temperature_K": critical})
         if key in seen or key in _CACHE:
             continue
         seen.add(key)
         grid = cs.sadt_grid(cs.SADT_LOWEST, bound)
+        keys, models, grids, starts = groups[method]
         keys.append(key)
         models.append(model)
         grids.append(grid)
         starts.append(cs.start_index(grid, estimate))
-    if not keys:
-        return {}
-    return dict(zip(keys, cs.search_sadt_lockstep(_lumped_trials(models), grids, starts)))
+    out = {}
+    for method, (keys, models, grids, starts) in groups.items():
+        if keys:
+            out.update(zip(keys, cs.search_sadt_lockstep(_trials_of(method)(models), grids, starts)))
+    return out
 
 
 def sadt_results(prepared: PreparedCase, criteria: dict, searches: dict | None = None) -> dict:
     """The SADT keys of a storage case's result (``criteria``: the scenario keys already computed;
-    ``searches``: searches computed beforehand, e.g. :func:`stirred_sadt_searches` for a register chunk)."""
+    ``searches``: searches computed beforehand, e.g. :func:`sadt_searches` for a register chunk)."""
     model = prepared.model
     unit = prepared.display_temperature_unit
     out = dict.fromkeys(SADT_KEYS)
@@ -110,11 +120,8 @@ def sadt_results(prepared: PreparedCase, criteria: dict, searches: dict | None =
     if search is None:
         grid = cs.sadt_grid(cs.SADT_LOWEST, bound)
         start = cs.start_index(grid, estimate)
-        try:
-            if method == "lumped":
-                search = cs.search_sadt_lockstep(_lumped_trials([model]), [grid], [start])[0]
-            else:
-                search = cs.search_sadt(_conduction_trial(model), grid, start)
+        try:  # a group of one: the same batch trials as a register chunk's
+            search = cs.search_sadt_lockstep(_trials_of(method)([model]), [grid], [start])[0]
         except _SEARCH_FAILURES as exc:
             search = exc
     if not isinstance(search, BaseException):
@@ -267,11 +274,12 @@ def _packaging(volume: float | None, mass: float) -> str:
 
 
 def _key_model(model: ScreeningModel) -> ScreeningModel:
-    """The model with what the trials do not read blanked, so that ``margin`` on the ambient reuses the search."""
+    """The model with what the trials do not read blanked, so that ``margin`` on the ambient reuses the search
+    (and a row whose start time of day is chosen when it is screened finds its chunk's search)."""
     return dataclasses.replace(model, ambient_temperature=0.0, initial_temperature=0.0, horizon=0.0, limits=(),
                                constant_sources=(), decaying_sources=(), fire_sources=(), heating_media=(),
                                boiling=None, maximum_technical_temperature=None, released_at_start=(),
-                               wall_heat_capacity=0.0, scenario="storage")
+                               wall_heat_capacity=0.0, scenario="storage", daily_cycle=None)
 
 
 def _trial_model(model: ScreeningModel, ambient: float) -> ScreeningModel:
@@ -318,22 +326,44 @@ def _lumped_trials(models):
     return trials
 
 
-def _conduction_trial(model: ScreeningModel):
-    from screening.core.transient_conduction import hot_spot_history
+def _conduction_trials(models):
+    """Trials of unstirred packages for :func:`screening.core.sadt.search_sadt_lockstep`: every pending
+    (package, ambient) of a round integrated together by the batched conduction integrator
+    (:func:`screening.core.transient_conduction_batch.hot_spot_histories`, 64 cells, each body with its own
+    step, so a trial's numbers do not depend on the others of its batch), from uniform at the ambient with the
+    decompositions alone (:func:`screening.run.conduction_case.conduction_body`, ``other_heat=False``), the rise
+    located on the hottest cell (the centre of a self-heating body), stopped at the ambient + 100 K (a runaway)
+    and otherwise followed to the end of the 7 days."""
+    from screening.core.transient_conduction_batch import hot_spot_histories
     from screening.run.conduction_case import conduction_body
 
-    def trial(ambient: float) -> cs.SadtTrial:
-        rise = ambient + cs.SADT_RISE
-        body = conduction_body(model, initial_temperature=ambient, ambient_temperature=ambient, other_heat=False)
-        hist = hot_spot_history(body, [rise], cs.SADT_WINDOW,
-                                stop_temperature=ambient + 100.0)
-        t = hist.limit_times[0]
-        end = float(hist.time[-1])
-        at_end = None if hist.stopped else float(hist.centre[-1])
-        return cs.SadtTrial(ambient, t is not None, t, at_end, float(hist.centre.max()),
-                            end if hist.stopped else None)
+    def trials(requests):
+        try:
+            bodies = [conduction_body(models[p], initial_temperature=ambient, ambient_temperature=ambient,
+                                      other_heat=False) for p, ambient in requests]
+            hists = hot_spot_histories(bodies, [[ambient + cs.SADT_RISE] for _, ambient in requests],
+                                       cs.SADT_WINDOW, stop_temperature=[ambient + 100.0 for _, ambient in requests])
+        except _SEARCH_FAILURES as exc:  # a body out of range, or one that needed too many steps: which, alone
+            if len(requests) == 1:
+                if isinstance(exc, RuntimeError):
+                    exc = RuntimeError(f"the 7-day conduction integration at {requests[0][1]:.2f} K needed more "
+                                       f"steps than allowed")
+                return [exc]
+            return [trials([r])[0] for r in requests]
+        out = []
+        for (_, ambient), hist in zip(requests, hists):
+            t = hist.limit_times[0]
+            end = float(hist.time[-1])
+            out.append(cs.SadtTrial(ambient, t is not None, t, None if hist.stopped else float(hist.centre[-1]),
+                                    float(hist.centre.max()), end if hist.stopped else None))
+        return out
 
-    return trial
+    return trials
+
+
+def _trials_of(method: str):
+    """The batch trial function of a search method ("lumped" or "conduction")."""
+    return _lumped_trials if method == "lumped" else _conduction_trials
 
 
 def sadt_sentence(result: dict, unit: str) -> str | None:
@@ -350,4 +380,4 @@ def sadt_sentence(result: dict, unit: str) -> str | None:
     return text + "."
 
 
-__all__ = ["SADT_KEYS", "sadt_results", "stirred_sadt_searches", "conduction_body", "sadt_sentence"]
+__all__ = ["SADT_KEYS", "sadt_results", "sadt_searches", "sadt_sentence"]

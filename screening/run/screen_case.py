@@ -29,7 +29,7 @@ def screen_prepared(prepared: PreparedCase, input_hash: str | None = None,
 
     ``values`` (closed-form cases only) are engine results computed elsewhere,
     e.g. by the vectorised engine for a register; ``sadt_searches`` likewise the SADT
-    searches of a register chunk's stirred storage rows (:func:`screening.run.sadt_case.stirred_sadt_searches`),
+    searches of a register chunk's storage rows (:func:`screening.run.sadt_case.sadt_searches`),
     ``arrhenius_values`` the vectorised engine's runs of a case with Arrhenius sources
     (:func:`screening.run.runaway_case.arrhenius_values`), and ``conduction`` (unstirred cases) the
     case's :class:`screening.run.conduction_case.ConductionSolution` from a register chunk's batch.

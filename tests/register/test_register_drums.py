@@ -2,7 +2,7 @@
 row's results.json item equals ``heatscreen check --json`` of the same case written out as a file, key by key.
 
 The register screens its stirred storage rows' SADT searches together (one lock-step run of the batch
-engine per chunk, :func:`screening.run.sadt_case.stirred_sadt_searches`); ``check`` runs one case as a group
+engine per chunk, :func:`screening.run.sadt_case.sadt_searches`); ``check`` runs one case as a group
 of one. Reference: the one-case path of the command line (its physics is checked against scipy's solve_ivp
 in tests/run/test_sadt_case.py and tests/core/test_arrhenius_history_batch.py). Invented drums (FW-... tags).
 """

@@ -7,7 +7,9 @@ Check values and their sources:
   rtol 1e-10) written here from the equations, at every 5 °C step of the search range (reference library);
 - unstirred solids: a direct 7-day integration of the conduction model at every step, reading its centre
   temperature (the solver itself is checked against the series solutions of Carslaw and Jaeger in
-  tests/core);
+  tests/core); the batched trials (the batched conduction integrator, what every unstirred search runs)
+  against scipy's ``solve_ivp`` BDF on the same method of lines at rtol 1e-11 (reference library), on random
+  packages (slab, cylinder, sphere; surface Biot numbers 0.1 to 50);
 - bracketing: the Semenov (stirred) and Frank-Kamenetskii (unstirred) critical ambients (Semenov 1928;
   Frank-Kamenetskii 1939, as computed by core/runaway and checked there);
 - the control / emergency table: UN Model Regulations (from memory).
@@ -453,7 +455,7 @@ def test_lockstep_searches_of_many_cases_give_the_one_case_blocks(monkeypatch):
     # case screened alone (a group of one): the same batch trial function, whose samples do not depend on
     # the others in their batch (tests/core/test_arrhenius_history_batch.py)
     from screening.run import sadt_case
-    from screening.run.sadt_case import stirred_sadt_searches
+    from screening.run.sadt_case import sadt_searches
 
     rng = np.random.default_rng(5)
     cases = []
@@ -466,7 +468,7 @@ def test_lockstep_searches_of_many_cases_give_the_one_case_blocks(monkeypatch):
         src["order"] = float(rng.choice([0.0, 0.5, 1.0, 2.0]))
         cases.append(prepared_of(data))
     sadt_case._CACHE.clear()
-    searches = stirred_sadt_searches(cases)
+    searches = sadt_searches(cases)
     assert len(searches) == len(cases)
     trials = sadt_case._lumped_trials
     monkeypatch.setattr(sadt_case, "_lumped_trials", lambda models: pytest.fail("searched again"))
@@ -477,3 +479,144 @@ def test_lockstep_searches_of_many_cases_give_the_one_case_blocks(monkeypatch):
         alone = screen_prepared(p)
         for key in sadt_case.SADT_KEYS:
             assert got[key] == alone[key], (p.spec.id, key)
+
+
+# ------------------------------------------------------------------ unstirred: batched conduction trials
+
+
+def unstirred_package(rng, i: int, shape: str, biot: float):
+    """A random unstirred package (invented FW-S17 powder, kinetics varied) of a given shape and surface Biot number
+    h R / k (R: the radius, or the half of a box's smallest dimension, as the conduction body takes it)."""
+    data = demo("fw-s17-powder-drums.yaml")
+    data["id"] = f"FW-S17-R{i}"
+    if shape == "sphere":
+        d = round(float(rng.uniform(0.3, 1.2)), 3)
+        data["vessel"] = {"shape": "sphere", "diameter": f"{d} m"}
+        radius = d / 2
+    elif shape == "box":
+        dims = sorted(round(float(x), 3) for x in rng.uniform(0.2, 1.0, 3))
+        data["vessel"] = {"shape": "box", "length": f"{dims[2]} m", "width": f"{dims[1]} m", "height": f"{dims[0]} m"}
+        radius = dims[0] / 2
+    else:
+        d = round(float(rng.uniform(0.3, 0.8)), 3)
+        data["vessel"] = {"shape": "vertical-cylinder", "diameter": f"{d} m", "length": "0.85 m", "heads": "flat"}
+        radius = d / 2
+    k = round(float(rng.uniform(0.07, 0.3)), 4)
+    data["contents"]["thermal_conductivity"] = f"{k} W/(m*K)"
+    data["heat_loss"]["coefficient"] = f"{biot * k / radius:.8g} W/(m^2*K)"
+    src = data["heat_sources"][0]
+    src["specific_power"] = f"{0.004 * 10 ** rng.uniform(-1, 1):.4g} W/kg"
+    src["order"] = float(rng.choice([0.0, 0.5, 1.0, 2.0]))
+    src["activation_energy"] = f"{rng.uniform(100, 160):.4g} kJ/mol"
+    src["specific_heat_of_reaction"] = f"{rng.uniform(300, 1500):.4g} kJ/kg"
+    return data
+
+
+def test_batched_conduction_trials_agree_with_a_tight_scipy_method_of_lines(monkeypatch):
+    # random packages (slab, cylinder, sphere; Bi 0.1 to 50) at 5 °C steps about their Frank-Kamenetskii critical
+    # ambient (where trials are hardest), all trials in one batch; reference: scipy.integrate.solve_ivp (BDF,
+    # rtol 1e-11, the scalar method of lines of core/transient_conduction.py on the same 64 cells). Observed:
+    # rise and stop times within 3e-7 relative, centre temperatures within 2e-6 K (the batch runs at rtol 1e-8)
+    import screening.core.transient_conduction as tc
+    from screening.run.sadt_case import _conduction_trials
+    from screening.run.scenario_criteria import frank_kamenetskii_block
+
+    rng = np.random.default_rng(20261204)
+    layout = [("sphere", 0.3), ("vertical-cylinder", 1.0), ("box", 3.0), ("sphere", 10.0), ("vertical-cylinder", 50.0),
+              ("box", 0.1)]
+    models, requests = [], []
+    for p, (shape, biot) in enumerate(layout):
+        model = prepared_of(unstirred_package(rng, p, shape, biot)).model
+        assert model.conduction_geometry == {"sphere": "sphere", "box": "slab"}.get(shape, "cylinder")
+        assert model.surface_coefficient * model.conduction_radius / model.thermal_conductivity == pytest.approx(
+            biot, rel=1e-6)
+        crit = frank_kamenetskii_block(model, model.arrhenius_sources, [])["critical_ambient_K"]
+        models.append(model)
+        requests += [(p, cs.round_up_to_step(crit) + k * cs.SADT_STEP) for k in (-1, 0, 2)]
+    trials = _conduction_trials(models)(requests)
+    monkeypatch.setattr(tc, "RTOL", 1e-11)
+    kinds = set()
+    for (p, ambient), got in zip(requests, trials):
+        ref = hot_spot_history(package_at(models[p], ambient), [ambient + cs.SADT_RISE], WEEK,
+                               stop_temperature=ambient + 100.0)  # scipy BDF: the reference
+        assert got.ambient == ambient
+        if abs(float(ref.centre.max()) - (ambient + cs.SADT_RISE)) > 0.01:  # a grazing rise: either answer stands
+            assert got.triggered == (ref.limit_times[0] is not None), (p, ambient)
+            if got.triggered:
+                assert got.rise_time == pytest.approx(ref.limit_times[0], rel=1e-5)
+        assert (got.stopped_at is None) == (not ref.stopped)
+        if ref.stopped:
+            kinds.add("runaway")
+            assert got.centre_at_end is None
+            assert got.stopped_at == pytest.approx(float(ref.time[-1]), rel=1e-5)
+        else:
+            kinds.add("triggered" if got.triggered else "quiet")
+            assert got.centre_at_end == pytest.approx(float(ref.centre[-1]), abs=1e-4)
+        assert got.peak_centre == pytest.approx(float(ref.centre.max()), abs=1e-4)
+    assert kinds == {"runaway", "triggered", "quiet"}  # every kind of trial was checked
+
+
+def test_lockstep_conduction_searches_give_the_one_package_blocks(monkeypatch):
+    # a register chunk's unstirred storage rows searched together give each row exactly the SADT keys of the case
+    # screened alone (a group of one, through the same batch trials): each body has its own step, so its numbers do
+    # not depend on the others of its batch (tests/core/test_transient_conduction_batch.py)
+    from screening.run import sadt_case
+    from screening.run.sadt_case import sadt_searches
+
+    rng = np.random.default_rng(11)
+    cases = [prepared_of(unstirred_package(rng, i, shape, biot)) for i, (shape, biot) in
+             enumerate([("sphere", 2.0), ("box", 0.5), ("vertical-cylinder", 12.0), ("box", 40.0), ("sphere", 0.2)])]
+    stirred = prepared_of(demo("fw-p08-peroxide-cans.yaml"))  # a stirred package in the same call: its own batch
+    sadt_case._CACHE.clear()
+    rounds = []
+    real = sadt_case._conduction_trials
+
+    def spy(models):
+        run = real(models)
+
+        def trials(requests):
+            rounds.append(len(requests))
+            return run(requests)
+        return trials
+
+    monkeypatch.setattr(sadt_case, "_conduction_trials", spy)
+    searches = sadt_searches(cases + [stirred])
+    assert len(searches) == len(cases) + 1
+    assert rounds[0] == len(cases) and max(rounds) == len(cases)  # the packages' trials in one batch per round
+    monkeypatch.setattr(sadt_case, "_conduction_trials", lambda models: pytest.fail("searched again"))
+    monkeypatch.setattr(sadt_case, "_lumped_trials", lambda models: pytest.fail("searched again"))
+    together = [screen_prepared(p, sadt_searches=searches) for p in cases + [stirred]]  # the searches given are used
+    monkeypatch.undo()
+    assert {r["sadt"]["method"] for r in together} == {"conduction", "lumped"}
+    assert sum(r["sadt"]["status"] == "computed" for r in together) >= 4
+    for p, got in zip(cases + [stirred], together):
+        sadt_case._CACHE.clear()
+        alone = screen_prepared(p)
+        for key in sadt_case.SADT_KEYS:
+            assert got[key] == alone[key], (p.spec.id, key)
+
+
+def test_a_failed_conduction_trial_ends_only_its_own_search(monkeypatch):
+    # a package whose trial cannot run does not take the others of its batch with it (the batch is retried one
+    # package at a time); a search whose 7-day integration fails (here: a step limit of 3) gets the failure note
+    import dataclasses
+
+    import screening.core.transient_conduction_batch as tcb
+    from screening.run import sadt_case
+
+    rng = np.random.default_rng(3)
+    cases = [prepared_of(unstirred_package(rng, i, "sphere", 1.0)) for i in range(2)]
+    good = cases[0].model
+    bad = dataclasses.replace(good, thermal_conductivity=-1.0)  # out of the integrator's range
+    ta = C0 + 60.0
+    both = sadt_case._conduction_trials([good, bad])([(0, ta), (1, ta)])
+    alone = sadt_case._conduction_trials([good])([(0, ta)])
+    assert both[0] == alone[0] and isinstance(both[1], ValueError)
+    sadt_case._CACHE.clear()
+    monkeypatch.setattr(tcb, "MAX_STEPS", 3)
+    searches = sadt_case.sadt_searches(cases)
+    assert all(isinstance(s, RuntimeError) for s in searches.values()) and len(searches) == 2
+    monkeypatch.undo()  # the case's main conduction solution runs with the usual step limit
+    r = screen_prepared(cases[0], sadt_searches=searches)
+    assert r["sadt_K"] is None and r["sadt"] == {"status": "failed"}
+    assert "7-day conduction integration at" in r["sadt_note"] and "needed more steps than allowed" in r["sadt_note"]
