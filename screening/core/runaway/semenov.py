@@ -21,7 +21,10 @@ from screening.core.model import GAS_CONSTANT, HeatingMedium
 from screening.core.runaway.rates import (
     SEARCH_RANGE,
     WARNING_TRANSIENT_SOURCES,
+    _SCALAR_SOURCES,
+    _ScalarCurve,
     _check_sources,
+    _conversions,
     _grid,
     _log_energy_weighted_rate,
     _lumped_loss,
@@ -65,13 +68,23 @@ class SteadyStates(NamedTuple):
     unstable: float | None
 
 
+_TANGENCIES: dict = {}  # (mass, sources, G, conversions, range) -> (T or None, status): the same case asks again
+_TANGENCY_CACHE_SIZE = 256
+
+
 def _tangency(mass, sources, conductance, conversion, temperature_range):
     """Lowest T where dQ_gen/dT rises to the loss slope G.
 
     Returns (T or None, status, grid); status in {"found", "none",
-    "below_range", "no_arrhenius"}.
+    "below_range", "no_arrhenius"}. A case's criteria ask for the same tangency several times (critical
+    ambient, steady states, the SADT search's start): the answer is kept for the last few hundred asked.
     """
     grid = _grid(temperature_range)
+    key = (float(mass), tuple(sources), float(conductance), tuple(_conversions(sources, conversion)),
+           tuple(float(v) for v in temperature_range))
+    known = _TANGENCIES.get(key)
+    if known is not None:
+        return known[0], known[1], grid
     log_g = math.log(conductance)
 
     def log_slope(t):
@@ -80,15 +93,32 @@ def _tangency(mass, sources, conductance, conversion, temperature_range):
 
     h = log_slope(grid) - log_g
     if not np.any(np.isfinite(h)):
-        return None, "no_arrhenius", grid
-    if h[0] >= 0:
-        return None, "below_range", grid
-    above = np.flatnonzero(h >= 0)
-    if above.size == 0:
-        return None, "none", grid
-    k = int(above[0])
-    tc = _root(lambda t: float(log_slope(np.asarray(t))) - log_g, grid[k - 1], grid[k])
-    return tc, "found", grid
+        tc, status = None, "no_arrhenius"
+    elif h[0] >= 0:
+        tc, status = None, "below_range"
+    else:
+        above = np.flatnonzero(h >= 0)
+        if above.size == 0:
+            tc, status = None, "none"
+        else:
+            k = int(above[0])
+            curve = _scalar_curve(mass, sources, conversion)
+            if curve is None:
+                tc = _root(lambda t: float(log_slope(np.asarray(t))) - log_g, grid[k - 1], grid[k])
+            else:
+                log_mass, log_r = curve.log_mass, math.log(GAS_CONSTANT)
+                tc = _root(lambda t: log_mass + curve.log_slope_part(t) - log_r - 2.0 * float(np.log(t)) - log_g,
+                           grid[k - 1], grid[k])
+            status = "found"
+    if len(_TANGENCIES) >= _TANGENCY_CACHE_SIZE:
+        _TANGENCIES.pop(next(iter(_TANGENCIES)))
+    _TANGENCIES[key] = (tc, status)
+    return tc, status, grid
+
+
+def _scalar_curve(mass, sources, conversion):
+    """The float evaluator of the generation curve (None: more sources than it reproduces bit for bit)."""
+    return _ScalarCurve(mass, sources, conversion) if 0 < len(sources) <= _SCALAR_SOURCES else None
 
 
 def semenov_critical_ambient(mass, sources, constant_power, ua,
@@ -381,7 +411,11 @@ def steady_states(mass, sources, constant_power, ua, ambient,
         return finish(result)
     t_eq = (ua * ambient + media_term) / conductance
 
+    curve = _scalar_curve(mass, sources, conversion)
+
     def balance(t):
+        if curve is not None and isinstance(t, float):  # a root-finding step: one temperature
+            return curve.generation(t, constant_power) - conductance * (t - t_eq)
         return (heat_generation(t, mass, sources, constant_power, conversion)
                 - conductance * (np.asarray(t, dtype=float) - t_eq))
 
