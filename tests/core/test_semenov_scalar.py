@@ -17,7 +17,13 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from screening.core.model import ArrheniusSource
-from screening.core.runaway import rates, semenov
+from screening.core.runaway import rates, semenov, tmr
+
+
+def _forget():
+    semenov._TANGENCIES.clear()
+    semenov._STEADY_STATES.clear()
+
 
 source = st.builds(
     lambda q, tref, e, n, auto, m, z, acc: ArrheniusSource(
@@ -42,26 +48,31 @@ def test_scalar_curve_is_the_array_curve_bit_for_bit(sources, mass, power, t, co
 @settings(max_examples=60, deadline=None)
 @given(st.lists(source, min_size=1, max_size=3), st.floats(10.0, 5e4), st.floats(0.5, 500.0), st.floats(250.0, 400.0))
 def test_roots_are_those_of_the_array_curve(sources, mass, ua, ambient):
-    """Steady states and the critical ambient equal those found through the array functions."""
-    semenov._TANGENCIES.clear()
+    """Steady states, the critical ambient and T_D24 equal those found through the array functions."""
+    _forget()
     fast = (semenov.steady_states(mass, sources, 0.0, ua, ambient),
-            semenov.semenov_critical_ambient(mass, sources, 0.0, ua))
-    semenov._TANGENCIES.clear()
+            semenov.semenov_critical_ambient(mass, sources, 0.0, ua), tmr.t_d24(1900.0, sources))
+    _forget()
     original = semenov._scalar_curve
-    semenov._scalar_curve = lambda *a: None  # the array functions in every root-finding step
+    semenov._scalar_curve = tmr._scalar_curve = lambda *a: None  # the array functions in every root-finding step
     try:
         slow = (semenov.steady_states(mass, sources, 0.0, ua, ambient),
-                semenov.semenov_critical_ambient(mass, sources, 0.0, ua))
+                semenov.semenov_critical_ambient(mass, sources, 0.0, ua), tmr.t_d24(1900.0, sources))
     finally:
-        semenov._scalar_curve = original
-        semenov._TANGENCIES.clear()
+        semenov._scalar_curve = tmr._scalar_curve = original
+        _forget()
     assert fast == slow
 
 
 def test_a_repeated_question_is_answered_from_the_cache():
-    semenov._TANGENCIES.clear()
+    _forget()
     src = [ArrheniusSource(1.0, 400.0, 100e3)]
     first = semenov.semenov_critical_ambient(1000.0, src, 0.0, 50.0)
     assert len(semenov._TANGENCIES) == 1
     assert semenov.semenov_critical_ambient(1000.0, src, 0.0, 50.0) == first
     assert len(semenov._TANGENCIES) == 1
+    states, warnings = semenov.steady_states(1000.0, src, 0.0, 50.0, 300.0, full_output=True)
+    warnings.append("changed by the caller")
+    again, warnings_again = semenov.steady_states(1000.0, src, 0.0, 50.0, 300.0, full_output=True)
+    assert again == states and "changed by the caller" not in warnings_again
+    assert len(semenov._STEADY_STATES) == 1

@@ -336,11 +336,27 @@ class _ScalarCurve:
         return float(constant_power + float(np.exp(min(log_total, _LOG_CAP))))
 
 
+def _scalar_curve(mass, sources, conversion):
+    """The float evaluator of the generation curve (None: more sources than it reproduces bit for bit)."""
+    return _ScalarCurve(mass, sources, conversion) if 0 < len(sources) <= _SCALAR_SOURCES else None
+
+
+_GRIDS: dict = {}
+
+
 def _grid(temperature_range, points=_GRID_POINTS):
+    """The bracketing grid over a range (read-only; the same few ranges are asked for again and again)."""
     lo, hi = (float(v) for v in temperature_range)
     if not (math.isfinite(lo) and math.isfinite(hi) and 0 < lo < hi):
         raise ValueError("temperature_range must be (low, high) with 0 < low < high")
-    return np.geomspace(lo, hi, points)
+    key = (lo, hi, points)
+    grid = _GRIDS.get(key)
+    if grid is None:
+        grid = np.geomspace(lo, hi, points)
+        grid.flags.writeable = False
+        if len(_GRIDS) < 64:
+            _GRIDS[key] = grid
+    return grid
 
 
 def _root(f, a, b):

@@ -21,8 +21,7 @@ from screening.core.model import GAS_CONSTANT, HeatingMedium
 from screening.core.runaway.rates import (
     SEARCH_RANGE,
     WARNING_TRANSIENT_SOURCES,
-    _SCALAR_SOURCES,
-    _ScalarCurve,
+    _scalar_curve,
     _check_sources,
     _conversions,
     _grid,
@@ -114,11 +113,6 @@ def _tangency(mass, sources, conductance, conversion, temperature_range):
         _TANGENCIES.pop(next(iter(_TANGENCIES)))
     _TANGENCIES[key] = (tc, status)
     return tc, status, grid
-
-
-def _scalar_curve(mass, sources, conversion):
-    """The float evaluator of the generation curve (None: more sources than it reproduces bit for bit)."""
-    return _ScalarCurve(mass, sources, conversion) if 0 < len(sources) <= _SCALAR_SOURCES else None
 
 
 def semenov_critical_ambient(mass, sources, constant_power, ua,
@@ -217,7 +211,9 @@ def semenov_critical_ambient(mass, sources, constant_power, ua,
     else:
         tc, status, grid = _tangency(mass, sources, conductance, conversion, temperature_range)
         if status == "found":
-            q = heat_generation(tc, mass, sources, constant_power, conversion)
+            curve = _scalar_curve(mass, sources, conversion)
+            q = (heat_generation(tc, mass, sources, constant_power, conversion) if curve is None
+                 else curve.generation(tc, constant_power))
             t_eq = tc - q / conductance
             result = SemenovCritical((conductance * t_eq - media_term) / ua, tc)
         elif status == "no_arrhenius":
@@ -396,13 +392,31 @@ def steady_states(mass, sources, constant_power, ua, ambient,
     if not (math.isfinite(ambient) and ambient > 0):
         raise ValueError("ambient must be finite and > 0 K")
     sources = _check_sources(sources)
+    key = (float(mass), sources, float(constant_power), float(ua), float(ambient), tuple(heating_media),
+           tuple(_conversions(sources, conversion)), tuple(float(v) for v in temperature_range))
+    known = _STEADY_STATES.get(key)
+    if known is None:
+        known = _steady_states_of(mass, sources, constant_power, ua, ambient, heating_media, conversion,
+                                  temperature_range)
+        if len(_STEADY_STATES) >= _TANGENCY_CACHE_SIZE:
+            _STEADY_STATES.pop(next(iter(_STEADY_STATES)))
+        _STEADY_STATES[key] = known
+    result, warnings = known
+    return (result, list(warnings)) if full_output else result
+
+
+_STEADY_STATES: dict = {}  # the same case's criteria ask for the same steady states more than once
+
+
+def _steady_states_of(mass, sources, constant_power, ua, ambient, heating_media, conversion, temperature_range):
+    """(SteadyStates, warnings) of :func:`steady_states` (arguments checked there)."""
     conductance, media_term = _lumped_loss(ua, heating_media)
     warnings: list[str] = [WARNING_TRANSIENT_SOURCES]
     result = SteadyStates(None, None)
 
     def finish(res):
         out_warnings = kinetics_warnings(sources, [res.stable, res.unstable], conversion) + warnings
-        return (res, out_warnings) if full_output else res
+        return res, out_warnings
 
     if conductance == 0:
         warnings.append("No heat loss (UA = 0 and no heating media): no steady "
