@@ -96,14 +96,15 @@ def _adiabatic_model(model: ScreeningModel) -> ScreeningModel:
 def engine_eligible(prepared: PreparedCase) -> bool:
     """Whether the vectorised engine gives this case's numbers (and texts) as the single-case engine would.
 
-    Stirred contents without boiling data, daily cycle, fire or recovery path; and no limit where the
+    Contents without boiling data, daily cycle, fire or recovery path (unstirred contents too: the values are
+    then those of the lumped comparison, kept under ``lumped``); and no limit where the
     single-case engine's rate cap (m q / C <= 1e9 K/s) could act (its warning is not reproduced).
     """
     from screening.core.arrhenius import log_arrhenius_rate
     from screening.core.arrhenius_history_batch import LN_RATE_FLOOR, RATE_CAP
 
     model = prepared.model
-    if (not model.arrhenius_sources or model.mixing != "stirred" or model.boiling is not None
+    if (not model.arrhenius_sources or model.boiling is not None
             or model.daily_cycle is not None or model.fire_sources or prepared.recovery is not None):
         return False
     ln_cap = math.log(RATE_CAP * model.heat_capacity / model.contents_mass)
