@@ -95,6 +95,9 @@ MAX_STEPS = 200_000
 MAX_PHASES = 200
 #: Evenly spaced sample times over the horizon (added to the solver's steps).
 N_GRID = 401
+#: The caution on a time to a limit under fire when heat loss to ambient is also credited.
+FIRE_NET_INPUT = ("Fire heat input is a net value for the exposed surface: the ambient heat-loss credit UA must not "
+                  "include the fire-exposed surface (not conservative if it does).")
 CYCLE_MAX_STEP = 1800.0  # s, the longest solver step with a daily cycle (sunrise and sunset are kinks of the forcing)
 
 
@@ -865,9 +868,7 @@ def _integrate(model: ScreeningModel, stop_temperature: float | None) -> Numeric
 
     warnings, time_warnings = _source_warnings(model)
     if model.fire_sources and model.ua > 0:
-        time_warnings.append("Fire heat input is a net value for the exposed surface: the ambient heat-loss "
-                             "credit UA must not include the fire-exposed surface (not conservative if it "
-                             "does).")
+        time_warnings.append(FIRE_NET_INPUT)
         warnings.append(time_warnings[-1])
     if model.mixing == "unstirred":
         time_warnings.append("Contents are unstirred: the lumped (well-mixed) history understates the "

@@ -15,7 +15,7 @@ import numpy as np
 from screening.case.display import temp
 from screening.case.prepare import PreparedCase
 from screening.core import runaway as rc
-from screening.core.daily_cycle import mean_rise
+from screening.core.daily_cycle import cycle_forcing, mean_rise
 from screening.core.model import GAS_CONSTANT, HeatingMedium, Limit, ScreeningModel
 from screening.core.terms import conductance_and_drive, constant_power, model_start_temperature, model_terms
 from screening.run.recovery import detection_and_recovery
@@ -51,6 +51,9 @@ class ArrheniusValues:
         Per source at the end; None without a heat of reaction.
     adiabatic_times : tuple of (float or None), [s]
         The case's limits without heat loss (UA = 0).
+    start_info : dict or None
+        With a daily cycle: the start time of day the runs were made with and how it was chosen
+        (:func:`screening.run.daily_cycle.choose_start`), so that the case is screened from that start.
     """
 
     times: tuple
@@ -63,6 +66,7 @@ class ArrheniusValues:
     rising_at_end: bool
     final_conversion: tuple
     adiabatic_times: tuple
+    start_info: dict | None = None
 
 
 @dataclass(frozen=True)
@@ -96,15 +100,17 @@ def _adiabatic_model(model: ScreeningModel) -> ScreeningModel:
 def engine_eligible(prepared: PreparedCase) -> bool:
     """Whether the vectorised engine gives this case's numbers (and texts) as the single-case engine would.
 
-    Stirred contents without boiling data, daily cycle, fire or recovery path; and no limit where the
-    single-case engine's rate cap (m q / C <= 1e9 K/s) could act (its warning is not reproduced).
+    Stirred contents without boiling data or recovery path (a daily cycle is taken: the engine adds the same
+    forcing with the same 30-minute step limit; fire exposure is a constant input over the horizon in both
+    engines, through :func:`screening.core.terms.constant_power`); and no limit where the single-case engine's
+    rate cap (m q / C <= 1e9 K/s) could act (its warning is not reproduced).
     """
     from screening.core.arrhenius import log_arrhenius_rate
     from screening.core.arrhenius_history_batch import LN_RATE_FLOOR, RATE_CAP
 
     model = prepared.model
     if (not model.arrhenius_sources or model.mixing != "stirred" or model.boiling is not None
-            or model.daily_cycle is not None or model.fire_sources or prepared.recovery is not None):
+            or prepared.recovery is not None):
         return False
     ln_cap = math.log(RATE_CAP * model.heat_capacity / model.contents_mass)
     for lim in _run_model(prepared).limits:
@@ -174,6 +180,9 @@ def arrhenius_values(prepared_cases) -> list:
                                              [h.medium_temperature for h in model.heating_media])
             net = model.heat_capacity * float(res.end_rate[k])
             loss = float(g) * T_end - float(drive)
+            forcing = cycle_forcing(model.daily_cycle, model.ua)
+            if forcing is not None:  # the loss to the effective ambient, as the single-case engine counts it
+                loss -= float(forcing.power(float(res.end_time[k])))
             rising = net > 1e-12 * (abs(net + loss) + abs(loss))
         conv = tuple(None if s.specific_heat_of_reaction is None else float(res.end_conversion[k, j])
                      for j, s in enumerate(model.arrhenius_sources))
@@ -192,9 +201,12 @@ def _numbers_of_history(hist) -> _Numbers:
 def _numbers_of_values(model: ScreeningModel, run: ScreeningModel, v: ArrheniusValues) -> _Numbers:
     """The history's numbers and texts from engine values, as :func:`screening.core.arrhenius_history.
     integrate_history` words them for a case :func:`engine_eligible` takes."""
-    from screening.core.arrhenius_history import LimitCrossing, source_warnings
+    from screening.core.arrhenius_history import FIRE_NET_INPUT, LimitCrossing, source_warnings
 
     every, on_times = source_warnings(run)
+    if run.fire_sources and run.ua > 0:  # (prepare sets UA to 0 under fire; a model built otherwise is warned)
+        on_times.append(FIRE_NET_INPUT)
+        every.append(FIRE_NET_INPUT)
     T0 = model_start_temperature(run)
     crossings = []
     for lim, t in zip(run.limits, v.times):

@@ -1,0 +1,177 @@
+"""Stirred Arrhenius cases of further shapes on the vectorised engine (a daily cycle of the air and the sun; fire
+exposure): every key of the result against the same case screened by the single-case integrator, and the engine's
+numbers against scipy's ``solve_ivp`` of the same balance.
+
+References: scipy.integrate.solve_ivp (Radau, rtol 1e-11; a general-purpose reference library) for the physics;
+the single-case integrator (``core.arrhenius_history``, itself checked against quadrature and solve_ivp in
+tests/core) for the texts, flags and every key. Tolerances are those of tests/run/test_arrhenius_engine_values.py
+(numbers to 1e-6 relative). Invented cases (FW-... tags).
+"""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+from scipy.integrate import solve_ivp
+
+from screening.core.daily_cycle import cycle_forcing
+from screening.core.model import GAS_CONSTANT
+from screening.core.terms import conductance_and_drive, constant_power, model_start_temperature
+from screening.result import public_result
+from screening.run import runaway_case
+from screening.run.daily_cycle import choose_start
+from screening.run.runaway_case import arrhenius_values, engine_eligible
+from screening.run.screen_case import screen_prepared
+
+from test_arrhenius_engine_values import compare, prepared_of, random_case
+
+
+def with_cycle(rng, data):
+    data["heat_loss"]["daily_range"] = f"{rng.uniform(0, 16):.3g} K"
+    data["heat_loss"]["warmest_time_of_day"] = f"{rng.uniform(13, 16):.3g} h"
+    if rng.random() < 0.7:
+        data["sun"] = {"peak_irradiance": f"{rng.uniform(500, 1000):.4g} W/m^2",
+                       "absorptivity": f"{rng.uniform(0.2, 0.9):.2g}",
+                       "exposed_area": f"{rng.uniform(0.3, 3):.3g} m^2", "day_length": f"{rng.uniform(9, 15):.3g} h"}
+    if rng.random() < 0.4:
+        data["start_time_of_day"] = f"{rng.uniform(0, 24):.3g} h"
+    data["horizon"] = f"{rng.uniform(1, 12):.3g} d"
+    return data
+
+
+def with_fire(rng, data):
+    data["heat_sources"].append({"kind": "fire", "wetted_area": f"{rng.uniform(0.5, 20):.3g} m^2",
+                                 "environment_factor": f"{rng.choice([1.0, 0.3, 0.15]):g}",
+                                 "drainage_and_firefighting": bool(rng.random() < 0.5)})
+    data["horizon"] = f"{rng.uniform(0.5, 12):.3g} h"  # a fire is screened over hours
+    data["limits"][1]["temperature"] = f"{rng.uniform(80, 400):.3g} degC"
+    return data
+
+
+SHAPES = {"cycle": with_cycle, "fire": with_fire}
+
+
+def reference(model, limits=()):
+    """solve_ivp (Radau, rtol 1e-11) of C dT/dt = P + sum P_d e^(-t/a) - (G T - D) + F(t) + m sum q_j,
+    dX_j/dt = q_j / dh_j, with F the daily cycle's forcing: a dense solution to the horizon, and the first
+    crossing of each limit temperature (events) in ``t_events``."""
+    C, m = model.heat_capacity, model.contents_mass
+    G, D = conductance_and_drive(model.ua, model.ambient_temperature, 0.0, [h.ua for h in model.heating_media],
+                                 [h.medium_temperature for h in model.heating_media])
+    P = constant_power(model)
+    forcing = cycle_forcing(model.daily_cycle, model.ua)
+    sources = model.arrhenius_sources
+
+    def rhs(t, y):
+        dT = P - (G * y[0] - D) + (float(forcing.power(t)) if forcing is not None else 0.0)
+        dT += sum(d.power * math.exp(-t / d.time_constant) for d in model.decaying_sources)
+        out = [0.0]
+        for j, s in enumerate(sources):
+            k = s.specific_power * math.exp(-s.activation_energy / GAS_CONSTANT
+                                            * (1.0 / y[0] - 1.0 / s.reference_temperature))
+            if s.specific_heat_of_reaction is None:
+                q = k
+                out.append(0.0)
+            else:
+                left = min(max(1.0 - y[1 + j], 0.0), 1.0)
+                q = k * left ** s.order if left > 0 else 0.0
+                out.append(q / s.specific_heat_of_reaction)
+            dT += m * q
+        out[0] = dT / C
+        return out
+
+    y0 = [model_start_temperature(model)] + [1.0 - s.accumulated_fraction for s in sources]
+    step = 600.0 if forcing is not None else np.inf  # the forcing's kinks at sunrise and sunset
+    peak = (lambda t, y: rhs(t, y)[0])  # dT/dt falling through 0: a maximum
+    peak.direction = -1.0
+    events = [peak]
+    for temperature in limits:
+        event = (lambda t, y, L=temperature: y[0] - L)
+        event.direction = 1.0
+        events.append(event)
+    return solve_ivp(rhs, (0.0, model.horizon), y0, method="Radau", rtol=1e-11, atol=1e-10, dense_output=True,
+                     max_step=step, events=events)
+
+
+def reference_peak(sol):
+    """The highest of the start, the maxima (events) and the end of a :func:`reference` solution: (T, t)."""
+    candidates = [(float(sol.y[0, 0]), 0.0), (float(sol.y[0, -1]), float(sol.t[-1]))]
+    candidates += [(float(y[0]), float(t)) for t, y in zip(sol.t_events[0], sol.y_events[0])]
+    return max(candidates, key=lambda c: (c[0], -c[1]))
+
+
+def single_case(monkeypatch, prepared):
+    with monkeypatch.context() as mp:
+        mp.setattr(runaway_case, "engine_eligible", lambda p: False)
+        return public_result(screen_prepared(prepared, with_history=False))
+
+
+def compare_with_flat_peaks(engine, single, sol):
+    """:func:`compare`, except the time of a maximum that recurs (daily peaks, or a plateau) equal to within the
+    engines' accuracy: there either time is right when solve_ivp's temperature at it is the peak to 1e-8
+    relative (about 3e-6 K, the accuracy of the engines' temperatures)."""
+    a, b = engine["peak_time_s"], single["peak_time_s"]
+    if a != pytest.approx(b, rel=1e-4, abs=1e-9):
+        peak = engine["peak_temperature_K"]
+        for t in (a, b):
+            assert float(sol.sol(t)[0]) == pytest.approx(peak, rel=1e-8), (a, b)
+        engine = dict(engine, peak_time_s=b)
+    compare(engine, single)
+
+
+@pytest.mark.parametrize("shape", sorted(SHAPES))
+def test_engine_gives_the_single_case_result_and_solve_ivp_numbers(shape, monkeypatch):
+    rng = np.random.default_rng({"cycle": 31, "fire": 47}[shape])
+    seen = set()
+    for i in range(6):
+        p = prepared_of(SHAPES[shape](rng, random_case(rng, i)))
+        assert engine_eligible(p), i
+        engine = public_result(screen_prepared(p, with_history=False))
+        single = single_case(monkeypatch, p)
+        model = choose_start(p)[0].model
+        sol = reference(model, [row["temperature_K"] for row in engine["limits"]])
+        compare_with_flat_peaks(engine, single, sol)
+        # the engine's limit times and peak against solve_ivp (1e-6 relative, the engines' stated accuracy)
+        for row, crossings in zip(engine["limits"], sol.t_events[1:]):
+            if row["time_s"] is not None and row["time_s"] > 0 and crossings.size:
+                assert row["time_s"] == pytest.approx(float(crossings[0]), rel=1e-6)
+            elif row["time_s"] is None and sol.status == 0:
+                assert crossings.size == 0 or crossings[0] >= model.horizon * (1 - 1e-9)
+        # (solve_ivp in plain time may stop inside a fast runaway, "step size less than spacing": then only the
+        # crossings before it are compared)
+        if engine["stop_reason"] == "horizon" and sol.status == 0:
+            peak_T, peak_t = reference_peak(sol)
+            assert engine["peak_temperature_K"] == pytest.approx(peak_T, rel=1e-8)
+            assert engine["peak_time_s"] == pytest.approx(peak_t, rel=1e-4) or \
+                float(sol.sol(engine["peak_time_s"])[0]) == pytest.approx(peak_T, rel=1e-8)  # a recurring maximum
+        seen.add(engine["stop_reason"])
+    assert len(seen) == 2 or shape == "cycle"  # fire cases both run away and stop at the horizon
+
+
+@pytest.mark.parametrize("shape", sorted(SHAPES))
+def test_a_group_gives_each_case_its_own_numbers(shape):
+    rng = np.random.default_rng({"cycle": 5, "fire": 6}[shape])
+    cases = [choose_start(prepared_of(SHAPES[shape](rng, random_case(rng, i))))[0] for i in range(6)]
+    cases += [prepared_of(random_case(rng, 9))]  # mixed with a case without the shape
+    group = arrhenius_values(cases)
+    for p, values in zip(cases, group):
+        assert values is not None
+        assert values == arrhenius_values([p])[0]  # bit for bit, alone or in a group
+
+
+def test_a_chunk_chooses_the_starts_and_runs_the_cycle_rows_together(monkeypatch):
+    from screening.register.chunks import _arrhenius_row_values
+    from screening.run import screen_case
+
+    rng = np.random.default_rng(8)
+    cases = [prepared_of(with_cycle(rng, random_case(rng, i))) for i in range(5)]
+    values = _arrhenius_row_values(cases)
+    assert all(v is not None and v.start_info is not None for v in values)
+    alone = [public_result(screen_prepared(p, with_history=False)) for p in cases]
+    with monkeypatch.context() as mp:  # the chunk's values are used as they are: no second search, no second run
+        mp.setattr(screen_case, "choose_start", None)
+        mp.setattr(runaway_case, "arrhenius_values", None)
+        together = [public_result(screen_prepared(p, arrhenius_values=v, with_history=False))
+                    for p, v in zip(cases, values)]
+    assert together == alone
