@@ -18,7 +18,8 @@ from screening.core import runaway as rc
 from screening.core.daily_cycle import cycle_forcing, mean_rise
 from screening.core.model import GAS_CONSTANT, HeatingMedium, Limit, ScreeningModel
 from screening.core.terms import conductance_and_drive, constant_power, model_start_temperature, model_terms
-from screening.run.recovery import detection_and_recovery
+from screening.run.recovery import detection_and_recovery, detection_time
+from screening.run.warnings import detection_basis
 from screening.run.scenario_criteria import (
     HistoryFacts,
     heat_balance_curves,
@@ -54,6 +55,8 @@ class ArrheniusValues:
     start_info : dict or None
         With a daily cycle: the start time of day the runs were made with and how it was chosen
         (:func:`screening.run.daily_cycle.choose_start`), so that the case is screened from that start.
+    recovery : RecoveryRun or None
+        The recovery path's runs, when cooling is restored within the horizon before the run stopped.
     """
 
     times: tuple
@@ -67,6 +70,35 @@ class ArrheniusValues:
     final_conversion: tuple
     adiabatic_times: tuple
     start_info: dict | None = None
+    recovery: RecoveryRun | None = None
+
+
+@dataclass(frozen=True)
+class RecoveryRun:
+    """The vectorised engine's runs of a recovery path (cooling restored at ``start``).
+
+    Attributes
+    ----------
+    start : float, [s]
+        Detection + response.
+    temperature, conversion : float [K] and tuple of (float or None)
+        The state at ``start`` (a run of the main model to ``start``); conversion None without a heat of reaction.
+    pre_peak_temperature, pre_peak_time : float, [K] and [s]
+        Highest temperature before ``start`` and when.
+    times : tuple of (float or None), [s]
+        First time each limit of the case is reached after ``start`` (counted from ``start``).
+    peak_temperature, peak_time : float, [K] and [s]
+        Highest temperature after ``start`` (time counted from ``start``); the stop temperature of a runaway.
+    """
+
+    start: float
+    temperature: float
+    conversion: tuple
+    pre_peak_temperature: float
+    pre_peak_time: float
+    times: tuple
+    peak_temperature: float
+    peak_time: float
 
 
 @dataclass(frozen=True)
@@ -100,17 +132,19 @@ def _adiabatic_model(model: ScreeningModel) -> ScreeningModel:
 def engine_eligible(prepared: PreparedCase) -> bool:
     """Whether the vectorised engine gives this case's numbers (and texts) as the single-case engine would.
 
-    Stirred contents without boiling data or recovery path (a daily cycle is taken: the engine adds the same
-    forcing with the same 30-minute step limit; fire exposure is a constant input over the horizon in both
-    engines, through :func:`screening.core.terms.constant_power`); and no limit where the single-case engine's
-    rate cap (m q / C <= 1e9 K/s) could act (its warning is not reproduced).
+    Stirred contents without boiling data (a daily cycle is taken: the engine adds the same forcing with the
+    same 30-minute step limit; fire exposure is a constant input over the horizon in both engines, through
+    :func:`screening.core.terms.constant_power`; a recovery path as three runs: to the restart, then from the
+    state there with the recovery medium on, :class:`RecoveryRun`), but not a recovery path with a daily
+    cycle; and no limit where the single-case engine's rate cap (m q / C <= 1e9 K/s) could act (its warning
+    is not reproduced).
     """
     from screening.core.arrhenius import log_arrhenius_rate
     from screening.core.arrhenius_history_batch import LN_RATE_FLOOR, RATE_CAP
 
     model = prepared.model
     if (not model.arrhenius_sources or model.mixing != "stirred" or model.boiling is not None
-            or prepared.recovery is not None):
+            or (prepared.recovery is not None and model.daily_cycle is not None)):
         return False
     ln_cap = math.log(RATE_CAP * model.heat_capacity / model.contents_mass)
     for lim in _run_model(prepared).limits:
@@ -189,7 +223,90 @@ def arrhenius_values(prepared_cases) -> list:
         out[i] = ArrheniusValues(times, float(res.peak_temperature[k]), float(res.peak_time[k]),
                                  not horizon_end, float(ceilings[k]), float(res.end_time[k]), T_end, bool(rising),
                                  conv, ad_times)
+    _recovery_runs(prepared_cases, out)
     return out
+
+
+def _recovery_start(prepared: PreparedCase, values: ArrheniusValues) -> float | None:
+    """When cooling is restored (detection + response), s, if the engine follows the path from there: within the
+    horizon and before the main run stopped; else None (the path is written from the main run alone)."""
+    if prepared.recovery is None or prepared.response_time is None:
+        return None
+    alarm = values.times[-1] if prepared.detection_alarm is not None else None
+    detection = detection_time(detection_basis(prepared)[0], prepared.detection_delay, alarm)
+    if detection is None:
+        return None
+    start = detection + prepared.response_time
+    if start >= prepared.model.horizon or values.stop_time < start:
+        return None
+    return start
+
+
+def _recovery_runs(prepared_cases, out) -> None:
+    """Add the recovery path's runs (:class:`RecoveryRun`) to the values of every case that has one: a run of each
+    main model to its restart, then one from the state there with the recovery medium on; a case whose runs do
+    not end as they should loses its values (the single-case engine then screens it)."""
+    from screening.core.arrhenius_history_batch import STATUS_FAILED, STATUS_HORIZON
+
+    starts = {}
+    for i, (p, v) in enumerate(zip(prepared_cases, out)):
+        if v is not None:
+            start = _recovery_start(p, v)
+            if start is not None:
+                starts[i] = start
+    if not starts:
+        return
+    idx = list(starts)
+    try:
+        pre, pre_counts, _ = _batch_runs([dataclasses.replace(_run_model(prepared_cases[i]), horizon=starts[i])
+                                          for i in idx])
+    except (ValueError, RuntimeError, ArithmeticError):
+        for i in idx:
+            out[i] = None
+        return
+    states = {}
+    for k, i in enumerate(idx):
+        if pre.status[k] != STATUS_HORIZON:
+            out[i] = None
+            continue
+        model = prepared_cases[i].model
+        X = tuple(None if s.specific_heat_of_reaction is None else float(pre.end_conversion[k, j])
+                  for j, s in enumerate(model.arrhenius_sources))
+        states[i] = (float(pre.end_temperature[k]), X, float(pre.peak_temperature[k]), float(pre.peak_time[k]))
+    idx = list(states)
+    if not idx:
+        return
+    recs = [_recovery_model(prepared_cases[i], starts[i], states[i][0], states[i][1]) for i in idx]
+    try:
+        rec, counts, _ = _batch_runs(recs)
+    except (ValueError, RuntimeError, ArithmeticError):
+        for i in idx:
+            out[i] = None
+        return
+    for k, i in enumerate(idx):
+        if rec.status[k] == STATUS_FAILED:
+            out[i] = None
+            continue
+        T_start, X, pre_T, pre_t = states[i]
+        times = tuple(None if not math.isfinite(t) else float(t) for t in rec.times[k, :counts[k]])
+        out[i] = dataclasses.replace(out[i], recovery=RecoveryRun(
+            starts[i], T_start, X, pre_T, pre_t, times, float(rec.peak_temperature[k]), float(rec.peak_time[k])))
+
+
+def _recovery_model(prepared: PreparedCase, start: float, T_start: float, X_start) -> ScreeningModel:
+    """The model from the restart of cooling: the state at ``start`` (temperature, conversions; None for a source
+    without a heat of reaction), decaying sources decayed, the recovery medium added, the rest of the horizon."""
+    model = prepared.model
+    tm, ua_r = prepared.recovery
+    sources = tuple(dataclasses.replace(s, accumulated_fraction=max(1e-12, 1.0 - X_start[j]))
+                    if s.specific_heat_of_reaction is not None else s
+                    for j, s in enumerate(model.arrhenius_sources))
+    decaying = tuple(dataclasses.replace(s, power=s.power * math.exp(-start / s.time_constant))
+                     for s in model.decaying_sources)
+    media = model.heating_media + (HeatingMedium(tm, ua_r),)
+    return dataclasses.replace(model, initial_temperature=T_start, horizon=model.horizon - start,
+                               arrhenius_sources=sources, decaying_sources=decaying, heating_media=media,
+                               released_at_start=())
 
 
 def _numbers_of_history(hist) -> _Numbers:
@@ -360,8 +477,9 @@ def screen_with_arrhenius(prepared: PreparedCase, values: ArrheniusValues | None
         result["no_return_temperature_K"] = no_return if model.mixing == "stirred" else None
     alarm_time = _alarm_time(nums)
     detection_and_recovery(prepared, result, alarm_time=alarm_time)
+    if hist is not None or values is not None:
+        _arrhenius_recovery(prepared, result, hist, values)
     if hist is not None:
-        _arrhenius_recovery(prepared, result, hist)
         result["_history"] = {"time_s": np.asarray(hist.time).tolist(),
                               "temperature_K": np.asarray(hist.temperature).tolist(),
                               "generation_W": np.asarray(hist.heat_generation).tolist(),
@@ -422,8 +540,10 @@ def _steady_state_statements(model, hist, steady, runs_away, T0, unit, warnings)
                             f"with more accumulation, or an autocatalytic reaction, it would run away.")
 
 
-def _arrhenius_recovery(prepared: PreparedCase, result: dict, hist) -> None:
-    """Restore cooling at detection + response for an Arrhenius case and follow the path."""
+def _arrhenius_recovery(prepared: PreparedCase, result: dict, hist, values: ArrheniusValues | None = None) -> None:
+    """Restore cooling at detection + response for an Arrhenius case and follow the path: from the engine's
+    runs (``values.recovery``) when there are values, else from the single-case history; the chart
+    (``_recovery_history``) from the single-case integrator when there is a history."""
     from screening.core.arrhenius_history import integrate_history
 
     model = prepared.model
@@ -431,45 +551,54 @@ def _arrhenius_recovery(prepared: PreparedCase, result: dict, hist) -> None:
         return
     start = result["detection_time_s"] + prepared.response_time
     H = model.horizon
-    tm, ua_r = prepared.recovery
     reached_before = [r["name"] for r in result["limits"] if r["time_s"] is not None and r["time_s"] <= start]
-    if start >= H or hist.stop_time < start:
+    stop_time, ceiling_stop = ((values.stop_time, values.peak_is_ceiling) if values is not None
+                               else (hist.stop_time, hist.peak_is_ceiling))
+    if start >= H or stop_time < start:
         result["recovery"] = {"start_s": start, "peak_temperature_K": None, "peak_time_s": None,
                               "limits_reached": [r["name"] for r in result["limits"] if r["reached"]],
-                              "past_no_return": True if hist.stop_time < start and hist.peak_is_ceiling else None}
+                              "past_no_return": True if stop_time < start and ceiling_stop else None}
         return
-    t = np.asarray(hist.time)
-    T_start = float(np.interp(start, t, np.asarray(hist.temperature)))
-    conv = np.atleast_2d(np.asarray(hist.conversion, dtype=float))
-    if conv.shape[0] != len(t) and conv.shape[-1] == len(t):
-        conv = conv.T
-    X_start = [float(np.interp(start, t, conv[:, j])) if conv.size else 0.0 for j in range(len(model.arrhenius_sources))]
-    sources = tuple(dataclasses.replace(s, accumulated_fraction=max(1e-12, 1.0 - X_start[j]))
-                    if s.specific_heat_of_reaction is not None else s
-                    for j, s in enumerate(model.arrhenius_sources))
-    decaying = tuple(dataclasses.replace(s, power=s.power * math.exp(-start / s.time_constant))
-                     for s in model.decaying_sources)
-    media = model.heating_media + (HeatingMedium(tm, ua_r),)
-    rec_model = dataclasses.replace(model, initial_temperature=T_start, horizon=H - start, arrhenius_sources=sources,
-                                    decaying_sources=decaying, heating_media=media, released_at_start=())
-    rec = integrate_history(rec_model)
+    rec = None
+    if values is not None:
+        run = values.recovery
+        T_start, X_start = run.temperature, run.conversion
+        pre_T, pre_t = run.pre_peak_temperature, run.pre_peak_time
+        rec_times, peak_T, peak_t = run.times, run.peak_temperature, start + run.peak_time
+    else:
+        t = np.asarray(hist.time)
+        T_start = float(np.interp(start, t, np.asarray(hist.temperature)))
+        conv = np.atleast_2d(np.asarray(hist.conversion, dtype=float))
+        if conv.shape[0] != len(t) and conv.shape[-1] == len(t):
+            conv = conv.T
+        X_start = [float(np.interp(start, t, conv[:, j])) if conv.size else 0.0
+                   for j in range(len(model.arrhenius_sources))]
+        rec = integrate_history(_recovery_model(prepared, start, T_start, X_start))
+        rec_times, peak_T, peak_t = [c.time for c in rec.limits], rec.peak_temperature, start + rec.peak_time
+        pre = np.asarray(hist.temperature)[t <= start]
+        k = int(np.argmax(pre)) if pre.size else 0
+        pre_T, pre_t = (float(pre[k]), float(t[t <= start][k])) if pre.size else (-math.inf, 0.0)
+    rec_model = _recovery_model(prepared, start, T_start, X_start)
     reached = list(reached_before)
-    for c in rec.limits:
-        if c.time is not None and c.name not in reached:
-            reached.append(c.name)
+    for lim, time in zip(model.limits, rec_times):
+        if time is not None and lim.name not in reached:
+            reached.append(lim.name)
+    sources = rec_model.arrhenius_sources
     steady = rc.steady_states(model.contents_mass, sources, constant_power(model), model.ua,
-                              model.ambient_temperature, media,
+                              model.ambient_temperature, rec_model.heating_media,
                               conversion=[rc.rate_conversion(s) if s.autocatalytic  # its largest rate from here on
                                           else 1.0 - s.accumulated_fraction if s.specific_heat_of_reaction else 0.0
                                           for s in sources])
     past = bool(steady.unstable is not None and T_start >= steady.unstable) or (steady.stable is None)
-    peak_T, peak_t = rec.peak_temperature, start + rec.peak_time
-    pre = np.asarray(hist.temperature)[t <= start]
-    if pre.size and pre.max() > peak_T:
-        k = int(np.argmax(pre))
-        peak_T, peak_t = float(pre[k]), float(t[t <= start][k])
+    if pre_T > peak_T:
+        peak_T, peak_t = pre_T, pre_t
     result["recovery"] = {"start_s": start, "peak_temperature_K": peak_T, "peak_time_s": peak_t,
                           "limits_reached": reached, "past_no_return": past}
+    if hist is None:
+        return
+    if rec is None:  # the chart from the engine's state at the restart
+        rec = integrate_history(rec_model)
+    t = np.asarray(hist.time)
     times = np.concatenate([t[t <= start], start + np.asarray(rec.time)])
     temps = np.concatenate([np.asarray(hist.temperature)[t <= start], np.asarray(rec.temperature)])
     result["_recovery_history"] = {"time_s": times.tolist(), "temperature_K": temps.tolist()}

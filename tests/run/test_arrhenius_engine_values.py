@@ -91,8 +91,7 @@ def test_engine_values_give_the_single_case_results(monkeypatch):
 
 
 def test_cases_outside_the_engine_keep_the_single_case_integrator():
-    # boiling data (the engine has no boiling) and a recovery path (it needs the history): the single-case
-    # integrator, with its texts
+    # boiling data (the engine has no boiling): the single-case integrator, with its texts
     rng = np.random.default_rng(7)
     data = random_case(rng, 0)
     data["contents"].update(boiling_point="100 degC", latent_heat="2257 kJ/kg")
