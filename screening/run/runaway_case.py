@@ -57,6 +57,9 @@ class ArrheniusValues:
         (:func:`screening.run.daily_cycle.choose_start`), so that the case is screened from that start.
     recovery : RecoveryRun or None
         The recovery path's runs, when cooling is restored within the horizon before the run stopped.
+    boil_time : float or None, [s]
+        Boiling data without tempering credit (a closed vessel, or a gas-generating reaction): the first time
+        the contents reach the boiling point (0 if they start there); None if not reached, or no boiling data.
     """
 
     times: tuple
@@ -71,6 +74,7 @@ class ArrheniusValues:
     adiabatic_times: tuple
     start_info: dict | None = None
     recovery: RecoveryRun | None = None
+    boil_time: float | None = None
 
 
 @dataclass(frozen=True)
@@ -132,7 +136,9 @@ def _adiabatic_model(model: ScreeningModel) -> ScreeningModel:
 def engine_eligible(prepared: PreparedCase) -> bool:
     """Whether the vectorised engine gives this case's numbers (and texts) as the single-case engine would.
 
-    Stirred contents without boiling data (a daily cycle is taken: the engine adds the same forcing with the
+    Stirred contents without tempering credit from boiling (boiling data of a closed vessel, or with a
+    gas-generating reaction, change nothing in the history: the time the boiling point is reached is an extra
+    limit of the run; a daily cycle is taken: the engine adds the same forcing with the
     same 30-minute step limit; fire exposure is a constant input over the horizon in both engines, through
     :func:`screening.core.terms.constant_power`; a recovery path as three runs: to the restart, then from the
     state there with the recovery medium on, :class:`RecoveryRun`), but not a recovery path with a daily
@@ -142,8 +148,10 @@ def engine_eligible(prepared: PreparedCase) -> bool:
     from screening.core.arrhenius import log_arrhenius_rate
     from screening.core.arrhenius_history_batch import LN_RATE_FLOOR, RATE_CAP
 
+    from screening.core.arrhenius_history import takes_tempering_credit
+
     model = prepared.model
-    if (not model.arrhenius_sources or model.mixing != "stirred" or model.boiling is not None
+    if (not model.arrhenius_sources or model.mixing != "stirred" or takes_tempering_credit(model)
             or (prepared.recovery is not None and model.daily_cycle is not None)):
         return False
     ln_cap = math.log(RATE_CAP * model.heat_capacity / model.contents_mass)
@@ -158,13 +166,15 @@ def engine_eligible(prepared: PreparedCase) -> bool:
     return True
 
 
-def _batch_runs(models):
-    """(screen, limit counts, ceilings) of the vectorised engine for models (limits padded with the stop)."""
+def _batch_runs(models, extra=None):
+    """(screen, limit counts, ceilings) of the vectorised engine for models (limits padded with the stop);
+    ``extra``: per model a further temperature whose first crossing is wanted (or None), after the model's
+    limits (the stop temperature is the model's own, as without it)."""
     from screening.core.arrhenius_history_batch import (CEILING_MARGIN, DEFAULT_CEILING,
                                                         first_crossing_times_arrhenius, samples_from_models)
 
     counts = [len(md.limits) for md in models]
-    width = max(counts)
+    width = max(c + (extra is not None and extra[k] is not None) for k, c in enumerate(counts))
     ceilings = []
     padded = []
     for md in models:
@@ -172,8 +182,9 @@ def _batch_runs(models):
         highest = max([lim.temperature for lim in md.limits], default=T0)
         ceiling = max(DEFAULT_CEILING, highest + CEILING_MARGIN, T0 + CEILING_MARGIN)  # as the single-case engine
         ceilings.append(ceiling)
-        pad = tuple(Limit(_PAD, ceiling) for _ in range(width - len(md.limits)))
-        padded.append(dataclasses.replace(md, limits=tuple(md.limits) + pad))
+        more = () if extra is None or extra[len(padded)] is None else (Limit(_PAD, extra[len(padded)]),)
+        pad = tuple(Limit(_PAD, ceiling) for _ in range(width - len(md.limits) - len(more)))
+        padded.append(dataclasses.replace(md, limits=tuple(md.limits) + more + pad))
     if width == 0:
         padded = [dataclasses.replace(md, limits=(Limit(_PAD, c),)) for md, c in zip(padded, ceilings)]
     params, limits, horizon = samples_from_models(padded)
@@ -194,8 +205,9 @@ def arrhenius_values(prepared_cases) -> list:
         return out
     mains = [_run_model(prepared_cases[i]) for i in idx]
     ads = [_adiabatic_model(prepared_cases[i].model) for i in idx]
+    boiling_points = [None if m.boiling is None else m.boiling.boiling_point for m in mains]
     try:
-        res, counts, ceilings = _batch_runs(mains)
+        res, counts, ceilings = _batch_runs(mains, boiling_points)
         ad, ad_counts, _ = _batch_runs(ads)
     except (ValueError, RuntimeError, ArithmeticError):  # inputs out of the engine's range: the single-case engine
         return out
@@ -220,9 +232,12 @@ def arrhenius_values(prepared_cases) -> list:
             rising = net > 1e-12 * (abs(net + loss) + abs(loss))
         conv = tuple(None if s.specific_heat_of_reaction is None else float(res.end_conversion[k, j])
                      for j, s in enumerate(model.arrhenius_sources))
+        boil = None
+        if boiling_points[k] is not None and math.isfinite(res.times[k, counts[k]]):
+            boil = float(res.times[k, counts[k]])
         out[i] = ArrheniusValues(times, float(res.peak_temperature[k]), float(res.peak_time[k]),
                                  not horizon_end, float(ceilings[k]), float(res.end_time[k]), T_end, bool(rising),
-                                 conv, ad_times)
+                                 conv, ad_times, boil_time=boil)
     _recovery_runs(prepared_cases, out)
     return out
 
@@ -318,16 +333,17 @@ def _numbers_of_history(hist) -> _Numbers:
 def _numbers_of_values(model: ScreeningModel, run: ScreeningModel, v: ArrheniusValues) -> _Numbers:
     """The history's numbers and texts from engine values, as :func:`screening.core.arrhenius_history.
     integrate_history` words them for a case :func:`engine_eligible` takes."""
-    from screening.core.arrhenius_history import FIRE_NET_INPUT, LimitCrossing, source_warnings
+    from screening.core.arrhenius_history import FIRE_NET_INPUT, LimitCrossing, boiling_cautions, source_warnings
 
     every, on_times = source_warnings(run)
     if run.fire_sources and run.ua > 0:  # (prepare sets UA to 0 under fire; a model built otherwise is warned)
         on_times.append(FIRE_NET_INPUT)
         every.append(FIRE_NET_INPUT)
     T0 = model_start_temperature(run)
+    above_boiling = boiling_cautions(run)[1]
     crossings = []
-    for lim, t in zip(run.limits, v.times):
-        w = []
+    for i, (lim, t) in enumerate(zip(run.limits, v.times)):
+        w = [above_boiling[i]] if i in above_boiling else []
         if lim.temperature <= T0:
             w.append("Limit at or below the temperature the history starts at: reached at t = 0.")
         if t is not None and t > 0:
@@ -451,7 +467,13 @@ def screen_with_arrhenius(prepared: PreparedCase, values: ArrheniusValues | None
                  "temperature_rise_K": sum(s.power * s.time_constant for s in model.decaying_sources) / C}
 
     boiling = None
-    if model.boiling is not None and hist is not None and hist.boiling is not None:
+    if model.boiling is not None and values is not None:  # no tempering credit (engine_eligible)
+        from screening.core.arrhenius_history import boiling_cautions
+
+        boiling = {"time_to_boil_s": values.boil_time, "peak_boil_off_kg_per_s": None, "boiled_off_kg": None,
+                   "time_to_dry_s": None}
+        warnings.extend(w for w in boiling_cautions(run_model)[0] if w not in warnings)
+    elif model.boiling is not None and hist is not None and hist.boiling is not None:
         b = hist.boiling
         boiled = b.time_to_boil is not None and b.tempering_credited
         boiling = {"time_to_boil_s": b.time_to_boil,

@@ -1,5 +1,5 @@
 """Registers of stirred Arrhenius vessels of further shapes (a daily cycle of the air and the sun, some rows with a
-stated start time of day and some searched for the worst start; fire exposure; a recovery path): each row's results.json item equals
+stated start time of day and some searched for the worst start; fire exposure; a recovery path; boiling data without tempering credit, a closed vessel or a gas-generating decomposition): each row's results.json item equals
 ``heatscreen check --json`` of the same case written out as a file, key by key.
 
 A register chunk chooses the start of day of all its cycle rows in one run of the vectorised engine and runs the
@@ -57,6 +57,18 @@ BASES = {
         "recovery": {"medium_temperature": "20 degC", "ua": "400 W/K"},
         "horizon": "10 d", "response_time": "4 h",
     },
+    "boiling": {
+        "id": "FW-BC", "title": "closed reactor with boiling data", "scenario": "heat-up",
+        "vessel": {"venting": "closed"},
+        "contents": {"mass": "2500 kg", "specific_heat": "1.9 kJ/(kg*K)", "initial_temperature": "50 degC",
+                     "mixing": "stirred", "boiling_point": "110 degC", "latent_heat": "400 kJ/kg"},
+        "heat_loss": {"ambient_temperature": "25 degC", "ua": "15 W/K"},
+        "heat_sources": [SOURCE],
+        "limits": [{"name": "onset", "temperature": "80 degC"}, {"name": "hot", "temperature": "150 degC"}],
+        "detection": {"alarm_temperature": "65 degC"},
+        "recovery": {"medium_temperature": "20 degC", "ua": "400 W/K"},
+        "horizon": "10 d", "response_time": "1 h",
+    },
 }
 HEADERS = {
     "cycle": ["id", "contents.mass [kg]", "heat_loss.ambient_temperature [degC]", "heat_loss.ua [W/K]",
@@ -65,6 +77,9 @@ HEADERS = {
     "fire": ["id", "contents.mass [kg]", "heat_loss.ambient_temperature [degC]",
              "heat_sources.0.specific_power [W/kg]", "heat_sources.0.activation_energy [kJ/mol]",
              "heat_sources.1.wetted_area [m^2]", "heat_sources.1.environment_factor"],
+    "boiling": ["id", "vessel.venting", "contents.mass [kg]", "contents.boiling_point [degC]",
+                "heat_sources.0.specific_power [W/kg]", "heat_sources.0.activation_energy [kJ/mol]",
+                "heat_sources.0.gas_generating", "recovery.ua [W/K]"],
     "recovery": ["id", "contents.mass [kg]", "contents.initial_temperature [degC]",
                  "heat_sources.0.specific_power [W/kg]", "heat_sources.0.activation_energy [kJ/mol]",
                  "detection.alarm_temperature [degC]", "recovery.ua [W/K]", "response_time [h]"],
@@ -81,6 +96,10 @@ def random_rows(shape: str, seed: int, n: int) -> list[list[str]]:
                          f"{rng.uniform(2, 60):.3g}", f"{10 ** rng.uniform(-3, -0.5):.3g}",
                          f"{rng.uniform(90, 160):.4g}", f"{rng.uniform(0, 16):.3g}", f"{rng.uniform(0.2, 0.9):.2g}",
                          start])
+        elif shape == "boiling":
+            rows.append([f"FW-BC{seed}-{i}", str(rng.choice(["open", "closed"])), f"{rng.uniform(200, 5000):.4g}",
+                         f"{rng.uniform(55, 160):.4g}", f"{10 ** rng.uniform(-2, -0.3):.3g}",
+                         f"{rng.uniform(70, 110):.4g}", str(rng.choice(["true", ""])), f"{rng.uniform(20, 3000):.4g}"])
         elif shape == "recovery":
             start = rng.uniform(40, 60)
             rows.append([f"FW-RC{seed}-{i}", f"{rng.uniform(200, 5000):.4g}", f"{start:.3g}",
@@ -131,6 +150,9 @@ def test_random_registers_of_the_shape_equal_check_json_row_by_row(shape, tmp_pa
         assert set(got) - BY_DESIGN == set(want) - BY_DESIGN, row[0]
         for key in set(want) - BY_DESIGN:
             assert got[key] == want[key], (row[0], key)
+    if shape == "boiling":
+        assert any(r["boiling"]["time_to_boil_s"] is not None for r in results)
+        assert {r["boiling"]["time_to_boil_s"] is None for r in results} == {True, False}
     if shape == "recovery":
         assert any(r["recovery"] and r["recovery"]["peak_temperature_K"] is not None for r in results)
     if shape == "cycle":

@@ -59,8 +59,24 @@ def with_recovery(rng, data):
     return data
 
 
-SHAPES = {"cycle": with_cycle, "fire": with_fire, "recovery": with_recovery}
-SEEDS = {"cycle": 31, "fire": 47, "recovery": 59}
+def with_boiling(rng, data):
+    """Boiling data without tempering credit: a closed vessel, or an open one with a gas-generating decomposition
+    (the schema's default for a decomposition)."""
+    venting = str(rng.choice(["open", "closed"]))
+    data["vessel"] = {"venting": venting}
+    start = float(data["contents"]["initial_temperature"].split()[0])
+    low = start + 1.0 if venting == "open" else start - 10.0  # a closed vessel may start superheated (warned)
+    data["contents"].update(boiling_point=f"{rng.uniform(low, 160):.4g} degC",
+                            latent_heat=f"{rng.uniform(200, 2300):.4g} kJ/kg")
+    if venting == "closed" and rng.random() < 0.5:
+        data["heat_sources"][0]["gas_generating"] = False
+    if rng.random() < 0.5:
+        with_recovery(rng, data)
+    return data
+
+
+SHAPES = {"cycle": with_cycle, "fire": with_fire, "recovery": with_recovery, "boiling": with_boiling}
+SEEDS = {"cycle": 31, "fire": 47, "recovery": 59, "boiling": 61}
 N_CASES = 6  # per shape (more were run while developing: see the commit message)
 
 
@@ -139,6 +155,17 @@ def compare_with_flat_peaks(engine, single, temperature_at, recovery_temperature
                 assert _without_times(engine[key]) == _without_times(single[key]), key
                 engine[key] = single[key]
     ra, rb = engine.get("recovery") or {}, single.get("recovery") or {}
+    if ra.get("peak_temperature_K") is not None and rb.get("peak_temperature_K") is not None and \
+            ra["peak_temperature_K"] != pytest.approx(rb["peak_temperature_K"], rel=1e-6):
+        # the single-case path takes the state at the restart by linear interpolation of its sampled history
+        # (samples up to horizon / 400 apart): it may be 1e-6 off where the engine's state is integrated; the
+        # engine's was checked against solve_ivp to 1e-8 (check_recovery_against_reference), the single-case
+        # path's is accepted to 1e-5
+        reference_peak_T = recovery_temperature_at.peak
+        assert reference_peak_T is not None
+        assert ra["peak_temperature_K"] == pytest.approx(reference_peak_T, rel=1e-8)
+        assert rb["peak_temperature_K"] == pytest.approx(reference_peak_T, rel=1e-5)
+        ra = engine["recovery"] = dict(ra, peak_temperature_K=rb["peak_temperature_K"])
     if ra.get("peak_time_s") is not None and rb.get("peak_time_s") is not None:
         a, b = ra["peak_time_s"], rb["peak_time_s"]
         if a != pytest.approx(b, rel=1e-4, abs=1e-9):
@@ -146,6 +173,16 @@ def compare_with_flat_peaks(engine, single, temperature_at, recovery_temperature
                 assert recovery_temperature_at(t) == pytest.approx(ra["peak_temperature_K"], rel=1e-8), (a, b)
             engine["recovery"] = dict(ra, peak_time_s=b)
     compare(engine, single)
+
+
+def settled_at_ambient(prepared):
+    """The reactions are spent and the contents have settled at the ambient to rounding by the horizon: whether
+    they are "still rising" there is decided by rounding (the single-case integrator compares a net power of
+    about 1e-12 W with 1e-12 of powers that are themselves about 0), and with it whether the summary calls the
+    history a runaway. Such a case is compared with solve_ivp only."""
+    v = arrhenius_values([prepared])[0]
+    return (not v.peak_is_ceiling and abs(v.end_temperature - prepared.model.ambient_temperature) < 1e-9
+            and all(x is None or x >= 1.0 - 1e-12 for x in v.final_conversion))
 
 
 def _without_times(text):
@@ -162,11 +199,16 @@ def recovery_reference(model, recovery, start):
 
 def check_recovery_against_reference(model, recovery, block):
     before, after = recovery_reference(model, recovery, block["start_s"])
-    temperature_at = lambda t: float((before if t <= block["start_s"] else after).sol(t)[0])  # noqa: E731
+
+    def temperature_at(t):
+        return float((before if t <= block["start_s"] else after).sol(t)[0])
+
+    temperature_at.peak = None
     if before.status or after.status:
         return temperature_at  # solve_ivp stopped inside a runaway: nothing to compare with
     peak_T, peak_t = max(reference_peak(before), reference_peak(after), key=lambda c: (c[0], -c[1]))
     if block["peak_temperature_K"] < model_ceiling(model) - 1.0:  # (a run to the ceiling stops there)
+        temperature_at.peak = peak_T
         assert block["peak_temperature_K"] == pytest.approx(peak_T, rel=1e-8)
         assert block["peak_time_s"] == pytest.approx(peak_t, rel=1e-4) or \
             temperature_at(block["peak_time_s"]) == pytest.approx(peak_T, rel=1e-8)
@@ -197,7 +239,8 @@ def test_engine_gives_the_single_case_result_and_solve_ivp_numbers(shape, monkey
         if engine.get("recovery") and engine["recovery"]["peak_temperature_K"] is not None:
             recovery_at = check_recovery_against_reference(model, p.recovery, engine["recovery"])
             seen.add("recovery followed")
-        compare_with_flat_peaks(engine, single, lambda t: float(sol.sol(t)[0]), recovery_at)
+        if not settled_at_ambient(choose_start(p)[0]):
+            compare_with_flat_peaks(engine, single, lambda t: float(sol.sol(t)[0]), recovery_at)
         # the engine's limit times and peak against solve_ivp (1e-6 relative, the engines' stated accuracy)
         for row, crossings in zip(engine["limits"], sol.t_events[1:]):
             if row["time_s"] is not None and row["time_s"] > 0 and crossings.size:
@@ -212,15 +255,25 @@ def test_engine_gives_the_single_case_result_and_solve_ivp_numbers(shape, monkey
             assert engine["peak_time_s"] == pytest.approx(peak_t, rel=1e-4) or \
                 float(sol.sol(engine["peak_time_s"])[0]) == pytest.approx(peak_T, rel=1e-8)  # a recurring maximum
         seen.add(engine["stop_reason"])
+        if engine["boiling"] is not None:  # the time to the boiling point against solve_ivp
+            boil = reference(model, [model.boiling.boiling_point])
+            t_boil = engine["boiling"]["time_to_boil_s"]
+            if t_boil is not None and t_boil > 0:
+                assert t_boil == pytest.approx(float(boil.t_events[1][0]), rel=1e-6)
+            elif t_boil is None and boil.status == 0:
+                assert boil.t_events[1].size == 0
+            seen.add("boiling point reached" if t_boil is not None else "boiling point not reached")
     if shape == "fire":
         assert seen == {"ceiling", "horizon"}  # fire cases both run away and stop at the horizon
     if shape == "recovery":
         assert "recovery followed" in seen
+    if shape == "boiling":
+        assert {"boiling point reached", "boiling point not reached"} <= seen
 
 
 @pytest.mark.parametrize("shape", sorted(SHAPES))
 def test_a_group_gives_each_case_its_own_numbers(shape):
-    rng = np.random.default_rng({"cycle": 5, "fire": 6, "recovery": 7}[shape])
+    rng = np.random.default_rng({"cycle": 5, "fire": 6, "recovery": 7, "boiling": 8}[shape])
     cases = [choose_start(prepared_of(SHAPES[shape](rng, random_case(rng, i))))[0] for i in range(6)]
     cases += [prepared_of(random_case(rng, 9))]  # mixed with a case without the shape
     group = arrhenius_values(cases)
