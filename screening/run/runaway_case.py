@@ -391,7 +391,8 @@ def screen_with_arrhenius(prepared: PreparedCase, values: ArrheniusValues | None
     ``values``: the vectorised engine's numbers computed elsewhere (a register's group); for a case the
     engine takes (:func:`engine_eligible`) they are computed here as a group of one. The chart arrays
     (``with_history``) still come from the single-case integrator; every number in the result is the
-    engine's. Other cases (boiling, fire, a daily cycle, recovery, unstirred) use the single-case integrator.
+    engine's. Other cases (tempering credit from boiling, a recovery path with a daily cycle, unstirred
+    contents, a limit where the rate cap could act) use the single-case integrator.
     """
     from screening.core.arrhenius_history import integrate_history
 
