@@ -111,11 +111,40 @@ def run_batch(register_path, out_dir, base_path=None, rules_path=None, memos=Fal
 CHUNK_ROWS = 5000  # at most this many rows per chunk: smaller chunks keep a worker's data in cache
 
 
-def _chunks(n: int, workers: int) -> list[tuple[int, int]]:
+ENGINE_PARALLEL_THRESHOLD = 500  # rows; registers of integrated rows (Arrhenius, conduction) gain from 2 workers from here
+INTEGRATED_KINDS = ("arrhenius", "autocatalytic")
+
+
+def _chunks(n: int, workers: int, integrated: bool = False) -> list[tuple[int, int]]:
+    """Row spans of the chunks: four per worker; one per worker for integrated rows.
+
+    A chunk's integrated rows (Arrhenius sources, conduction) are solved together, and each integration
+    costs a fixed time per step of the batch besides its cost per row: fewer, larger chunks are much
+    cheaper (2,000 drums: 6.6 s of CPU in one chunk, 9.9 s in four).
+    """
     if n == 0:
         return [(0, 0)]
-    size = max(1, min(CHUNK_ROWS, math.ceil(n / max(1, workers * 4))))
+    per_worker = 1 if integrated else 4
+    size = max(1, min(CHUNK_ROWS, math.ceil(n / max(1, workers * per_worker))))
     return [(a, min(n, a + size)) for a in range(0, n, size)]
+
+
+def _integrated_rows(base: dict, register: Register) -> bool:
+    """Whether the register's rows look like integrated ones: the base case or a row's cell names a
+    temperature-dependent source kind, or unstirred contents (a guess used only to size the chunks)."""
+    def named(value) -> bool:
+        text = str(value).strip().lower()
+        return text in INTEGRATED_KINDS or text == "unstirred"
+
+    if isinstance(base, dict):
+        sources = base.get("heat_sources")
+        if isinstance(sources, list) and any(isinstance(s, dict) and named(s.get("kind")) for s in sources):
+            return True
+        contents = base.get("contents")
+        if isinstance(contents, dict) and named(contents.get("mixing")):
+            return True
+    wanted = [c.index for c in register.columns if c.path and c.path[-1] in ("kind", "mixing")]
+    return any(index < len(cells) and named(cells[index]) for index in wanted for cells in register.rows[:1000])
 
 
 def _run_into(register: Register, base: dict, tmp: Path, out: Path, rules_path, memos, allow_case_file, progress,
@@ -140,12 +169,14 @@ def _run_into_body(register: Register, base: dict, tmp: Path, out: Path, rules_p
         memos_dir = tmp / "memos"
         memos_dir.mkdir()
     n = len(register.rows)
+    integrated = cluster is None and not memos and _integrated_rows(base, register)
     if cluster is not None:
         workers = cluster.threads()  # chunks as a local run with as many worker processes would make
     elif workers is None:
-        heavy = (memos and n >= 8) or (isinstance(base.get("uncertainty"), dict) and n >= 20)
+        heavy = ((memos and n >= 8) or (isinstance(base.get("uncertainty"), dict) and n >= 20)
+                 or (integrated and n >= ENGINE_PARALLEL_THRESHOLD))
         workers = min(2, os.cpu_count() or 1) if (n >= PARALLEL_THRESHOLD or heavy) else 1
-    spans = _chunks(n, workers)
+    spans = _chunks(n, workers, integrated)
 
     base_digest = hashlib.sha256(json.dumps(base, sort_keys=True, default=str).encode("utf-8")).hexdigest()
 

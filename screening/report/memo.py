@@ -549,7 +549,8 @@ class _Memo:
             *(self._cycle_pairs(cycle) if cycle is not None else []),
         ]
         pairs += self._peak_and_steady_pairs(steady, cycle is not None)
-        pairs.append((self.L("time_constant"), self.hrs(tau, self.L("adiabatic_no_loss"))))
+        tau_label = self.L("time_constant_lumped") if mixing == "unstirred" and tau is not None else self.L("time_constant")
+        pairs.append((tau_label, self.hrs(tau, self.L("adiabatic_no_loss"))))
         rise = self.num("temperature_rise_K", adiabatic, "adiabatic.temperature_rise_K")
         if rise is not None and rise > 0:  # only where decaying heat gives one (never a 0 K "rise")
             pairs.append((self.L("adiabatic_rise"), self.esc(self.u.rise(rise))))

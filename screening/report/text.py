@@ -183,6 +183,35 @@ def _sadt_lines(r: dict, u: str) -> list[str]:
     return lines
 
 
+def _geometry_and_fire_lines(r: dict) -> list[str]:
+    """The vessel geometry and each fire's heat input, as computed: what a reviewer recomputes first."""
+    lines = []
+    geo = r.get("geometry") if isinstance(r.get("geometry"), dict) else None
+    if geo:
+        parts = []
+        if geo.get("vessel_volume_m3") is not None:
+            parts.append(f"vessel {geo['vessel_volume_m3']:.4g} m³")
+        if geo.get("liquid_volume_m3") is not None:
+            fill = f" (fill {geo['fill_fraction']:.4g})" if geo.get("fill_fraction") is not None else ""
+            parts.append(f"contents {geo['liquid_volume_m3']:.4g} m³{fill}")
+        if geo.get("liquid_height_m") is not None:
+            parts.append(f"fill height {geo['liquid_height_m']:.4g} m")
+        if geo.get("wetted_area_m2") is not None:
+            parts.append(f"wetted area {geo['wetted_area_m2']:.4g} m²")
+        if geo.get("heat_loss_area_m2") is not None:
+            parts.append(f"heat-loss area {geo['heat_loss_area_m2']:.4g} m²")
+        if parts:
+            lines.append(_wrap("Geometry: " + "; ".join(parts), ""))
+    for fire in r.get("fire") or []:
+        if not isinstance(fire, dict) or fire.get("power_W") is None:
+            continue
+        factor = 43.2 if fire.get("drainage_and_firefighting", True) else 70.9
+        lines.append(_wrap(f"Fire heat input {fire['power_W'] / 1e3:.4g} kW = {factor} kW x F {fire['environment_factor']:.3g}"
+                           f" x A^0.82 on a wetted area A of {fire['wetted_area_m2']:.4g} m² (API Standard 521, "
+                           f"{'with' if factor == 43.2 else 'without'} adequate drainage and fire-fighting)", ""))
+    return lines
+
+
 def format_result(r: dict) -> str:
     u = (r.get("units") or {}).get("temperature", "K")
     lines = []
@@ -200,8 +229,11 @@ def format_result(r: dict) -> str:
     if cycle:
         lines.extend(_cycle_lines(r, cycle, u))
     tc = r.get("time_constant_s")
-    lines.append(f"Heat capacity {r['heat_capacity_J_per_K']:.4g} J/K; UA {r['ua_W_per_K']:.4g} W/K; "
-                 f"time constant {duration(tc) if tc is not None else 'none (adiabatic)'}")
+    lumped_only = " (C/UA of a well-mixed mass; the unstirred body is solved by conduction below)" \
+        if r.get("mixing") == "unstirred" and tc is not None else ""
+    lines.append(_wrap(f"Heat capacity {r['heat_capacity_J_per_K']:.4g} J/K; UA {r['ua_W_per_K']:.4g} W/K; "
+                       f"time constant {duration(tc) if tc is not None else 'none (adiabatic)'}{lumped_only}", ""))
+    lines.extend(_geometry_and_fire_lines(r))
     if r.get("scenario"):
         lines.append(f"Scenario: {r['scenario']}" + _roles_text(r))
     basis = r.get("detection_basis")

@@ -275,11 +275,88 @@ def _log_energy_weighted_rate(temperature, sources, conversion):
     return _logsumexp(lq + log_e, axis=0)
 
 
+_SCALAR_SOURCES = 7  # up to this many sources numpy sums a 0-d case's terms in the order _ScalarCurve does
+
+
+class _ScalarCurve:
+    """The generation curve of fixed sources at one temperature at a time, in plain floats.
+
+    Root finding evaluates the curve at one temperature per step; through numpy's 0-d arrays each
+    evaluation costs tens of microseconds, here a few. Every operation is the one the array functions
+    (:func:`_log_specific_powers`, :func:`_logsumexp`, :func:`heat_generation`) perform on a 0-d array, in
+    the same order, so a root found through it is the same to the last bit (tests/core/test_semenov_scalar.py);
+    sources and conversions are checked by the caller.
+    """
+
+    __slots__ = ("log_mass", "terms", "log_energy")
+
+    def __init__(self, mass, sources, conversion):
+        self.log_mass = float(_safe_log(mass))
+        terms = []
+        for s, x in zip(sources, _conversions(sources, conversion)):
+            extra = []
+            if s.order != 0:
+                extra.append(float(s.order * _safe_log(1.0 - x)))
+            if s.autocatalytic:
+                extra.append(math.log(autocatalytic_term(x, s.autocatalytic_order, s.initiation)[0]))
+            terms.append((float(_safe_log(s.specific_power)), s.activation_energy / GAS_CONSTANT,
+                          1.0 / s.reference_temperature, tuple(extra)))
+        self.terms = terms
+        self.log_energy = [float(_safe_log(s.activation_energy)) for s in sources]
+
+    def _log_powers(self, t):
+        inv_t = 1.0 / t
+        out = []
+        for log_q, e_over_r, inv_ref, extra in self.terms:
+            lq = log_q - e_over_r * (inv_t - inv_ref)
+            for term in extra:
+                lq = lq + term
+            out.append(lq)
+        return out
+
+    @staticmethod
+    def _logsumexp(a):
+        if not a:
+            return -math.inf
+        amax = max(a)
+        if not math.isfinite(amax):
+            return -math.inf
+        total = 0.0
+        for v in a:  # numpy sums fewer than 8 terms of a 1-D array one after another from 0.0
+            total += float(np.exp(v - amax))
+        return amax + float(np.log(total))
+
+    def log_slope_part(self, t):
+        """log sum_i q_i(T) E_i (as :func:`_log_energy_weighted_rate`)."""
+        return self._logsumexp([lq + le for lq, le in zip(self._log_powers(t), self.log_energy)])
+
+    def generation(self, t, constant_power):
+        """Q_gen(T), W (as :func:`heat_generation`)."""
+        log_total = self.log_mass + self._logsumexp(self._log_powers(t))
+        return float(constant_power + float(np.exp(min(log_total, _LOG_CAP))))
+
+
+def _scalar_curve(mass, sources, conversion):
+    """The float evaluator of the generation curve (None: more sources than it reproduces bit for bit)."""
+    return _ScalarCurve(mass, sources, conversion) if 0 < len(sources) <= _SCALAR_SOURCES else None
+
+
+_GRIDS: dict = {}
+
+
 def _grid(temperature_range, points=_GRID_POINTS):
+    """The bracketing grid over a range (read-only; the same few ranges are asked for again and again)."""
     lo, hi = (float(v) for v in temperature_range)
     if not (math.isfinite(lo) and math.isfinite(hi) and 0 < lo < hi):
         raise ValueError("temperature_range must be (low, high) with 0 < low < high")
-    return np.geomspace(lo, hi, points)
+    key = (lo, hi, points)
+    grid = _GRIDS.get(key)
+    if grid is None:
+        grid = np.geomspace(lo, hi, points)
+        grid.flags.writeable = False
+        if len(_GRIDS) < 64:
+            _GRIDS[key] = grid
+    return grid
 
 
 def _root(f, a, b):

@@ -21,7 +21,9 @@ from screening.core.model import GAS_CONSTANT, HeatingMedium
 from screening.core.runaway.rates import (
     SEARCH_RANGE,
     WARNING_TRANSIENT_SOURCES,
+    _scalar_curve,
     _check_sources,
+    _conversions,
     _grid,
     _log_energy_weighted_rate,
     _lumped_loss,
@@ -65,13 +67,23 @@ class SteadyStates(NamedTuple):
     unstable: float | None
 
 
+_TANGENCIES: dict = {}  # (mass, sources, G, conversions, range) -> (T or None, status): the same case asks again
+_TANGENCY_CACHE_SIZE = 256
+
+
 def _tangency(mass, sources, conductance, conversion, temperature_range):
     """Lowest T where dQ_gen/dT rises to the loss slope G.
 
     Returns (T or None, status, grid); status in {"found", "none",
-    "below_range", "no_arrhenius"}.
+    "below_range", "no_arrhenius"}. A case's criteria ask for the same tangency several times (critical
+    ambient, steady states, the SADT search's start): the answer is kept for the last few hundred asked.
     """
     grid = _grid(temperature_range)
+    key = (float(mass), tuple(sources), float(conductance), tuple(_conversions(sources, conversion)),
+           tuple(float(v) for v in temperature_range))
+    known = _TANGENCIES.get(key)
+    if known is not None:
+        return known[0], known[1], grid
     log_g = math.log(conductance)
 
     def log_slope(t):
@@ -80,15 +92,27 @@ def _tangency(mass, sources, conductance, conversion, temperature_range):
 
     h = log_slope(grid) - log_g
     if not np.any(np.isfinite(h)):
-        return None, "no_arrhenius", grid
-    if h[0] >= 0:
-        return None, "below_range", grid
-    above = np.flatnonzero(h >= 0)
-    if above.size == 0:
-        return None, "none", grid
-    k = int(above[0])
-    tc = _root(lambda t: float(log_slope(np.asarray(t))) - log_g, grid[k - 1], grid[k])
-    return tc, "found", grid
+        tc, status = None, "no_arrhenius"
+    elif h[0] >= 0:
+        tc, status = None, "below_range"
+    else:
+        above = np.flatnonzero(h >= 0)
+        if above.size == 0:
+            tc, status = None, "none"
+        else:
+            k = int(above[0])
+            curve = _scalar_curve(mass, sources, conversion)
+            if curve is None:
+                tc = _root(lambda t: float(log_slope(np.asarray(t))) - log_g, grid[k - 1], grid[k])
+            else:
+                log_mass, log_r = curve.log_mass, math.log(GAS_CONSTANT)
+                tc = _root(lambda t: log_mass + curve.log_slope_part(t) - log_r - 2.0 * float(np.log(t)) - log_g,
+                           grid[k - 1], grid[k])
+            status = "found"
+    if len(_TANGENCIES) >= _TANGENCY_CACHE_SIZE:
+        _TANGENCIES.pop(next(iter(_TANGENCIES)))
+    _TANGENCIES[key] = (tc, status)
+    return tc, status, grid
 
 
 def semenov_critical_ambient(mass, sources, constant_power, ua,
@@ -187,7 +211,9 @@ def semenov_critical_ambient(mass, sources, constant_power, ua,
     else:
         tc, status, grid = _tangency(mass, sources, conductance, conversion, temperature_range)
         if status == "found":
-            q = heat_generation(tc, mass, sources, constant_power, conversion)
+            curve = _scalar_curve(mass, sources, conversion)
+            q = (heat_generation(tc, mass, sources, constant_power, conversion) if curve is None
+                 else curve.generation(tc, constant_power))
             t_eq = tc - q / conductance
             result = SemenovCritical((conductance * t_eq - media_term) / ua, tc)
         elif status == "no_arrhenius":
@@ -366,13 +392,31 @@ def steady_states(mass, sources, constant_power, ua, ambient,
     if not (math.isfinite(ambient) and ambient > 0):
         raise ValueError("ambient must be finite and > 0 K")
     sources = _check_sources(sources)
+    key = (float(mass), sources, float(constant_power), float(ua), float(ambient), tuple(heating_media),
+           tuple(_conversions(sources, conversion)), tuple(float(v) for v in temperature_range))
+    known = _STEADY_STATES.get(key)
+    if known is None:
+        known = _steady_states_of(mass, sources, constant_power, ua, ambient, heating_media, conversion,
+                                  temperature_range)
+        if len(_STEADY_STATES) >= _TANGENCY_CACHE_SIZE:
+            _STEADY_STATES.pop(next(iter(_STEADY_STATES)))
+        _STEADY_STATES[key] = known
+    result, warnings = known
+    return (result, list(warnings)) if full_output else result
+
+
+_STEADY_STATES: dict = {}  # the same case's criteria ask for the same steady states more than once
+
+
+def _steady_states_of(mass, sources, constant_power, ua, ambient, heating_media, conversion, temperature_range):
+    """(SteadyStates, warnings) of :func:`steady_states` (arguments checked there)."""
     conductance, media_term = _lumped_loss(ua, heating_media)
     warnings: list[str] = [WARNING_TRANSIENT_SOURCES]
     result = SteadyStates(None, None)
 
     def finish(res):
         out_warnings = kinetics_warnings(sources, [res.stable, res.unstable], conversion) + warnings
-        return (res, out_warnings) if full_output else res
+        return res, out_warnings
 
     if conductance == 0:
         warnings.append("No heat loss (UA = 0 and no heating media): no steady "
@@ -381,7 +425,11 @@ def steady_states(mass, sources, constant_power, ua, ambient,
         return finish(result)
     t_eq = (ua * ambient + media_term) / conductance
 
+    curve = _scalar_curve(mass, sources, conversion)
+
     def balance(t):
+        if curve is not None and isinstance(t, float):  # a root-finding step: one temperature
+            return curve.generation(t, constant_power) - conductance * (t - t_eq)
         return (heat_generation(t, mass, sources, constant_power, conversion)
                 - conductance * (np.asarray(t, dtype=float) - t_eq))
 

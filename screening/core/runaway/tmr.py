@@ -27,6 +27,7 @@ from screening.core.runaway.rates import (
     _log_energy_weighted_rate,
     _positive_temperature,
     _root,
+    _scalar_curve,
     _scalar_or_array,
     kinetics_warnings,
 )
@@ -174,7 +175,12 @@ def t_d24(specific_heat, sources, conversion=None, *, target_time=T_D24_TIME,
         raise ValueError("temperature_range must be (low, high) with 0 < low < high")
     grid = np.linspace(lo, hi, max(int((hi - lo) / 2.5) + 1, 3))
 
+    curve = _scalar_curve(1.0, sources, conversion)
+    log_constant = math.log(specific_heat) + math.log(GAS_CONSTANT)
+
     def g(t):
+        if curve is not None:  # a root-finding step, in floats: the same operations as _log_tmr's
+            return log_constant + 2.0 * float(np.log(t)) - curve.log_slope_part(t) - log_target
         return float(_log_tmr(np.asarray(t, dtype=float), specific_heat, sources,
                               conversion)) - log_target
 
