@@ -95,6 +95,9 @@ MAX_STEPS = 200_000
 MAX_PHASES = 200
 #: Evenly spaced sample times over the horizon (added to the solver's steps).
 N_GRID = 401
+#: The caution on a time to a limit under fire when heat loss to ambient is also credited.
+FIRE_NET_INPUT = ("Fire heat input is a net value for the exposed surface: the ambient heat-loss credit UA must not "
+                  "include the fire-exposed surface (not conservative if it does).")
 CYCLE_MAX_STEP = 1800.0  # s, the longest solver step with a daily cycle (sunrise and sunset are kinks of the forcing)
 
 
@@ -705,6 +708,44 @@ def _source_warnings(model: ScreeningModel) -> tuple[list[str], list[str]]:
     return out + on_times, on_times
 
 
+def takes_tempering_credit(model: ScreeningModel) -> bool:
+    """Boiling holds the temperature at the boiling point: open venting and no gas-generating reaction."""
+    return (model.boiling is not None and model.boiling.venting == "open"
+            and not any(s.gas_generating for s in model.arrhenius_sources))
+
+
+def boiling_cautions(model: ScreeningModel) -> tuple[list[str], dict[int, str]]:
+    """The cautions :func:`integrate_history` gives on boiling data before integrating: (those of the boiling
+    summary, {index of a limit above the boiling point: its caution} without tempering credit)."""
+    boil = model.boiling
+    out: list[str] = []
+    above: dict[int, str] = {}
+    if boil is None:
+        return out, above
+    gas = any(s.gas_generating for s in model.arrhenius_sources)
+    out.append("Vent and relief sizing are out of scope: boiling credit assumes the vapour leaves "
+               "freely at the pressure the boiling point refers to.")
+    out.append("A mixture's boiling point climbs as the light component leaves; boiling credit "
+               "is not conservative for mixtures.")
+    if boil.venting == "closed":
+        out.append("Closed vessel: no tempering credit; temperature and pressure keep rising; "
+                   "the tool does not model pressure.")
+    if gas:
+        out.append("A gas-generating reaction is not tempered by boiling (permanent gas keeps "
+                   "pressurising the vessel): no tempering credit; integrated straight through "
+                   "the boiling point.")
+    if takes_tempering_credit(model):
+        out.append("Tempering credit taken: the temperature is held at the boiling point while the "
+                   "net heat input is positive. Heat generation of the Arrhenius sources is taken "
+                   "on the initial contents mass throughout (conservative for boil-off).")
+    else:
+        for i, lim in enumerate(model.limits):
+            if lim.temperature > boil.boiling_point:
+                above[i] = ("Limit above the boiling point with no tempering credit: the "
+                            "contents are pressurised; latent heat is not counted.")
+    return out, above
+
+
 def source_warnings(model: ScreeningModel) -> tuple[list[str], list[str]]:
     """The cautions :func:`integrate_history` gives on a model's Arrhenius data: (all of them, those that
     also go with every time to a limit reached after t = 0); for engine values computed elsewhere."""
@@ -865,9 +906,7 @@ def _integrate(model: ScreeningModel, stop_temperature: float | None) -> Numeric
 
     warnings, time_warnings = _source_warnings(model)
     if model.fire_sources and model.ua > 0:
-        time_warnings.append("Fire heat input is a net value for the exposed surface: the ambient heat-loss "
-                             "credit UA must not include the fire-exposed surface (not conservative if it "
-                             "does).")
+        time_warnings.append(FIRE_NET_INPUT)
         warnings.append(time_warnings[-1])
     if model.mixing == "unstirred":
         time_warnings.append("Contents are unstirred: the lumped (well-mixed) history understates the "
@@ -878,32 +917,13 @@ def _integrate(model: ScreeningModel, stop_temperature: float | None) -> Numeric
 
     # ---- boiling set-up
     boil = model.boiling
-    gas = any(s.gas_generating for s in model.arrhenius_sources)
-    tempering = boil is not None and boil.venting == "open" and not gas
-    boil_warn = []
+    tempering = takes_tempering_credit(model)
+    boil_warn, above = boiling_cautions(model)
     if boil is not None:
         bal.boiling_point = float(boil.boiling_point)
         bal.latent = float(boil.latent_heat)
-        boil_warn.append("Vent and relief sizing are out of scope: boiling credit assumes the vapour leaves "
-                         "freely at the pressure the boiling point refers to.")
-        boil_warn.append("A mixture's boiling point climbs as the light component leaves; boiling credit "
-                         "is not conservative for mixtures.")
-        if boil.venting == "closed":
-            boil_warn.append("Closed vessel: no tempering credit; temperature and pressure keep rising; "
-                             "the tool does not model pressure.")
-        if gas:
-            boil_warn.append("A gas-generating reaction is not tempered by boiling (permanent gas keeps "
-                             "pressurising the vessel): no tempering credit; integrated straight through "
-                             "the boiling point.")
-        if tempering:
-            boil_warn.append("Tempering credit taken: the temperature is held at the boiling point while the "
-                             "net heat input is positive. Heat generation of the Arrhenius sources is taken "
-                             "on the initial contents mass throughout (conservative for boil-off).")
-        else:
-            for i, lim in enumerate(limits):
-                if lim.temperature > boil.boiling_point:
-                    limit_warn[i].append("Limit above the boiling point with no tempering credit: the "
-                                         "contents are pressurised; latent heat is not counted.")
+        for i, w in above.items():
+            limit_warn[i].append(w)
 
     # ---- initial state
     z = np.zeros(bal.n)

@@ -1,6 +1,7 @@
 """Screen one chunk of register rows (in a worker process or in the parent)."""
 from __future__ import annotations
 
+import dataclasses
 import hashlib
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -19,6 +20,7 @@ from screening.report.memo import write_memo
 from screening.report.register_summary import summarise_register_results
 from screening.report.templates import load_templates
 from screening.result import memo_view, public_result
+from screening.run.daily_cycle import choose_starts
 from screening.run.runaway_case import arrhenius_values
 from screening.run.sadt_case import sadt_searches as storage_sadt_searches
 from screening.run.conduction_case import conduction_solutions
@@ -255,7 +257,7 @@ def _compute_chunk(task: ChunkTask) -> ChunkResult:
     # the main and adiabatic runs of every row with Arrhenius sources the vectorised engine takes, together
     arr_rows = _rows_one_by_one(task, lambda p: bool(p.model.arrhenius_sources))
     try:
-        arr_values = dict(zip(arr_rows, arrhenius_values([prepared_all[i][0] for i in arr_rows])))
+        arr_values = dict(zip(arr_rows, _arrhenius_row_values([prepared_all[i][0] for i in arr_rows])))
     except Exception:  # noqa: BLE001 - each row then runs the single-case engine, and reports its own problem
         arr_values = {}
     conduction = _conduction_solutions(task)
@@ -293,6 +295,20 @@ def _compute_chunk(task: ChunkTask) -> ChunkResult:
             continue
         screened.append((outcome, public))
     return _chunk_outputs(task, outcomes, screened, memos)
+
+
+def _arrhenius_row_values(prepared_cases) -> list:
+    """The vectorised engine's runs of rows with Arrhenius sources, all rows together: a row with a daily cycle
+    first gets its start time of day (the hourly starts of every such row in one run, as ``check`` chooses
+    it), and its values carry that start."""
+    cycled = [i for i, p in enumerate(prepared_cases) if p.model.daily_cycle is not None]
+    chosen = dict(zip(cycled, choose_starts([prepared_cases[i] for i in cycled])))
+    cases = [chosen[i][0] if i in chosen else p for i, p in enumerate(prepared_cases)]
+    out = arrhenius_values(cases)
+    for i in cycled:
+        if out[i] is not None:
+            out[i] = dataclasses.replace(out[i], start_info=chosen[i][1])
+    return out
 
 
 def _rows_one_by_one(task: ChunkTask, keep) -> list[int]:

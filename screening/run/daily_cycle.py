@@ -42,16 +42,48 @@ def _severity(prepared: PreparedCase) -> tuple:
 def _arrhenius_severities(prepared: PreparedCase, starts) -> list[tuple]:
     """Sort keys of every start: all starts at once through the vectorised Rosenbrock integrator (with the
     forcing), or one integration each when that engine does not take the case (boiling credit)."""
-    from screening.core.arrhenius_history_batch import first_crossing_times_arrhenius, samples_from_models
+    return _arrhenius_severities_of([prepared], starts)[0]
 
-    models = [with_start(prepared, start).model for start in starts]
-    try:
+
+def _arrhenius_severities_of(cases, starts) -> list[list[tuple]]:
+    """:func:`_arrhenius_severities` of several cases: every start of every case the vectorised engine takes in
+    one run (each sample's numbers do not depend on the others, so a case's keys are those of the case alone:
+    its own limits, its default stop temperature; limits padded with the stop, whose times are not read)."""
+    from screening.core.arrhenius_history_batch import (CEILING_MARGIN, DEFAULT_CEILING,
+                                                        first_crossing_times_arrhenius, samples_from_models)
+    from screening.core.model import Limit
+    from screening.core.terms import model_start_temperature
+
+    out: list = [None] * len(cases)
+    models, owners, stops, counts = [], [], [], []
+    for i, prepared in enumerate(cases):
+        group = [with_start(prepared, start).model for start in starts]
+        try:
+            samples_from_models(group[:1])
+        except ValueError:  # boiling credit: one integration each
+            out[i] = [_severity(with_start(prepared, start)) for start in starts]
+            continue
+        md = group[0]
+        T0 = model_start_temperature(md)
+        stop = max(DEFAULT_CEILING, max([lim.temperature for lim in md.limits], default=T0) + CEILING_MARGIN,
+                   T0 + CEILING_MARGIN)
+        models += group
+        owners += [i] * len(group)
+        stops += [stop] * len(group)
+        counts += [len(md.limits)] * len(group)
+    if models:
+        width = max(max(counts), 1)
+        models = [dataclasses.replace(md, limits=tuple(md.limits) + tuple(Limit("pad", s) for _ in range(width - c)))
+                  for md, s, c in zip(models, stops, counts)]
         params, limits, horizon = samples_from_models(models)
-    except ValueError:
-        return [_severity(with_start(prepared, start)) for start in starts]
-    screen = first_crossing_times_arrhenius(params, limits, horizon)
-    first = np.where(np.isnan(screen.times), np.inf, screen.times).min(axis=1)
-    return [(float(t), -float(p)) for t, p in zip(first, screen.peak_temperature)]
+        screen = first_crossing_times_arrhenius(params, limits, horizon, stop_temperature=stops)
+        for k, (i, c) in enumerate(zip(owners, counts)):
+            times = screen.times[k, :c]
+            first = float(np.where(np.isnan(times), np.inf, times).min()) if c else math.inf
+            if out[i] is None:
+                out[i] = []
+            out[i].append((first, -float(screen.peak_temperature[k])))
+    return out
 
 
 def _closed_form_severities(prepared: PreparedCase, starts) -> list[tuple]:
@@ -95,6 +127,23 @@ def choose_start(prepared: PreparedCase) -> tuple[PreparedCase, dict | None]:
         keys = _closed_form_severities(prepared, HOURLY_STARTS)
     _, start = min(zip(keys, HOURLY_STARTS))
     return with_start(prepared, start), {"start_time_of_day_s": start, "basis": BASIS_WORST}
+
+
+def choose_starts(cases) -> list[tuple[PreparedCase, dict | None]]:
+    """:func:`choose_start` of several cases (a register chunk's rows): the hourly starts of every case with
+    Arrhenius sources in one run of the vectorised engine; the same starts as each case alone."""
+    cases = list(cases)
+    out: list = [None] * len(cases)
+    search = [i for i, p in enumerate(cases) if p.model.daily_cycle is not None and p.spec.start_time_of_day is None
+              and p.model.arrhenius_sources]
+    keys = dict(zip(search, _arrhenius_severities_of([cases[i] for i in search], HOURLY_STARTS))) if search else {}
+    for i, prepared in enumerate(cases):
+        if i in keys:
+            _, start = min(zip(keys[i], HOURLY_STARTS))
+            out[i] = (with_start(prepared, start), {"start_time_of_day_s": start, "basis": BASIS_WORST})
+        else:
+            out[i] = choose_start(prepared)
+    return out
 
 
 def periodic_peak(model, balance) -> float:

@@ -15,10 +15,11 @@ import numpy as np
 from screening.case.display import temp
 from screening.case.prepare import PreparedCase
 from screening.core import runaway as rc
-from screening.core.daily_cycle import mean_rise
+from screening.core.daily_cycle import cycle_forcing, mean_rise
 from screening.core.model import GAS_CONSTANT, HeatingMedium, Limit, ScreeningModel
 from screening.core.terms import conductance_and_drive, constant_power, model_start_temperature, model_terms
-from screening.run.recovery import detection_and_recovery
+from screening.run.recovery import detection_and_recovery, detection_time
+from screening.run.warnings import detection_basis
 from screening.run.scenario_criteria import (
     HistoryFacts,
     heat_balance_curves,
@@ -51,6 +52,14 @@ class ArrheniusValues:
         Per source at the end; None without a heat of reaction.
     adiabatic_times : tuple of (float or None), [s]
         The case's limits without heat loss (UA = 0).
+    start_info : dict or None
+        With a daily cycle: the start time of day the runs were made with and how it was chosen
+        (:func:`screening.run.daily_cycle.choose_start`), so that the case is screened from that start.
+    recovery : RecoveryRun or None
+        The recovery path's runs, when cooling is restored within the horizon before the run stopped.
+    boil_time : float or None, [s]
+        Boiling data without tempering credit (a closed vessel, or a gas-generating reaction): the first time
+        the contents reach the boiling point (0 if they start there); None if not reached, or no boiling data.
     """
 
     times: tuple
@@ -63,6 +72,37 @@ class ArrheniusValues:
     rising_at_end: bool
     final_conversion: tuple
     adiabatic_times: tuple
+    start_info: dict | None = None
+    recovery: RecoveryRun | None = None
+    boil_time: float | None = None
+
+
+@dataclass(frozen=True)
+class RecoveryRun:
+    """The vectorised engine's runs of a recovery path (cooling restored at ``start``).
+
+    Attributes
+    ----------
+    start : float, [s]
+        Detection + response.
+    temperature, conversion : float [K] and tuple of (float or None)
+        The state at ``start`` (a run of the main model to ``start``); conversion None without a heat of reaction.
+    pre_peak_temperature, pre_peak_time : float, [K] and [s]
+        Highest temperature before ``start`` and when.
+    times : tuple of (float or None), [s]
+        First time each limit of the case is reached after ``start`` (counted from ``start``).
+    peak_temperature, peak_time : float, [K] and [s]
+        Highest temperature after ``start`` (time counted from ``start``); the stop temperature of a runaway.
+    """
+
+    start: float
+    temperature: float
+    conversion: tuple
+    pre_peak_temperature: float
+    pre_peak_time: float
+    times: tuple
+    peak_temperature: float
+    peak_time: float
 
 
 @dataclass(frozen=True)
@@ -96,16 +136,26 @@ def _adiabatic_model(model: ScreeningModel) -> ScreeningModel:
 def engine_eligible(prepared: PreparedCase) -> bool:
     """Whether the vectorised engine gives this case's numbers (and texts) as the single-case engine would.
 
-    Contents without boiling data, daily cycle, fire or recovery path (unstirred contents too: the values are
-    then those of the lumped comparison, kept under ``lumped``); and no limit where the
-    single-case engine's rate cap (m q / C <= 1e9 K/s) could act (its warning is not reproduced).
+    Stirred contents without tempering credit from boiling (boiling data of a closed vessel, or with a
+    gas-generating reaction, change nothing in the history: the time the boiling point is reached is an extra
+    limit of the run; a daily cycle is taken: the engine adds the same forcing with the
+    same 30-minute step limit; fire exposure is a constant input over the horizon in both engines, through
+    :func:`screening.core.terms.constant_power`; a recovery path as three runs: to the restart, then from the
+    state there with the recovery medium on, :class:`RecoveryRun`), but not a recovery path with a daily
+    cycle; unstirred contents without boiling data, daily cycle, fire or recovery (the values are then those
+    of the lumped comparison, kept under ``lumped``); and no limit where the single-case engine's rate cap
+    (m q / C <= 1e9 K/s) could act (its warning is not reproduced).
     """
     from screening.core.arrhenius import log_arrhenius_rate
     from screening.core.arrhenius_history_batch import LN_RATE_FLOOR, RATE_CAP
 
+    from screening.core.arrhenius_history import takes_tempering_credit
+
     model = prepared.model
-    if (not model.arrhenius_sources or model.boiling is not None
-            or model.daily_cycle is not None or model.fire_sources or prepared.recovery is not None):
+    unstirred_extra = model.mixing != "stirred" and (model.boiling is not None or model.daily_cycle is not None
+                                                      or model.fire_sources or prepared.recovery is not None)
+    if (not model.arrhenius_sources or unstirred_extra or takes_tempering_credit(model)
+            or (prepared.recovery is not None and model.daily_cycle is not None)):
         return False
     ln_cap = math.log(RATE_CAP * model.heat_capacity / model.contents_mass)
     for lim in _run_model(prepared).limits:
@@ -119,13 +169,15 @@ def engine_eligible(prepared: PreparedCase) -> bool:
     return True
 
 
-def _batch_runs(models):
-    """(screen, limit counts, ceilings) of the vectorised engine for models (limits padded with the stop)."""
+def _batch_runs(models, extra=None):
+    """(screen, limit counts, ceilings) of the vectorised engine for models (limits padded with the stop);
+    ``extra``: per model a further temperature whose first crossing is wanted (or None), after the model's
+    limits (the stop temperature is the model's own, as without it)."""
     from screening.core.arrhenius_history_batch import (CEILING_MARGIN, DEFAULT_CEILING,
                                                         first_crossing_times_arrhenius, samples_from_models)
 
     counts = [len(md.limits) for md in models]
-    width = max(counts)
+    width = max(c + (extra is not None and extra[k] is not None) for k, c in enumerate(counts))
     ceilings = []
     padded = []
     for md in models:
@@ -133,8 +185,9 @@ def _batch_runs(models):
         highest = max([lim.temperature for lim in md.limits], default=T0)
         ceiling = max(DEFAULT_CEILING, highest + CEILING_MARGIN, T0 + CEILING_MARGIN)  # as the single-case engine
         ceilings.append(ceiling)
-        pad = tuple(Limit(_PAD, ceiling) for _ in range(width - len(md.limits)))
-        padded.append(dataclasses.replace(md, limits=tuple(md.limits) + pad))
+        more = () if extra is None or extra[len(padded)] is None else (Limit(_PAD, extra[len(padded)]),)
+        pad = tuple(Limit(_PAD, ceiling) for _ in range(width - len(md.limits) - len(more)))
+        padded.append(dataclasses.replace(md, limits=tuple(md.limits) + more + pad))
     if width == 0:
         padded = [dataclasses.replace(md, limits=(Limit(_PAD, c),)) for md, c in zip(padded, ceilings)]
     params, limits, horizon = samples_from_models(padded)
@@ -155,8 +208,9 @@ def arrhenius_values(prepared_cases) -> list:
         return out
     mains = [_run_model(prepared_cases[i]) for i in idx]
     ads = [_adiabatic_model(prepared_cases[i].model) for i in idx]
+    boiling_points = [None if m.boiling is None else m.boiling.boiling_point for m in mains]
     try:
-        res, counts, ceilings = _batch_runs(mains)
+        res, counts, ceilings = _batch_runs(mains, boiling_points)
         ad, ad_counts, _ = _batch_runs(ads)
     except (ValueError, RuntimeError, ArithmeticError):  # inputs out of the engine's range: the single-case engine
         return out
@@ -175,13 +229,102 @@ def arrhenius_values(prepared_cases) -> list:
                                              [h.medium_temperature for h in model.heating_media])
             net = model.heat_capacity * float(res.end_rate[k])
             loss = float(g) * T_end - float(drive)
+            forcing = cycle_forcing(model.daily_cycle, model.ua)
+            if forcing is not None:  # the loss to the effective ambient, as the single-case engine counts it
+                loss -= float(forcing.power(float(res.end_time[k])))
             rising = net > 1e-12 * (abs(net + loss) + abs(loss))
         conv = tuple(None if s.specific_heat_of_reaction is None else float(res.end_conversion[k, j])
                      for j, s in enumerate(model.arrhenius_sources))
+        boil = None
+        if boiling_points[k] is not None and math.isfinite(res.times[k, counts[k]]):
+            boil = float(res.times[k, counts[k]])
         out[i] = ArrheniusValues(times, float(res.peak_temperature[k]), float(res.peak_time[k]),
                                  not horizon_end, float(ceilings[k]), float(res.end_time[k]), T_end, bool(rising),
-                                 conv, ad_times)
+                                 conv, ad_times, boil_time=boil)
+    _recovery_runs(prepared_cases, out)
     return out
+
+
+def _recovery_start(prepared: PreparedCase, values: ArrheniusValues) -> float | None:
+    """When cooling is restored (detection + response), s, if the engine follows the path from there: within the
+    horizon and before the main run stopped; else None (the path is written from the main run alone)."""
+    if prepared.recovery is None or prepared.response_time is None:
+        return None
+    alarm = values.times[-1] if prepared.detection_alarm is not None else None
+    detection = detection_time(detection_basis(prepared)[0], prepared.detection_delay, alarm)
+    if detection is None:
+        return None
+    start = detection + prepared.response_time
+    if start >= prepared.model.horizon or values.stop_time < start:
+        return None
+    return start
+
+
+def _recovery_runs(prepared_cases, out) -> None:
+    """Add the recovery path's runs (:class:`RecoveryRun`) to the values of every case that has one: a run of each
+    main model to its restart, then one from the state there with the recovery medium on; a case whose runs do
+    not end as they should loses its values (the single-case engine then screens it)."""
+    from screening.core.arrhenius_history_batch import STATUS_FAILED, STATUS_HORIZON
+
+    starts = {}
+    for i, (p, v) in enumerate(zip(prepared_cases, out)):
+        if v is not None:
+            start = _recovery_start(p, v)
+            if start is not None:
+                starts[i] = start
+    if not starts:
+        return
+    idx = list(starts)
+    try:
+        pre, pre_counts, _ = _batch_runs([dataclasses.replace(_run_model(prepared_cases[i]), horizon=starts[i])
+                                          for i in idx])
+    except (ValueError, RuntimeError, ArithmeticError):
+        for i in idx:
+            out[i] = None
+        return
+    states = {}
+    for k, i in enumerate(idx):
+        if pre.status[k] != STATUS_HORIZON:
+            out[i] = None
+            continue
+        model = prepared_cases[i].model
+        X = tuple(None if s.specific_heat_of_reaction is None else float(pre.end_conversion[k, j])
+                  for j, s in enumerate(model.arrhenius_sources))
+        states[i] = (float(pre.end_temperature[k]), X, float(pre.peak_temperature[k]), float(pre.peak_time[k]))
+    idx = list(states)
+    if not idx:
+        return
+    recs = [_recovery_model(prepared_cases[i], starts[i], states[i][0], states[i][1]) for i in idx]
+    try:
+        rec, counts, _ = _batch_runs(recs)
+    except (ValueError, RuntimeError, ArithmeticError):
+        for i in idx:
+            out[i] = None
+        return
+    for k, i in enumerate(idx):
+        if rec.status[k] == STATUS_FAILED:
+            out[i] = None
+            continue
+        T_start, X, pre_T, pre_t = states[i]
+        times = tuple(None if not math.isfinite(t) else float(t) for t in rec.times[k, :counts[k]])
+        out[i] = dataclasses.replace(out[i], recovery=RecoveryRun(
+            starts[i], T_start, X, pre_T, pre_t, times, float(rec.peak_temperature[k]), float(rec.peak_time[k])))
+
+
+def _recovery_model(prepared: PreparedCase, start: float, T_start: float, X_start) -> ScreeningModel:
+    """The model from the restart of cooling: the state at ``start`` (temperature, conversions; None for a source
+    without a heat of reaction), decaying sources decayed, the recovery medium added, the rest of the horizon."""
+    model = prepared.model
+    tm, ua_r = prepared.recovery
+    sources = tuple(dataclasses.replace(s, accumulated_fraction=max(1e-12, 1.0 - X_start[j]))
+                    if s.specific_heat_of_reaction is not None else s
+                    for j, s in enumerate(model.arrhenius_sources))
+    decaying = tuple(dataclasses.replace(s, power=s.power * math.exp(-start / s.time_constant))
+                     for s in model.decaying_sources)
+    media = model.heating_media + (HeatingMedium(tm, ua_r),)
+    return dataclasses.replace(model, initial_temperature=T_start, horizon=model.horizon - start,
+                               arrhenius_sources=sources, decaying_sources=decaying, heating_media=media,
+                               released_at_start=())
 
 
 def _numbers_of_history(hist) -> _Numbers:
@@ -193,13 +336,17 @@ def _numbers_of_history(hist) -> _Numbers:
 def _numbers_of_values(model: ScreeningModel, run: ScreeningModel, v: ArrheniusValues) -> _Numbers:
     """The history's numbers and texts from engine values, as :func:`screening.core.arrhenius_history.
     integrate_history` words them for a case :func:`engine_eligible` takes."""
-    from screening.core.arrhenius_history import LimitCrossing, source_warnings
+    from screening.core.arrhenius_history import FIRE_NET_INPUT, LimitCrossing, boiling_cautions, source_warnings
 
     every, on_times = source_warnings(run)
+    if run.fire_sources and run.ua > 0:  # (prepare sets UA to 0 under fire; a model built otherwise is warned)
+        on_times.append(FIRE_NET_INPUT)
+        every.append(FIRE_NET_INPUT)
     T0 = model_start_temperature(run)
+    above_boiling = boiling_cautions(run)[1]
     crossings = []
-    for lim, t in zip(run.limits, v.times):
-        w = []
+    for i, (lim, t) in enumerate(zip(run.limits, v.times)):
+        w = [above_boiling[i]] if i in above_boiling else []
         if lim.temperature <= T0:
             w.append("Limit at or below the temperature the history starts at: reached at t = 0.")
         if t is not None and t > 0:
@@ -247,7 +394,8 @@ def screen_with_arrhenius(prepared: PreparedCase, values: ArrheniusValues | None
     ``values``: the vectorised engine's numbers computed elsewhere (a register's group); for a case the
     engine takes (:func:`engine_eligible`) they are computed here as a group of one. The chart arrays
     (``with_history``) still come from the single-case integrator; every number in the result is the
-    engine's. Other cases (boiling, fire, a daily cycle, recovery, unstirred) use the single-case integrator.
+    engine's. Other cases (tempering credit from boiling, a recovery path with a daily cycle, unstirred
+    contents, a limit where the rate cap could act) use the single-case integrator.
     """
     from screening.core.arrhenius_history import integrate_history
 
@@ -323,7 +471,13 @@ def screen_with_arrhenius(prepared: PreparedCase, values: ArrheniusValues | None
                  "temperature_rise_K": sum(s.power * s.time_constant for s in model.decaying_sources) / C}
 
     boiling = None
-    if model.boiling is not None and hist is not None and hist.boiling is not None:
+    if model.boiling is not None and values is not None:  # no tempering credit (engine_eligible)
+        from screening.core.arrhenius_history import boiling_cautions
+
+        boiling = {"time_to_boil_s": values.boil_time, "peak_boil_off_kg_per_s": None, "boiled_off_kg": None,
+                   "time_to_dry_s": None}
+        warnings.extend(w for w in boiling_cautions(run_model)[0] if w not in warnings)
+    elif model.boiling is not None and hist is not None and hist.boiling is not None:
         b = hist.boiling
         boiled = b.time_to_boil is not None and b.tempering_credited
         boiling = {"time_to_boil_s": b.time_to_boil,
@@ -349,8 +503,9 @@ def screen_with_arrhenius(prepared: PreparedCase, values: ArrheniusValues | None
         result["no_return_temperature_K"] = no_return if model.mixing == "stirred" else None
     alarm_time = _alarm_time(nums)
     detection_and_recovery(prepared, result, alarm_time=alarm_time)
+    if hist is not None or values is not None:
+        _arrhenius_recovery(prepared, result, hist, values)
     if hist is not None:
-        _arrhenius_recovery(prepared, result, hist)
         result["_history"] = {"time_s": np.asarray(hist.time).tolist(),
                               "temperature_K": np.asarray(hist.temperature).tolist(),
                               "generation_W": np.asarray(hist.heat_generation).tolist(),
@@ -411,8 +566,10 @@ def _steady_state_statements(model, hist, steady, runs_away, T0, unit, warnings)
                             f"with more accumulation, or an autocatalytic reaction, it would run away.")
 
 
-def _arrhenius_recovery(prepared: PreparedCase, result: dict, hist) -> None:
-    """Restore cooling at detection + response for an Arrhenius case and follow the path."""
+def _arrhenius_recovery(prepared: PreparedCase, result: dict, hist, values: ArrheniusValues | None = None) -> None:
+    """Restore cooling at detection + response for an Arrhenius case and follow the path: from the engine's
+    runs (``values.recovery``) when there are values, else from the single-case history; the chart
+    (``_recovery_history``) from the single-case integrator when there is a history."""
     from screening.core.arrhenius_history import integrate_history
 
     model = prepared.model
@@ -420,45 +577,54 @@ def _arrhenius_recovery(prepared: PreparedCase, result: dict, hist) -> None:
         return
     start = result["detection_time_s"] + prepared.response_time
     H = model.horizon
-    tm, ua_r = prepared.recovery
     reached_before = [r["name"] for r in result["limits"] if r["time_s"] is not None and r["time_s"] <= start]
-    if start >= H or hist.stop_time < start:
+    stop_time, ceiling_stop = ((values.stop_time, values.peak_is_ceiling) if values is not None
+                               else (hist.stop_time, hist.peak_is_ceiling))
+    if start >= H or stop_time < start:
         result["recovery"] = {"start_s": start, "peak_temperature_K": None, "peak_time_s": None,
                               "limits_reached": [r["name"] for r in result["limits"] if r["reached"]],
-                              "past_no_return": True if hist.stop_time < start and hist.peak_is_ceiling else None}
+                              "past_no_return": True if stop_time < start and ceiling_stop else None}
         return
-    t = np.asarray(hist.time)
-    T_start = float(np.interp(start, t, np.asarray(hist.temperature)))
-    conv = np.atleast_2d(np.asarray(hist.conversion, dtype=float))
-    if conv.shape[0] != len(t) and conv.shape[-1] == len(t):
-        conv = conv.T
-    X_start = [float(np.interp(start, t, conv[:, j])) if conv.size else 0.0 for j in range(len(model.arrhenius_sources))]
-    sources = tuple(dataclasses.replace(s, accumulated_fraction=max(1e-12, 1.0 - X_start[j]))
-                    if s.specific_heat_of_reaction is not None else s
-                    for j, s in enumerate(model.arrhenius_sources))
-    decaying = tuple(dataclasses.replace(s, power=s.power * math.exp(-start / s.time_constant))
-                     for s in model.decaying_sources)
-    media = model.heating_media + (HeatingMedium(tm, ua_r),)
-    rec_model = dataclasses.replace(model, initial_temperature=T_start, horizon=H - start, arrhenius_sources=sources,
-                                    decaying_sources=decaying, heating_media=media, released_at_start=())
-    rec = integrate_history(rec_model)
+    rec = None
+    if values is not None:
+        run = values.recovery
+        T_start, X_start = run.temperature, run.conversion
+        pre_T, pre_t = run.pre_peak_temperature, run.pre_peak_time
+        rec_times, peak_T, peak_t = run.times, run.peak_temperature, start + run.peak_time
+    else:
+        t = np.asarray(hist.time)
+        T_start = float(np.interp(start, t, np.asarray(hist.temperature)))
+        conv = np.atleast_2d(np.asarray(hist.conversion, dtype=float))
+        if conv.shape[0] != len(t) and conv.shape[-1] == len(t):
+            conv = conv.T
+        X_start = [float(np.interp(start, t, conv[:, j])) if conv.size else 0.0
+                   for j in range(len(model.arrhenius_sources))]
+        rec = integrate_history(_recovery_model(prepared, start, T_start, X_start))
+        rec_times, peak_T, peak_t = [c.time for c in rec.limits], rec.peak_temperature, start + rec.peak_time
+        pre = np.asarray(hist.temperature)[t <= start]
+        k = int(np.argmax(pre)) if pre.size else 0
+        pre_T, pre_t = (float(pre[k]), float(t[t <= start][k])) if pre.size else (-math.inf, 0.0)
+    rec_model = _recovery_model(prepared, start, T_start, X_start)
     reached = list(reached_before)
-    for c in rec.limits:
-        if c.time is not None and c.name not in reached:
-            reached.append(c.name)
+    for lim, time in zip(model.limits, rec_times):
+        if time is not None and lim.name not in reached:
+            reached.append(lim.name)
+    sources = rec_model.arrhenius_sources
     steady = rc.steady_states(model.contents_mass, sources, constant_power(model), model.ua,
-                              model.ambient_temperature, media,
+                              model.ambient_temperature, rec_model.heating_media,
                               conversion=[rc.rate_conversion(s) if s.autocatalytic  # its largest rate from here on
                                           else 1.0 - s.accumulated_fraction if s.specific_heat_of_reaction else 0.0
                                           for s in sources])
     past = bool(steady.unstable is not None and T_start >= steady.unstable) or (steady.stable is None)
-    peak_T, peak_t = rec.peak_temperature, start + rec.peak_time
-    pre = np.asarray(hist.temperature)[t <= start]
-    if pre.size and pre.max() > peak_T:
-        k = int(np.argmax(pre))
-        peak_T, peak_t = float(pre[k]), float(t[t <= start][k])
+    if pre_T > peak_T:
+        peak_T, peak_t = pre_T, pre_t
     result["recovery"] = {"start_s": start, "peak_temperature_K": peak_T, "peak_time_s": peak_t,
                           "limits_reached": reached, "past_no_return": past}
+    if hist is None:
+        return
+    if rec is None:  # the chart from the engine's state at the restart
+        rec = integrate_history(rec_model)
+    t = np.asarray(hist.time)
     times = np.concatenate([t[t <= start], start + np.asarray(rec.time)])
     temps = np.concatenate([np.asarray(hist.temperature)[t <= start], np.asarray(rec.temperature)])
     result["_recovery_history"] = {"time_s": times.tolist(), "temperature_K": temps.tolist()}

@@ -13,7 +13,7 @@ from screening.case.display import temp
 from screening.core.terms import model_start_temperature
 from screening.run.closed_form_case import ClosedFormValues, screen_closed_form
 from screening.run.closed_form_group import write_case_keys
-from screening.run.daily_cycle import add_cycle_keys, choose_start
+from screening.run.daily_cycle import add_cycle_keys, choose_start, with_start
 from screening.run.memo_inputs import case_fields, derived_inputs
 from screening.run.monte_carlo import analyse
 from screening.run.runaway_case import screen_with_arrhenius
@@ -31,13 +31,19 @@ def screen_prepared(prepared: PreparedCase, input_hash: str | None = None,
     e.g. by the vectorised engine for a register; ``sadt_searches`` likewise the SADT
     searches of a register chunk's storage rows (:func:`screening.run.sadt_case.sadt_searches`),
     ``arrhenius_values`` the vectorised engine's runs of a case with Arrhenius sources
-    (:func:`screening.run.runaway_case.arrhenius_values`), and ``conduction`` (unstirred cases) the
+    (:func:`screening.run.runaway_case.arrhenius_values`; with a daily cycle only runs that carry the start
+    time of day they were made with, ``start_info``), and ``conduction`` (unstirred cases) the
     case's :class:`screening.run.conduction_case.ConductionSolution` from a register chunk's batch.
     """
     if prepared.model.daily_cycle is not None:
-        values = arrhenius_values = None  # engine values from elsewhere do not know the start time of day chosen here
-        conduction = None
-    prepared, start_info = choose_start(prepared)  # a daily cycle without a stated start: the worst hourly start
+        values = conduction = None  # engine values from elsewhere do not know the start time of day chosen here
+        if arrhenius_values is not None and arrhenius_values.start_info is None:
+            arrhenius_values = None
+    if arrhenius_values is not None and arrhenius_values.start_info is not None:  # runs made from a chosen start
+        start_info = arrhenius_values.start_info
+        prepared = with_start(prepared, start_info["start_time_of_day_s"])
+    else:
+        prepared, start_info = choose_start(prepared)  # a daily cycle without a stated start: the worst hourly start
     model = prepared.model
     if model.arrhenius_sources:
         core = screen_with_arrhenius(prepared, arrhenius_values, with_history=with_history)

@@ -91,11 +91,13 @@ def test_engine_values_give_the_single_case_results(monkeypatch):
 
 
 def test_cases_outside_the_engine_keep_the_single_case_integrator():
-    # boiling data (the engine has no boiling) and a recovery path (it needs the history): the single-case
-    # integrator, with its texts
+    # tempering credit from boiling (open venting, no gas-generating reaction; the engine has no boiling):
+    # the single-case integrator, with its texts
     rng = np.random.default_rng(7)
     data = random_case(rng, 0)
     data["contents"].update(boiling_point="100 degC", latent_heat="2257 kJ/kg")
+    data["vessel"] = {"venting": "open"}
+    data["heat_sources"][0]["gas_generating"] = False
     p = prepared_of(data)
     assert p.model.boiling is not None
     assert not engine_eligible(p) and arrhenius_values([p]) == [None]
