@@ -4,6 +4,7 @@ from __future__ import annotations
 import textwrap
 
 from screening.case.display import dtemp, duration, temp
+from screening.core.fire_exposure import CONSTANT_ADEQUATE_DRAINAGE, CONSTANT_INADEQUATE_DRAINAGE
 from screening.report import readings
 
 
@@ -205,10 +206,11 @@ def _geometry_and_fire_lines(r: dict) -> list[str]:
     for fire in r.get("fire") or []:
         if not isinstance(fire, dict) or fire.get("power_W") is None:
             continue
-        factor = 43.2 if fire.get("drainage_and_firefighting", True) else 70.9
-        lines.append(_wrap(f"Fire heat input {fire['power_W'] / 1e3:.4g} kW = {factor} kW x F {fire['environment_factor']:.3g}"
+        drained = fire.get("drainage_and_firefighting", True)
+        factor = (CONSTANT_ADEQUATE_DRAINAGE if drained else CONSTANT_INADEQUATE_DRAINAGE) / 1e3
+        lines.append(_wrap(f"Fire heat input {fire['power_W'] / 1e3:.4g} kW = {factor:g} kW x F {fire['environment_factor']:.3g}"
                            f" x A^0.82 on a wetted area A of {fire['wetted_area_m2']:.4g} m² (API Standard 521, "
-                           f"{'with' if factor == 43.2 else 'without'} adequate drainage and fire-fighting)", ""))
+                           f"{'with' if drained else 'without'} adequate drainage and fire-fighting)", ""))
     return lines
 
 
